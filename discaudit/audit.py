@@ -1,0 +1,115 @@
+"""``preflight``: input -> validated data with moments -> checks -> verdict."""
+
+from __future__ import annotations
+
+import time
+import warnings
+from typing import Any
+
+from discaudit import checks
+from discaudit._plain import label
+from discaudit.config import Config
+from discaudit.findings import Finding, skipped, worst
+from discaudit.intake import AuditData, load
+from discaudit.result import Recommendation, Verdict
+from discaudit.verdict import decide, suggested_params
+
+
+def preflight(
+    X: Any,
+    y: Any = None,
+    *,
+    target: str | None = None,
+    config: Config | None = None,
+    random_state: int | None = 0,
+) -> Verdict:
+    """Audit a labelled data set before fitting a discriminant classifier.
+
+    Runs every check (data hygiene, sample size, scale disparity, collinearity, outliers,
+    normality, covariance homogeneity, separation, discriminant signal) and turns the
+    findings into a recommendation among LDA, regularized LDA, QDA and logistic
+    regression. Nothing is fitted.
+
+    Parameters
+    ----------
+    X : DataFrame or array-like, shape (n, p)
+        Features, or a DataFrame that also holds the target column named by ``target``.
+    y : array-like, shape (n,), optional
+        Class labels (when ``target`` is not given).
+    target : str, optional
+        Name of the class column in the DataFrame ``X``.
+    config : Config, optional
+        Thresholds and policies; defaults documented in :class:`Config`.
+    random_state : int or None, default 0
+        Seed of every random step (robust fits, subsamples), so a verdict is reproducible.
+
+    Returns
+    -------
+    Verdict
+
+    Raises
+    ------
+    DataError
+        When the input makes an audit impossible (no target, one class, a class with one
+        row, no numeric feature, non-finite values under the default policy); the message
+        names the column, class or row at fault.
+
+    Examples
+    --------
+    >>> import discaudit  # doctest: +SKIP
+    >>> v = discaudit.preflight(df, target="family")  # doctest: +SKIP
+    >>> v.recommendation.model  # doctest: +SKIP
+    'regularized_lda'
+    """
+    config = config or Config()
+    data = load(X, y, target=target, config=config)
+    findings: dict[str, Finding] = {}
+    timings: dict[str, float] = {}
+    for key, run in checks.registry():
+        start = time.perf_counter()
+        if config.severity_of(key) == "off":
+            findings[key] = skipped(key, "Turned off in Config.severity.")
+        elif run is None:
+            findings[key] = checks.not_yet_audited(key)
+        else:
+            findings[key] = _run_check(key, run, data, config, random_state)
+        timings[key] = time.perf_counter() - start
+    decision = decide(findings, config)
+    recommendation = Recommendation(
+        model=decision.model,
+        params=suggested_params(decision.model, findings, config),
+        reasons=decision.reasons,
+        alternatives=decision.alternatives,
+        rules_fired=decision.fired,
+    )
+    gating = [f.status for k, f in findings.items() if config.severity_of(k) == "gate"]
+    return Verdict(findings, recommendation, worst(gating), _meta(data, config, random_state, timings))
+
+
+def _run_check(key: str, run: checks.CheckFunction, data: AuditData, config: Config, random_state: int | None) -> Finding:
+    """Run one check, turning third-party warnings into details and errors into a skip."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            finding = run(data, config, random_state)
+        except Exception as exc:  # noqa: BLE001 - a check must never crash the audit
+            return skipped(key, f"The check could not run: {type(exc).__name__}: {exc}", check_error=True)
+    if caught:
+        messages = sorted({f"{w.category.__name__}: {w.message}" for w in caught})
+        details = {**finding.details, "warnings": messages}
+        return Finding(finding.check, finding.status, finding.summary, details, finding.figure)
+    return finding
+
+
+def _meta(data: AuditData, config: Config, random_state: int | None, timings: dict[str, float]) -> dict[str, Any]:
+    return {
+        "n_rows": data.n,
+        "n_features": data.p,
+        "n_classes": len(data.classes),
+        "classes": [label(c) for c in data.classes],
+        "features": list(data.features),
+        "random_state": random_state,
+        "severity": {k: config.severity_of(k) for k in checks.CHECK_KEYS},
+        "config": config.to_dict(),
+        "seconds": timings,
+    }

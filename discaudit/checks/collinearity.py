@@ -1,0 +1,162 @@
+"""Check ``collinearity``: VIF and condition indices of the pooled within-class covariance."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+from discaudit.config import Config
+from discaudit.findings import Finding, fmt, names
+from discaudit.intake import AuditData
+from discaudit.stats.condition_indices import ConditionIndicesResult, condition_indices_from_covariance
+from discaudit.stats.shrinkage import class_centred_fourth_sum, ledoit_wolf_intensity
+from discaudit.stats.vif import vif_from_covariance
+
+KEY = "collinearity"
+_RANK_TOLERANCE = 1e-10
+
+
+def _dependencies(ci: ConditionIndicesResult, features: list[str], config: Config) -> list[dict[str, Any]]:
+    """Near dependencies: dimensions above the warn index with features of proportion > cut."""
+    out = []
+    props = ci.variance_proportions.to_numpy()
+    for k in np.flatnonzero(ci.indices > config.condition_index_warn)[::-1]:
+        involved = [features[j] for j in np.flatnonzero(props[k] > config.variance_proportion)]
+        if len(involved) >= 2:
+            out.append(
+                {
+                    "condition_index": float(ci.indices[k]),
+                    "features": involved,
+                    "proportions": {features[j]: float(props[k, j]) for j in np.flatnonzero(props[k] > config.variance_proportion)},
+                }
+            )
+    return out
+
+
+def _vanishing_combinations(ci: ConditionIndicesResult, sd: np.ndarray, features: list[str]) -> list[dict[str, float]]:
+    """Linear combinations of the raw features that are (numerically) constant within classes.
+
+    An eigenvector v of the correlation matrix with a zero eigenvalue says sum_j v_j x_j / sd_j
+    is constant within every class; coefficients are scaled so the largest is 1.
+    """
+    out = []
+    zero = ci.eigenvalues <= _RANK_TOLERANCE * ci.eigenvalues[0]
+    for k in np.flatnonzero(zero):
+        coef = ci.eigenvectors[:, k] / sd
+        coef = coef / coef[np.argmax(np.abs(coef))]
+        terms = {features[j]: float(coef[j]) for j in np.argsort(-np.abs(coef)) if abs(coef[j]) > 1e-6}
+        out.append(terms)
+    return out
+
+
+def _combination_text(terms: dict[str, float]) -> str:
+    parts = [f"{'-' if c < 0 else '+'} {fmt(abs(c))}*{name}" for name, c in list(terms.items())[:5]]
+    text = " ".join(parts).lstrip("+ ")
+    return text + (" ..." if len(terms) > 5 else "") + " = const"
+
+
+def _shrinkage(data: AuditData) -> dict[str, Any]:
+    """Ledoit-Wolf intensities of the pooled within-class covariance, raw and standardized."""
+    m = data.moments
+    W, N = m.within_scatter, m.n_total
+    scale = np.sqrt(np.diag(W) / N)
+    raw = ledoit_wolf_intensity(W, N, class_centred_fourth_sum(data.values, data.codes, m.means))
+    standardized = ledoit_wolf_intensity(
+        W / np.outer(scale, scale), N, class_centred_fourth_sum(data.values, data.codes, m.means, scale)
+    )
+    return {
+        "ledoit_wolf_raw": raw,
+        "ledoit_wolf_standardized": standardized,
+        "estimator": "Ledoit-Wolf (2004) intensity of the pooled within-class covariance (class-centred rows, "
+        "divisor N); 'standardized' scales each feature to unit pooled within-class variance first",
+    }
+
+
+def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
+    """VIF and Belsley-Kuh-Welsch condition indices of the pooled within-class correlation.
+
+    LDA inverts the pooled within-class covariance, so that is the matrix audited; the VIFs
+    of the total covariance (ignoring classes) are reported beside it. Fails above
+    ``vif_fail`` or ``condition_index_fail`` or on exact rank deficiency (naming the
+    vanishing combination); warns above the warn thresholds.
+    """
+    S = data.moments.pooled_covariance
+    features = list(data.features)
+    if data.p < 2:
+        return Finding(KEY, "pass", "A single feature cannot be collinear.", {"n_features": data.p}, "p = 1")
+    sd = np.sqrt(np.clip(np.diag(S), 0.0, None))
+    usable = sd > 0
+    details: dict[str, Any] = {
+        "matrix": "pooled within-class covariance W/(N-K), as correlation (centred, unit-variance columns)",
+        "thresholds": {
+            "vif_warn": config.vif_warn,
+            "vif_fail": config.vif_fail,
+            "condition_index_warn": config.condition_index_warn,
+            "condition_index_fail": config.condition_index_fail,
+            "variance_proportion": config.variance_proportion,
+        },
+    }
+    if usable.all():
+        details["shrinkage"] = _shrinkage(data)
+    else:
+        details["excluded_no_within_class_variance"] = [f for f, u in zip(features, usable, strict=True) if not u]
+    idx = np.flatnonzero(usable)
+    used = [features[j] for j in idx]
+    if len(idx) < 2:
+        return Finding(KEY, "skip", "Fewer than two features vary within classes.", details, "-")
+    S_used = S[np.ix_(idx, idx)]
+    vifs = vif_from_covariance(S_used)
+    total = data.moments.total_covariance[np.ix_(idx, idx)]
+    ci = condition_indices_from_covariance(S_used, used)
+    dependencies = _dependencies(ci, used, config)
+    vanishing = _vanishing_combinations(ci, sd[idx], used)
+    worst_j = int(np.argmax(vifs))
+    details.update(
+        {
+            "vif_within": dict(zip(used, vifs.tolist(), strict=True)),
+            "vif_total": dict(zip(used, vif_from_covariance(total).tolist(), strict=True)),
+            "max_vif": float(vifs[worst_j]),
+            "max_vif_feature": used[worst_j],
+            "condition_number": ci.condition_number,
+            "condition_indices": ci.indices.tolist(),
+            "near_dependencies": dependencies,
+            "rank_deficient": bool(vanishing),
+            "vanishing_combinations": vanishing,
+        }
+    )
+    if vanishing:
+        details["rank_deficient_reason"] = "pooled within-class covariance is singular: VIF is infinite"
+        return Finding(
+            KEY,
+            "fail",
+            f"Exact linear dependency within classes: {_combination_text(vanishing[0])}; drop one of these features.",
+            details,
+            "rank deficient",
+        )
+    max_vif, cond = float(vifs[worst_j]), ci.condition_number
+    figure = f"max VIF {fmt(max_vif)}"
+    high = [f for f, v in zip(used, vifs, strict=True) if v > config.vif_warn]
+    dep_text = ""
+    if dependencies:
+        dep_text = f"; strongest near dependency (index {fmt(dependencies[0]['condition_index'])}) joins " + names(
+            dependencies[0]["features"]
+        )
+    if max_vif > config.vif_fail or cond > config.condition_index_fail:
+        return Finding(
+            KEY,
+            "fail",
+            f"Serious collinearity: VIF up to {fmt(max_vif)} ({used[worst_j]}), condition number {fmt(cond)}{dep_text}.",
+            details,
+            figure,
+        )
+    if max_vif > config.vif_warn or cond > config.condition_index_warn:
+        return Finding(
+            KEY,
+            "warn",
+            f"Moderate collinearity: VIF above {fmt(config.vif_warn)} for {names(high) or 'none'}, condition "
+            f"number {fmt(cond)}{dep_text}.",
+            details,
+            figure,
+        )
+    return Finding(KEY, "pass", f"No collinearity of note: max VIF {fmt(max_vif)}, condition number {fmt(cond)}.", details, figure)

@@ -1,0 +1,53 @@
+"""Check ``discriminant_signal``: is there anything to discriminate?"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+from discaudit.config import Config
+from discaudit.errors import DataError
+from discaudit.findings import Finding, fmt, fmt_p
+from discaudit.intake import AuditData
+from discaudit.stats.wilks_lambda import wilks_lambda_from_moments
+
+KEY = "discriminant_signal"
+
+
+def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
+    """Wilks' Lambda with Rao's F, Fisher's criterion per direction and canonical correlations.
+
+    Fails when Lambda is not significant at ``signal_alpha`` (the class means may be
+    equal: any classifier would be guessing); warns when Lambda exceeds
+    ``weak_signal_lambda`` (under 10% of the generalized variance lies between classes).
+    """
+    try:
+        w = wilks_lambda_from_moments(data.moments)
+    except DataError as exc:
+        return Finding(KEY, "skip", "The pooled covariance is singular (see collinearity); Wilks' Lambda is undefined.",
+                       {"reason": str(exc)}, "-")
+    share = w.eigenvalues / w.eigenvalues.sum() if w.eigenvalues.sum() > 0 else np.zeros_like(w.eigenvalues)
+    details: dict[str, Any] = {
+        "wilks_lambda": w.statistic,
+        "f": w.f,
+        "df1": w.df1,
+        "df2": w.df2,
+        "p_value": w.p_value,
+        "eigenvalues": w.eigenvalues.tolist(),
+        "canonical_correlations": w.canonical_correlations.tolist(),
+        "share_of_discrimination": share.tolist(),
+        "alpha": config.signal_alpha,
+        "weak_signal_lambda": config.weak_signal_lambda,
+        "definition": "Lambda = det W / det(W + B); eigenvalues of W^-1 B; Rao's F approximation",
+    }
+    figure = f"Lambda {fmt(w.statistic)}"
+    text = (
+        f"Wilks' Lambda {fmt(w.statistic)} (F = {fmt(w.f)} on {fmt(w.df1)} and {fmt(w.df2)} df, {fmt_p(w.p_value)}); "
+        f"first canonical correlation {fmt(float(w.canonical_correlations[0]))}"
+    )
+    if not w.p_value < config.signal_alpha:
+        return Finding(KEY, "fail", f"No significant difference between class means: {text}.", details, figure)
+    if w.statistic > config.weak_signal_lambda:
+        return Finding(KEY, "warn", f"Weak discriminant signal: {text}.", details, figure)
+    return Finding(KEY, "pass", f"Clear discriminant signal: {text}.", details, figure)

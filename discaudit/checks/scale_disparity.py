@@ -1,0 +1,71 @@
+"""Check ``scale_disparity``: features on wildly different scales (a conditioning warning)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from discaudit.config import Config
+from discaudit.findings import Finding, fmt
+from discaudit.intake import AuditData
+from discaudit.stats._linalg import correlation_from_covariance
+
+KEY = "scale_disparity"
+
+
+def _condition_number(S: np.ndarray) -> float:
+    values = np.linalg.eigvalsh((S + S.T) / 2.0)
+    return float(values[-1] / values[0]) if values[0] > 0 else float("inf")
+
+
+def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
+    """Ratio of the largest to the smallest pooled within-class standard deviation.
+
+    Also reports the condition number of the raw and of the standardized pooled covariance:
+    their gap is the part of the ill-conditioning that standardizing removes. LDA itself is
+    invariant to rescaling, so this warns (advice to standardize) but never fails.
+    Threshold ``scale_ratio_warn`` (common practice: 1e3).
+    """
+    S = data.moments.pooled_covariance
+    sd = np.sqrt(np.clip(np.diag(S), 0.0, None))
+    positive = sd > 0
+    raw_cond = _condition_number(S)
+    details: dict[str, object] = {
+        "pooled_within_sd": dict(zip(data.features, sd.tolist(), strict=True)),
+        "threshold": config.scale_ratio_warn,
+        "condition_number_raw": raw_cond,
+        "definition": "standard deviations from the pooled within-class covariance W/(N-K); "
+        "condition numbers are eigenvalue ratios of that covariance and of its correlation matrix",
+    }
+    if not positive.all():
+        zero = [data.features[j] for j in np.flatnonzero(~positive)]
+        details["zero_within_class_sd"] = zero
+        return Finding(
+            KEY,
+            "warn",
+            f"{', '.join(zero)} do not vary within any class (each class has one value), so scales cannot be "
+            "compared and the pooled covariance is singular.",
+            details,
+            "SD ratio n/a",
+        )
+    ratio = float(sd.max() / sd.min())
+    largest, smallest = data.features[int(np.argmax(sd))], data.features[int(np.argmin(sd))]
+    std_cond = _condition_number(correlation_from_covariance(S))
+    details.update(
+        {
+            "sd_ratio": ratio,
+            "largest_sd_feature": largest,
+            "smallest_sd_feature": smallest,
+            "condition_number_standardized": std_cond,
+        }
+    )
+    figure = f"SD ratio {fmt(ratio)}"
+    if ratio > config.scale_ratio_warn:
+        return Finding(
+            KEY,
+            "warn",
+            f"{largest} varies {fmt(ratio)} times more than {smallest}; standardize the features before fitting "
+            f"(condition number {fmt(raw_cond)} raw, {fmt(std_cond)} standardized).",
+            details,
+            figure,
+        )
+    return Finding(KEY, "pass", f"Feature scales differ at most {fmt(ratio)}-fold.", details, figure)

@@ -1,0 +1,152 @@
+"""Every threshold the audit applies, with its default and its source.
+
+``Config`` is frozen and validated when it is made, so a bad value fails at once with a
+message naming the field, never deep inside a check.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass, field
+from typing import Any
+
+from discaudit.errors import DataError
+
+CHECK_KEYS = (
+    "data_hygiene",
+    "sample_size",
+    "scale_disparity",
+    "collinearity",
+    "outliers",
+    "normality",
+    "covariance_homogeneity",
+    "separation",
+    "discriminant_signal",
+)
+
+MISSING_POLICIES = ("error", "drop_rows")
+NON_NUMERIC_POLICIES = ("error", "drop")
+SEVERITIES = ("gate", "advisory", "off")
+
+
+def _threshold(default: Any, doc: str, source: str) -> Any:
+    return field(default=default, metadata={"doc": doc, "source": source})
+
+
+@dataclass(frozen=True)
+class Config:
+    """Thresholds and policies of the audit.
+
+    Every field documents its default and where the default comes from; a field marked
+    *common practice* has no single published source. See ``Config.describe()``.
+    """
+
+    missing: str = _threshold(
+        "error", "NaN/inf in a feature: 'error' raises DataError, 'drop_rows' drops those rows.", "design choice"
+    )
+    non_numeric: str = _threshold(
+        "error", "Non-numeric feature columns: 'error' raises DataError, 'drop' sets them aside.", "design choice"
+    )
+    vif_warn: float = _threshold(5.0, "VIF above this is worth a look.", "common practice")
+    vif_fail: float = _threshold(
+        10.0, "VIF above this is serious collinearity.", "Kutner, Nachtsheim, Neter & Li, Applied Linear Statistical Models"
+    )
+    condition_index_warn: float = _threshold(
+        10.0, "Condition index above this is a moderate near dependency.", "Belsley, Kuh & Welsch (1980)"
+    )
+    condition_index_fail: float = _threshold(
+        30.0, "Condition index above this is a strong near dependency.", "Belsley, Kuh & Welsch (1980)"
+    )
+    variance_proportion: float = _threshold(
+        0.5, "A feature belongs to a near dependency when its variance proportion exceeds this.", "Belsley, Kuh & Welsch (1980)"
+    )
+    scale_ratio_warn: float = _threshold(
+        1e3, "Largest over smallest pooled within-class SD above this: standardize.", "common practice"
+    )
+    box_m_alpha: float = _threshold(
+        0.001, "Significance level for Box's M.", "Tabachnick & Fidell, Using Multivariate Statistics (common practice)"
+    )
+    bic_margin: float = _threshold(
+        10.0,
+        "BIC difference (shared minus separate covariances) above which separate covariances are strongly favoured.",
+        "Kass & Raftery (1995, JASA 90:773-795): a BIC difference above 10 is very strong evidence",
+    )
+    rows_per_feature_warn: float = _threshold(
+        10.0, "Total rows per feature below this: the pooled covariance is poorly estimated.", "common practice (5 to 20 is quoted)"
+    )
+    qda_rows_per_feature: float = _threshold(
+        5.0, "QDA needs at least this many rows per feature in its smallest class.", "common practice"
+    )
+    imbalance_warn: float = _threshold(
+        10.0, "Largest over smallest class size above this: report the imbalance.", "common practice"
+    )
+    signal_alpha: float = _threshold(0.05, "Significance level for Wilks' Lambda.", "conventional 5% level")
+    weak_signal_lambda: float = _threshold(
+        0.9, "Wilks' Lambda above this (under 10% of variance between classes) is a weak signal.", "common practice"
+    )
+    outlier_quantile: float = _threshold(
+        0.975, "Chi-square quantile for flagging robust squared distances.", "Rousseeuw & van Zomeren (1990)"
+    )
+    outlier_fraction_warn: float = _threshold(
+        0.05, "Share of a class flagged as outlying above this: warn.", "common practice"
+    )
+    normality_alpha: float = _threshold(0.001, "Significance level for the multivariate normality tests.", "common practice")
+    few_distinct_values: int = _threshold(
+        5, "A feature with at most this many distinct values is treated as discrete.", "common practice"
+    )
+    pairwise_max_rows: int = _threshold(
+        5000, "Rows per class above which pairwise statistics use a seeded random subsample.", "design choice (cost grows as n^2)"
+    )
+    severity: dict[str, str] = field(
+        default_factory=dict,
+        metadata={
+            "doc": "Per-check severity: 'gate' (default), 'advisory' (never fails the gate) or 'off' (skipped).",
+            "source": "design choice",
+        },
+    )
+
+    def __post_init__(self) -> None:
+        if self.missing not in MISSING_POLICIES:
+            raise DataError(f"Config.missing must be one of {MISSING_POLICIES}; got {self.missing!r}.")
+        if self.non_numeric not in NON_NUMERIC_POLICIES:
+            raise DataError(f"Config.non_numeric must be one of {NON_NUMERIC_POLICIES}; got {self.non_numeric!r}.")
+        for f in dataclasses.fields(self):
+            value = getattr(self, f.name)
+            if f.type in ("float", "int"):
+                if isinstance(value, bool) or not isinstance(value, (int, float)):
+                    raise DataError(f"Config.{f.name} must be a number; got {value!r}.")
+                if not value > 0:
+                    raise DataError(f"Config.{f.name} must be positive; got {value!r}.")
+        for name in ("box_m_alpha", "signal_alpha", "normality_alpha", "outlier_fraction_warn", "variance_proportion"):
+            if not 0 < getattr(self, name) < 1:
+                raise DataError(f"Config.{name} must lie strictly between 0 and 1; got {getattr(self, name)!r}.")
+        if not 0.5 < self.outlier_quantile < 1:
+            raise DataError(f"Config.outlier_quantile must lie in (0.5, 1); got {self.outlier_quantile!r}.")
+        if self.vif_fail < self.vif_warn:
+            raise DataError("Config.vif_fail must not be below Config.vif_warn.")
+        if self.condition_index_fail < self.condition_index_warn:
+            raise DataError("Config.condition_index_fail must not be below Config.condition_index_warn.")
+        if not isinstance(self.severity, dict):
+            raise DataError(f"Config.severity must be a mapping of check to severity; got {self.severity!r}.")
+        for key, level in self.severity.items():
+            if key not in CHECK_KEYS:
+                raise DataError(f"Config.severity names an unknown check {key!r}; checks are {list(CHECK_KEYS)}.")
+            if level not in SEVERITIES:
+                raise DataError(f"Config.severity[{key!r}] must be one of {SEVERITIES}; got {level!r}.")
+
+    def severity_of(self, check: str) -> str:
+        """Severity of a check: 'gate', 'advisory' or 'off'."""
+        return self.severity.get(check, "gate")
+
+    @classmethod
+    def describe(cls) -> list[dict[str, Any]]:
+        """Each field with its default, meaning and source."""
+        out = []
+        for f in dataclasses.fields(cls):
+            default = f.default if f.default is not dataclasses.MISSING else f.default_factory()  # type: ignore[misc]
+            out.append({"name": f.name, "default": default, "doc": f.metadata["doc"], "source": f.metadata["source"]})
+        return out
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain mapping of every field (used in reports)."""
+        return {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}

@@ -1,0 +1,138 @@
+"""Per-class counts, means and centred scatter matrices: the sufficient statistics of LDA.
+
+Every closed-form check reads a :class:`ClassMoments`; none re-reads the raw data. Moments
+are mergeable: two partial results over disjoint rows combine exactly (Chan, Golub & LeVeque
+1979), so chunked, streamed and distributed input can reuse them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+FloatArray = npt.NDArray[np.float64]
+
+
+@dataclass(frozen=True)
+class ClassMoments:
+    """Counts, means and centred scatter matrices per class.
+
+    Attributes
+    ----------
+    classes : tuple
+        Class labels, in the order of the leading axis of the arrays.
+    counts : ndarray, shape (K,)
+        Rows per class.
+    means : ndarray, shape (K, p)
+        Class means.
+    scatter : ndarray, shape (K, p, p)
+        Centred scatter matrices ``sum_i (x_i - m_k)(x_i - m_k)'`` per class.
+
+    References
+    ----------
+    Chan, T. F., Golub, G. H. & LeVeque, R. J. (1979). Updating formulae and a pairwise
+    algorithm for computing sample variances. Stanford CS report STAN-CS-79-773.
+    """
+
+    classes: tuple[Any, ...]
+    counts: npt.NDArray[np.int64]
+    means: FloatArray
+    scatter: FloatArray
+
+    @classmethod
+    def from_arrays(cls, X: FloatArray, codes: npt.NDArray[np.intp], classes: tuple[Any, ...]) -> ClassMoments:
+        """Moments of ``X`` (n, p) grouped by integer ``codes`` into ``len(classes)`` classes.
+
+        Each class is centred at its own mean before the scatter is formed (two-pass, so
+        the result does not suffer the cancellation of ``sum x x' - n m m'``).
+        """
+        K, p = len(classes), X.shape[1]
+        counts = np.bincount(codes, minlength=K).astype(np.int64)
+        means = np.zeros((K, p))
+        scatter = np.zeros((K, p, p))
+        order = np.argsort(codes, kind="stable")
+        bounds = np.concatenate(([0], np.cumsum(counts)))
+        for k in range(K):
+            if counts[k] == 0:
+                continue
+            block = X[order[bounds[k] : bounds[k + 1]]]
+            means[k] = block.mean(axis=0)
+            centred = block - means[k]
+            scatter[k] = centred.T @ centred
+        return cls(tuple(classes), counts, means, scatter)
+
+    def merge(self, other: ClassMoments) -> ClassMoments:
+        """Exact moments of the union of two disjoint sets of rows.
+
+        Classes present in only one part are carried over; the result lists classes in
+        the order of ``self`` followed by new classes of ``other``.
+        """
+        classes = list(self.classes) + [c for c in other.classes if c not in self.classes]
+        p = self.means.shape[1]
+        K = len(classes)
+        counts = np.zeros(K, dtype=np.int64)
+        means = np.zeros((K, p))
+        scatter = np.zeros((K, p, p))
+        for part in (self, other):
+            for j, label in enumerate(part.classes):
+                k = classes.index(label)
+                na, nb = counts[k], part.counts[j]
+                if nb == 0:
+                    continue
+                n = na + nb
+                delta = part.means[j] - means[k]
+                means[k] = means[k] + delta * (nb / n)
+                scatter[k] = scatter[k] + part.scatter[j] + np.outer(delta, delta) * (na * nb / n)
+                counts[k] = n
+        return ClassMoments(tuple(classes), counts, means, scatter)
+
+    @property
+    def n_classes(self) -> int:
+        return len(self.classes)
+
+    @property
+    def n_features(self) -> int:
+        return int(self.means.shape[1])
+
+    @property
+    def n_total(self) -> int:
+        return int(self.counts.sum())
+
+    @property
+    def grand_mean(self) -> FloatArray:
+        return np.asarray(self.counts @ self.means / self.n_total, dtype=np.float64)
+
+    @property
+    def within_scatter(self) -> FloatArray:
+        """W = sum of the class scatter matrices."""
+        return np.asarray(self.scatter.sum(axis=0), dtype=np.float64)
+
+    @property
+    def between_scatter(self) -> FloatArray:
+        """B = sum_k n_k (m_k - m)(m_k - m)'."""
+        d = self.means - self.grand_mean
+        return np.asarray((d * self.counts[:, None]).T @ d, dtype=np.float64)
+
+    @property
+    def pooled_covariance(self) -> FloatArray:
+        """Pooled within-class covariance W / (N - K), the matrix LDA inverts."""
+        return self.within_scatter / (self.n_total - self.n_classes)
+
+    @property
+    def total_covariance(self) -> FloatArray:
+        """Total covariance (W + B) / (N - 1), ignoring class labels."""
+        return (self.within_scatter + self.between_scatter) / (self.n_total - 1)
+
+    def class_covariances(self) -> FloatArray:
+        """Unbiased per-class covariances S_k / (n_k - 1), shape (K, p, p); NaN for a one-row class."""
+        dof = (self.counts - 1).astype(np.float64)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return np.where(dof[:, None, None] > 0, self.scatter / np.maximum(dof, 1.0)[:, None, None], np.nan)
+
+    def subset(self, features: npt.NDArray[np.intp]) -> ClassMoments:
+        """Moments restricted to the given feature positions."""
+        idx = np.asarray(features)
+        return ClassMoments(self.classes, self.counts, self.means[:, idx], self.scatter[:, idx][:, :, idx])

@@ -1,0 +1,1 @@
+"""Renderers of one verdict structure: text, JSON, Markdown, JUnit XML and HTML."""

@@ -1,0 +1,118 @@
+"""Coercion of array-like input for the public statistics.
+
+One place turns what a user passes to a function in :mod:`discaudit.stats` into float64
+arrays, keeping DataFrame column names, and raises :class:`~discaudit.errors.DataError`
+with a message that names the culprit.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+import pandas as pd
+
+from discaudit.errors import DataError
+
+FloatMatrix = npt.NDArray[np.float64]
+
+
+def feature_names(X: Any, p: int) -> list[str]:
+    """Column names of ``X`` if it is a DataFrame, else ``x0 .. x{p-1}``."""
+    if isinstance(X, pd.DataFrame):
+        return [str(c) for c in X.columns]
+    return [f"x{j}" for j in range(p)]
+
+
+def as_matrix(X: Any, *, min_rows: int = 2, name: str = "X") -> tuple[FloatMatrix, list[str]]:
+    """Return ``X`` as a finite float64 matrix (n, p) and its feature names.
+
+    Raises
+    ------
+    DataError
+        If ``X`` is not two-dimensional numeric data, has fewer than ``min_rows`` rows,
+        or holds NaN or infinite values (the offending columns are named).
+    """
+    if isinstance(X, pd.Series):
+        X = X.to_frame()
+    if isinstance(X, pd.DataFrame):
+        bad = [str(c) for c in X.columns if not _is_numeric_dtype(X[c])]
+        if bad:
+            raise DataError(
+                f"{name} has non-numeric columns {_short(bad)}; pass numeric columns only "
+                "(encode or drop the others)."
+            )
+        values = X.to_numpy(dtype=np.float64, copy=False)
+    else:
+        try:
+            values = np.asarray(X, dtype=np.float64)
+        except (TypeError, ValueError) as exc:
+            raise DataError(f"{name} could not be read as numbers ({exc}); pass a numeric array.") from None
+        if values.ndim == 1:
+            values = values[:, None]
+    if values.ndim != 2:
+        raise DataError(f"{name} must be two-dimensional (rows x features); got shape {values.shape}.")
+    n, p = values.shape
+    names = feature_names(X, p)
+    if p == 0:
+        raise DataError(f"{name} has no columns; pass at least one numeric feature.")
+    if n < min_rows:
+        raise DataError(f"{name} has {n} rows; this statistic needs at least {min_rows}.")
+    finite = np.isfinite(values)
+    if not finite.all():
+        counts = (~finite).sum(axis=0)
+        cols = [f"{names[j]} ({int(counts[j])})" for j in np.flatnonzero(counts)]
+        raise DataError(
+            f"{name} has NaN or infinite values in columns {_short(cols)}; drop or impute those rows first."
+        )
+    return np.ascontiguousarray(values), names
+
+
+def as_labels(y: Any, n: int, *, name: str = "y") -> tuple[npt.NDArray[np.intp], list[Any]]:
+    """Return integer class codes (0..K-1) for ``y`` and the class labels in code order.
+
+    Labels are sorted when they are mutually comparable, otherwise kept in order of first
+    appearance, so the result does not depend on row order.
+
+    Raises
+    ------
+    DataError
+        If ``y`` is not one-dimensional, its length differs from ``n``, or a label is missing.
+    """
+    labels = pd.Series(np.asarray(y, dtype=object) if not isinstance(y, pd.Series) else y.to_numpy(dtype=object))
+    if np.ndim(y) != 1 and not isinstance(y, pd.Series):
+        raise DataError(f"{name} must be one-dimensional; got shape {np.shape(y)}.")
+    if len(labels) != n:
+        raise DataError(f"{name} has {len(labels)} labels but X has {n} rows; they must match.")
+    missing = labels.isna().to_numpy()
+    if missing.any():
+        rows = np.flatnonzero(missing)
+        raise DataError(
+            f"{name} has {rows.size} missing labels (first at positions {_short([int(r) for r in rows])}); "
+            "drop those rows or label them."
+        )
+    classes = ordered_unique(labels.tolist())
+    lookup = {c: k for k, c in enumerate(classes)}
+    codes = np.fromiter((lookup[v] for v in labels.tolist()), dtype=np.intp, count=n)
+    return codes, classes
+
+
+def ordered_unique(values: Sequence[Any]) -> list[Any]:
+    """Distinct values, sorted if comparable, else in order of first appearance."""
+    seen = list(dict.fromkeys(values))
+    try:
+        return sorted(seen)
+    except TypeError:
+        return sorted(seen, key=lambda v: (type(v).__name__, str(v)))
+
+
+def _is_numeric_dtype(column: pd.Series) -> bool:
+    return bool(pd.api.types.is_numeric_dtype(column.dtype) or pd.api.types.is_bool_dtype(column.dtype))
+
+
+def _short(items: Sequence[Any], limit: int = 6) -> str:
+    shown = ", ".join(str(i) for i in items[:limit])
+    more = f" and {len(items) - limit} more" if len(items) > limit else ""
+    return f"[{shown}{more}]"

@@ -1,0 +1,118 @@
+"""Ledoit-Wolf shrinkage intensity for the pooled within-class covariance (Ledoit & Wolf 2004)."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+from discaudit.errors import DataError
+from discaudit.moments import ClassMoments
+from discaudit.stats._inputs import as_labels, as_matrix
+
+FloatArray = npt.NDArray[np.float64]
+
+
+def class_centred_fourth_sum(
+    X: FloatArray, codes: npt.NDArray[np.intp], means: FloatArray, scale: FloatArray | None = None
+) -> float:
+    """sum_i ||z_i||^4 for the class-centred rows z_i = (x_i - m_{k(i)}) / scale.
+
+    Computed in blocks of rows so no second full copy of X is held.
+    """
+    total = 0.0
+    inv = None if scale is None else 1.0 / scale
+    for start in range(0, X.shape[0], 65536):
+        block = X[start : start + 65536] - means[codes[start : start + 65536]]
+        if inv is not None:
+            block *= inv
+        sq = np.einsum("ij,ij->i", block, block)
+        total += float(sq @ sq)
+    return total
+
+
+def ledoit_wolf_intensity(within_scatter: FloatArray, n: int, fourth_sum: float) -> float:
+    """Ledoit-Wolf intensity from the pooled scatter W, the row count and sum ||z_i||^4.
+
+    The target is mu I with mu = trace(W/n)/p; the sample covariance has divisor n, as in
+    Ledoit & Wolf (2004, lemma 3.2 and section 3.3) and scikit-learn's implementation.
+    """
+    p = within_scatter.shape[0]
+    if p == 1:
+        return 0.0
+    emp = within_scatter / n
+    mu = np.trace(emp) / p
+    emp_norm2 = float(np.sum(emp**2))
+    beta = (fourth_sum / n - emp_norm2) / (p * n)
+    delta = (emp_norm2 - 2.0 * mu * np.trace(emp) + p * mu**2) / p
+    beta = min(beta, delta)
+    if beta <= 0.0 or delta <= 0.0:
+        return 0.0
+    return float(np.clip(beta / delta, 0.0, 1.0))
+
+
+def shrinkage_intensity(X: Any, y: Any, *, standardize: bool = False) -> float:
+    """Ledoit-Wolf shrinkage intensity of the pooled within-class covariance.
+
+    Parameters
+    ----------
+    X : array-like, shape (n, p)
+        Numeric features.
+    y : array-like, shape (n,)
+        Class labels.
+    standardize : bool, default False
+        False: the features as given (the CONTRACT's definition). True: each feature first
+        divided by its pooled within-class standard deviation, the scale a shrinkage LDA
+        that standardizes (as scikit-learn's does internally) works on.
+
+    Returns
+    -------
+    float
+        Intensity in [0, 1]: the weight on the scaled-identity target mu I in
+        (1 - a) S + a mu I.
+
+    Raises
+    ------
+    DataError
+        If the input is not numeric or lengths differ.
+
+    See Also
+    --------
+    discaudit.stats.condition_indices : whether the pooled covariance needs shrinking at all.
+
+    Notes
+    -----
+    Each row is centred at its class mean; the pooled rows z_i give the sample covariance
+    S = W / N (divisor N, as in Ledoit & Wolf and scikit-learn). With mu = tr(S)/p,
+    d^2 = ||S - mu I||_F^2 / p and b^2 = (sum_i ||z_i||^4 / N - ||S||_F^2) / (p N), the
+    intensity is min(b^2, d^2) / d^2. The intensity is not scale invariant: state which
+    scale an estimator uses. Checked against scikit-learn's ``ledoit_wolf_shrinkage`` on
+    class-centred iris and wine data (tests).
+
+    References
+    ----------
+    Ledoit, O. & Wolf, M. (2004). A well-conditioned estimator for large-dimensional
+    covariance matrices. Journal of Multivariate Analysis 88, 365-411.
+
+    Examples
+    --------
+    >>> from sklearn.datasets import load_wine  # doctest: +SKIP
+    >>> X, y = load_wine(return_X_y=True)  # doctest: +SKIP
+    >>> 0 <= shrinkage_intensity(X, y, standardize=True) <= 1  # doctest: +SKIP
+    True
+    """
+    values, _ = as_matrix(X)
+    codes, classes = as_labels(y, values.shape[0])
+    if len(classes) < 1:
+        raise DataError("shrinkage_intensity needs at least one class.")
+    moments = ClassMoments.from_arrays(values, codes, tuple(classes))
+    W = moments.within_scatter
+    scale = None
+    if standardize:
+        scale = np.sqrt(np.diag(W) / moments.n_total)
+        if np.any(scale <= 0):
+            raise DataError("standardize=True needs every feature to vary within classes.")
+        W = W / np.outer(scale, scale)
+    fourth = class_centred_fourth_sum(values, codes, moments.means, scale)
+    return ledoit_wolf_intensity(W, moments.n_total, fourth)

@@ -1,0 +1,205 @@
+"""From findings to a recommendation: an ordered table of rules, as data.
+
+Each :class:`Rule` reads named findings and thresholds from :class:`Config` and, when it
+fires, returns a reason sentence that cites the figure that fired. Rules are evaluated in
+a fixed order (blocking data problems; dimensionality and conditioning; covariance
+heterogeneity; distribution shape and outliers); the first rule that fires names the
+model, later ones that fire become reasons or rank the alternatives. When none fires the
+recommendation is plain LDA.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+from typing import Any
+
+from discaudit.config import Config
+from discaudit.findings import Finding, fmt, names
+
+MODELS = ("lda", "regularized_lda", "qda", "logistic_regression")
+
+Findings = Mapping[str, Finding]
+
+
+@dataclass(frozen=True)
+class Rule:
+    """One row of the rule table.
+
+    Attributes
+    ----------
+    name : str
+        Stable identifier of the rule.
+    stage : str
+        Where it sits in the fixed order (for readers of the table).
+    reads : tuple of str
+        The findings it reads.
+    model : str
+        The model it argues for.
+    test : callable
+        ``test(findings, config) -> str | None``: the reason sentence when it fires.
+    """
+
+    name: str
+    stage: str
+    reads: tuple[str, ...]
+    model: str
+    test: Callable[[Findings, Config], str | None]
+
+
+def _detail(findings: Findings, key: str, *path: str) -> Any:
+    value: Any = findings[key].details if key in findings else {}
+    for part in path:
+        if not isinstance(value, Mapping):
+            return None
+        value = value.get(part)
+    return value
+
+
+def _status(findings: Findings, key: str) -> str:
+    return findings[key].status if key in findings else "skip"
+
+
+def _pooled_singular(f: Findings, c: Config) -> str | None:
+    if _status(f, "sample_size") == "fail":
+        return (
+            f"sample_size: N - K = {_detail(f, 'sample_size', 'error_df')} does not exceed p = "
+            f"{_detail(f, 'sample_size', 'n_features')}, so the pooled covariance is singular; shrinkage makes it invertible."
+        )
+    if _detail(f, "collinearity", "rank_deficient"):
+        return "collinearity: an exact linear dependency makes the pooled covariance singular; shrinkage makes it invertible."
+    return None
+
+
+def _few_rows(f: Findings, c: Config) -> str | None:
+    rpf = _detail(f, "sample_size", "rows_per_feature")
+    if rpf is not None and rpf < c.rows_per_feature_warn:
+        return (
+            f"sample_size: only {fmt(rpf)} rows per feature (rule of thumb {fmt(c.rows_per_feature_warn)}); "
+            "a shrunk pooled covariance is estimated more stably."
+        )
+    return None
+
+
+def _serious_collinearity(f: Findings, c: Config) -> str | None:
+    if _status(f, "collinearity") != "fail":
+        return None
+    vif = _detail(f, "collinearity", "max_vif")
+    cond = _detail(f, "collinearity", "condition_number")
+    return (
+        f"collinearity: VIF up to {fmt(vif)} and condition number {fmt(cond)} make the inverse pooled covariance "
+        "unstable; shrinkage stabilizes it."
+    )
+
+
+def _unequal_covariances(f: Findings, c: Config) -> str | None:
+    if _status(f, "covariance_homogeneity") != "fail":
+        return None
+    smallest = _detail(f, "sample_size", "smallest_class_rows_per_feature") or 0.0
+    if smallest < c.qda_rows_per_feature:
+        return None
+    dbic = _detail(f, "covariance_homogeneity", "bic", "delta_bic")
+    cls = _detail(f, "covariance_homogeneity", "most_different_class")
+    return (
+        f"covariance_homogeneity: separate class covariances beat a shared one by {fmt(dbic)} BIC (most in class "
+        f"{cls}), and the smallest class has {fmt(smallest)} rows per feature, enough for QDA."
+    )
+
+
+def _influential_outliers(f: Findings, c: Config) -> str | None:
+    if _status(f, "outliers") != "fail":
+        return None
+    return f"outliers: {f['outliers'].summary} Logistic regression does not rest on class means and a pooled covariance."
+
+
+def _non_gaussian(f: Findings, c: Config) -> str | None:
+    if _status(f, "normality") != "fail":
+        return None
+    if _detail(f, "separation", "any_complete"):
+        return None
+    discrete = _detail(f, "normality", "discrete_features") or []
+    what = f"discrete features ({names(discrete)})" if discrete else "classes far from Gaussian"
+    return f"normality: {what}; logistic regression assumes nothing about the feature distribution."
+
+
+RULES: tuple[Rule, ...] = (
+    Rule("pooled_covariance_singular", "blocking", ("sample_size", "collinearity"), "regularized_lda", _pooled_singular),
+    Rule("few_rows_per_feature", "dimensionality", ("sample_size",), "regularized_lda", _few_rows),
+    Rule("serious_collinearity", "conditioning", ("collinearity",), "regularized_lda", _serious_collinearity),
+    Rule("unequal_covariances", "covariance", ("covariance_homogeneity", "sample_size"), "qda", _unequal_covariances),
+    Rule("influential_outliers", "shape", ("outliers",), "logistic_regression", _influential_outliers),
+    Rule("non_gaussian_shape", "shape", ("normality", "separation"), "logistic_regression", _non_gaussian),
+)
+
+_DEFAULT_ORDER = ("lda", "regularized_lda", "logistic_regression", "qda")
+_WHY_NOT = {
+    "lda": "the rules that fired argue against one of its assumptions",
+    "regularized_lda": "no rule found the pooled covariance poorly estimated, so shrinkage only adds bias",
+    "qda": "no rule found unequal covariances that are worth their extra parameters",
+    "logistic_regression": "less efficient than a discriminant model when the Gaussian model holds",
+}
+
+
+@dataclass(frozen=True)
+class Decision:
+    """The model, its reasons and the ranked alternatives, before settings are attached."""
+
+    model: str
+    reasons: list[str]
+    alternatives: list[dict[str, str]]
+    fired: list[str]
+
+
+def decide(findings: Findings, config: Config, rules: tuple[Rule, ...] = RULES) -> Decision:
+    """Evaluate the rule table in order."""
+    fired = [(rule, reason) for rule in rules if (reason := rule.test(findings, config)) is not None]
+    if not fired:
+        model = "lda"
+        reasons = ["No rule fired: no check found a singular or unstable pooled covariance, covariance differences "
+                   "worth their parameters, influential outliers or a strongly non-Gaussian shape, so plain LDA is "
+                   "the most efficient choice."]
+    else:
+        model = fired[0][0].model
+        reasons = [reason for rule, reason in fired if rule.model == model]
+        reasons += [f"Also noted: {reason}" for rule, reason in fired if rule.model != model]
+    ranked: list[dict[str, str]] = []
+    for rule, reason in fired:
+        if rule.model != model and rule.model not in [a["model"] for a in ranked]:
+            ranked.append({"model": rule.model, "reason": f"addresses {rule.name.replace('_', ' ')}, but ranks below "
+                           f"the first rule that fired ({fired[0][0].name.replace('_', ' ')})"})
+    for candidate in _DEFAULT_ORDER:
+        if candidate != model and candidate not in [a["model"] for a in ranked]:
+            ranked.append({"model": candidate, "reason": _WHY_NOT[candidate]})
+    return Decision(model, reasons, ranked, [rule.name for rule, _ in fired])
+
+
+def suggested_params(model: str, findings: Findings, config: Config) -> dict[str, Any]:
+    """Settings for the recommended model, each traceable to a finding."""
+    standardize = _status(findings, "scale_disparity") == "warn"
+    shrink = _detail(findings, "collinearity", "shrinkage") or {}
+    if model == "lda":
+        return {"solver": "svd", "standardize": standardize}
+    if model == "regularized_lda":
+        return {
+            "solver": "lsqr",
+            "shrinkage": round(float(shrink.get("ledoit_wolf_standardized", 0.0)), 4) if shrink else "auto",
+            "shrinkage_estimator": "Ledoit-Wolf on the pooled within-class covariance of standardized features",
+            "standardize": True,
+        }
+    if model == "qda":
+        smallest = _detail(findings, "sample_size", "smallest_class_rows_per_feature") or 1.0
+        reg = min(0.5, 1.0 / float(smallest))
+        return {
+            "reg_param": round(reg, 4),
+            "reg_param_rule": "1 / (rows per feature in the smallest class), capped at 0.5 (heuristic)",
+            "standardize": True,
+        }
+    needs_penalty = bool(_detail(findings, "separation", "any_complete") or _detail(findings, "separation", "any_quasi_complete")) or (
+        (_detail(findings, "sample_size", "rows_per_feature") or 0) < config.rows_per_feature_warn
+    )
+    return {
+        "standardize": True,
+        "penalty": "l2",
+        "C": 1.0 if needs_penalty else 100.0,
+        "penalty_rule": "C = 1 when the classes separate or rows per feature are few, else a light penalty (C = 100)",
+    }
