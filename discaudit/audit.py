@@ -83,7 +83,7 @@ def preflight(
         rules_fired=decision.fired,
     )
     gating = [f.status for k, f in findings.items() if config.severity_of(k) == "gate"]
-    return Verdict(findings, recommendation, worst(gating), _meta(data, config, random_state, timings))
+    return Verdict(findings, recommendation, worst(gating), _meta(data, config, random_state), timings)
 
 
 def _run_check(key: str, run: checks.CheckFunction, data: AuditData, config: Config, random_state: int | None) -> Finding:
@@ -101,7 +101,7 @@ def _run_check(key: str, run: checks.CheckFunction, data: AuditData, config: Con
     return finding
 
 
-def _meta(data: AuditData, config: Config, random_state: int | None, timings: dict[str, float]) -> dict[str, Any]:
+def _meta(data: AuditData, config: Config, random_state: int | None) -> dict[str, Any]:
     return {
         "n_rows": data.n,
         "n_features": data.p,
@@ -111,5 +111,4 @@ def _meta(data: AuditData, config: Config, random_state: int | None, timings: di
         "random_state": random_state,
         "severity": {k: config.severity_of(k) for k in checks.CHECK_KEYS},
         "config": config.to_dict(),
-        "seconds": timings,
     }

@@ -27,6 +27,7 @@ CHECK_KEYS = (
 MISSING_POLICIES = ("error", "drop_rows")
 NON_NUMERIC_POLICIES = ("error", "drop")
 SEVERITIES = ("gate", "advisory", "off")
+OUTLIER_CUTOFFS = ("chi2", "hardin_rocke")
 
 
 def _threshold(default: Any, doc: str, source: str) -> Any:
@@ -90,12 +91,47 @@ class Config:
     outlier_fraction_warn: float = _threshold(
         0.05, "Share of a class flagged as outlying above this: warn.", "common practice"
     )
+    outlier_cutoff: str = _threshold(
+        "chi2",
+        "Cut-off for robust squared distances: 'chi2' (chi-square(p) quantile) or 'hardin_rocke' (F-based).",
+        "Rousseeuw & van Zomeren (1990); Hardin & Rocke (2005, JCGS 14:928-946)",
+    )
+    outlier_mean_shift_warn: float = _threshold(
+        0.1, "Shift of a class mean when its flagged rows are removed, in pooled-Mahalanobis units: warn.", "design choice"
+    )
+    outlier_mean_shift_fail: float = _threshold(
+        0.25, "Shift of a class mean when its flagged rows are removed, in pooled-Mahalanobis units: fail.", "design choice"
+    )
+    outlier_logdet_warn: float = _threshold(
+        0.1,
+        "Per-feature log-determinant excess of the classical over the robust pooled covariance: warn.",
+        "design choice (0.1 is about 10% variance inflation per dimension)",
+    )
+    outlier_logdet_fail: float = _threshold(
+        0.2,
+        "Per-feature log-determinant excess of the classical over the robust pooled covariance: fail.",
+        "design choice (0.2 is about 22% variance inflation per dimension)",
+    )
     normality_alpha: float = _threshold(0.001, "Significance level for the multivariate normality tests.", "common practice")
+    skew_large: float = _threshold(
+        2.0, "Absolute per-feature skewness above this is a substantial departure.", "West, Finch & Curran (1995)"
+    )
+    kurtosis_large: float = _threshold(
+        7.0, "Per-feature excess kurtosis above this is a substantial departure.", "West, Finch & Curran (1995)"
+    )
+    mardia_kurtosis_ratio_large: float = _threshold(
+        1.5,
+        "Mardia's b2,p over its normal expectation p(p+2) above this (or below its inverse): heavy (light) tails.",
+        "design choice (a multivariate t with 8 df gives about 1.5)",
+    )
     few_distinct_values: int = _threshold(
         5, "A feature with at most this many distinct values is treated as discrete.", "common practice"
     )
     pairwise_max_rows: int = _threshold(
         5000, "Rows per class above which pairwise statistics use a seeded random subsample.", "design choice (cost grows as n^2)"
+    )
+    separation_max_rows: int = _threshold(
+        2000, "Rows per comparison above which separation is first tested on a seeded subsample.", "design choice"
     )
     severity: dict[str, str] = field(
         default_factory=dict,
@@ -108,6 +144,8 @@ class Config:
     def __post_init__(self) -> None:
         if self.missing not in MISSING_POLICIES:
             raise DataError(f"Config.missing must be one of {MISSING_POLICIES}; got {self.missing!r}.")
+        if self.outlier_cutoff not in OUTLIER_CUTOFFS:
+            raise DataError(f"Config.outlier_cutoff must be one of {OUTLIER_CUTOFFS}; got {self.outlier_cutoff!r}.")
         if self.non_numeric not in NON_NUMERIC_POLICIES:
             raise DataError(f"Config.non_numeric must be one of {NON_NUMERIC_POLICIES}; got {self.non_numeric!r}.")
         for f in dataclasses.fields(self):

@@ -27,6 +27,9 @@ class Finding:
         Plain JSON values: statistics, p-values, thresholds used, affected features and rows.
     figure : str
         The key figure, short enough for a table cell (e.g. ``"max VIF 41.2"``).
+    arrays : dict
+        Per-row arrays behind the details (e.g. robust distances of every row), for
+        ``Verdict.outlier_rows()`` and the plots; not part of the JSON.
     """
 
     check: str
@@ -34,6 +37,7 @@ class Finding:
     summary: str
     details: dict[str, Any] = field(default_factory=dict)
     figure: str = ""
+    arrays: dict[str, Any] = field(default_factory=dict, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         if self.status not in STATUSES:
@@ -80,6 +84,12 @@ def fmt_p(p: float) -> str:
     if p < 1e-16:
         return "p < 1e-16"
     return f"p = {fmt(p, 2)}"
+
+
+def sentence(parts: list[str]) -> str:
+    """Join clauses with semicolons into one sentence, upper-casing only the first letter."""
+    text = "; ".join(parts)
+    return text[:1].upper() + text[1:] + ("" if text.endswith(".") else ".")
 
 
 def names(items: list[Any], limit: int = 5) -> str:

@@ -40,6 +40,17 @@ class Recommendation:
     alternatives: list[dict[str, str]]
     rules_fired: list[str] = field(default_factory=list)
 
+    def estimator(self) -> Any:
+        """An unfitted scikit-learn estimator configured as recommended.
+
+        A Pipeline with a StandardScaler when the settings advise standardizing. Needs
+        scikit-learn (``pip install discaudit[sklearn]``); raises ImportError saying so
+        otherwise. Nothing is fitted.
+        """
+        from discaudit.estimator import build_estimator
+
+        return build_estimator(self.model, self.params)
+
     def to_dict(self) -> dict[str, Any]:
         return plain(
             {
@@ -66,18 +77,51 @@ class Verdict:
         checks set to ``advisory`` in ``Config.severity`` are shown but do not count.
     meta : dict
         Data shape, classes, seed, configuration and version.
+    timings : dict
+        Seconds spent in each check (not part of the JSON, which stays reproducible).
     """
 
     findings: Mapping[str, Finding]
     recommendation: Recommendation
     status: str
     meta: dict[str, Any]
+    timings: dict[str, float] = field(default_factory=dict, compare=False)
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-able content (no numpy types, no NaN or infinity)."""
         from discaudit.report.json import verdict_to_dict
 
         return verdict_to_dict(self)
+
+    def outlier_rows(self) -> Any:
+        """Rows flagged by the ``outliers`` check, ready to inspect or drop.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Indexed by the input's row labels (all flagged rows, not only those listed in the
+            JSON details), with columns ``class``, ``distance`` (squared robust Mahalanobis),
+            ``classical_distance``, ``cutoff`` and ``ratio`` (distance / cutoff), farthest first
+            within each class. Empty when nothing was flagged or the check did not run.
+        """
+        import pandas as pd
+
+        arrays = self.findings["outliers"].arrays if "outliers" in self.findings else {}
+        columns = ["class", "distance", "classical_distance", "cutoff", "ratio"]
+        if not arrays:
+            return pd.DataFrame(columns=columns)
+        mask = arrays["flagged"]
+        frame = pd.DataFrame(
+            {
+                "class": arrays["class"][mask],
+                "distance": arrays["distance"][mask],
+                "classical_distance": arrays["classical_distance"][mask],
+                "cutoff": arrays["cutoff"][mask],
+            },
+            index=arrays["row_label"][mask],
+        )
+        frame["ratio"] = frame["distance"] / frame["cutoff"]
+        return frame.sort_values(["class", "distance"], ascending=[True, False], kind="stable")
 
     def to_json(self, indent: int | None = 2) -> str:
         """The verdict as JSON text (see ``discaudit.report.json`` for the schema)."""
@@ -87,3 +131,42 @@ class Verdict:
         from discaudit.report.text import render
 
         return render(self)
+
+    def _repr_html_(self) -> str:
+        """The verdict table as HTML, for notebooks (see ``discaudit.report.html_table``)."""
+        from discaudit.report.html_table import render
+
+        return render(self)
+
+    def to_frame(self) -> Any:
+        """One row per check: ``check``, ``status``, ``figure``, ``summary``, ``severity``.
+
+        Returns
+        -------
+        pandas.DataFrame
+            In table order, with a default integer index.
+        """
+        import pandas as pd
+
+        from discaudit.report.table import build
+
+        rows = [(r.check, r.status, r.figure, r.summary, r.severity) for r in build(self).rows]
+        return pd.DataFrame(rows, columns=["check", "status", "figure", "summary", "severity"])
+
+    def to_markdown(self) -> str:
+        """The verdict as Markdown for a pull-request comment (see ``discaudit.report.markdown``)."""
+        from discaudit.report.markdown import render
+
+        return render(self)
+
+    def to_junit(self, fail_on: str = "fail") -> str:
+        """The verdict as JUnit XML, one test case per check (see ``discaudit.report.junit``).
+
+        Parameters
+        ----------
+        fail_on : {"fail", "warn"}, default "fail"
+            Lowest status reported as a ``<failure>``; ``warn`` findings pass otherwise.
+        """
+        from discaudit.report.junit import render
+
+        return render(self, fail_on=fail_on)

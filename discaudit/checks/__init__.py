@@ -15,8 +15,11 @@ from discaudit.checks import (
     covariance_homogeneity,
     data_hygiene,
     discriminant_signal,
+    normality,
+    outliers,
     sample_size,
     scale_disparity,
+    separation,
 )
 from discaudit.config import CHECK_KEYS, Config
 
@@ -33,7 +36,10 @@ _MODULES: dict[str, ModuleType] = {
         sample_size,
         scale_disparity,
         collinearity,
+        outliers,
+        normality,
         covariance_homogeneity,
+        separation,
         discriminant_signal,
     )
 }

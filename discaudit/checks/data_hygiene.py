@@ -6,7 +6,7 @@ import numpy as np
 
 from discaudit._plain import label
 from discaudit.config import Config
-from discaudit.findings import Finding, names
+from discaudit.findings import Finding, names, sentence
 from discaudit.intake import AuditData
 
 KEY = "data_hygiene"
@@ -50,7 +50,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         return Finding(
             KEY,
             "fail",
-            f"{'; '.join(problems).capitalize()} were set aside from the other checks; drop them before fitting.",
+            sentence(problems + ["set aside from the other checks; drop them before fitting"]),
             details,
             figure=f"{set_aside} column{'s' if set_aside > 1 else ''} set aside",
         )
@@ -63,5 +63,5 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         first = next(iter(within_constant.items()))
         notes.append(f"class {first[0]} has constant {names(first[1])}, so its covariance is singular")
     if notes:
-        return Finding(KEY, "warn", "; ".join(notes).capitalize() + ".", details, figure=f"{len(notes)} note(s)")
+        return Finding(KEY, "warn", sentence(notes), details, figure=f"{len(notes)} note(s)")
     return Finding(KEY, "pass", f"All {data.p} features are numeric, finite and vary; no rows dropped.", details, "clean")

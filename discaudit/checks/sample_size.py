@@ -6,7 +6,7 @@ import numpy as np
 
 from discaudit._plain import label
 from discaudit.config import Config
-from discaudit.findings import Finding, fmt
+from discaudit.findings import Finding, fmt, sentence
 from discaudit.intake import AuditData
 
 KEY = "sample_size"
@@ -64,7 +64,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     if imbalance > config.imbalance_warn:
         notes.append(f"classes are imbalanced {fmt(imbalance)} to 1; LDA's priors follow the class shares")
     if notes:
-        return Finding(KEY, "warn", "; ".join(notes).capitalize() + ".", details, figure)
+        return Finding(KEY, "warn", sentence(notes), details, figure)
     return Finding(
         KEY,
         "pass",

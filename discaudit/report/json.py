@@ -4,6 +4,37 @@ Schema (``schema_version`` 1): ``{"schema_version", "discaudit_version", "status
 "recommendation": {"model", "params", "reasons", "alternatives", "rules_fired"},
 "findings": {check: {"check", "status", "figure", "summary", "details"}}, "meta": {...},
 "caution"}``. Keys are stable; non-finite numbers are written as null.
+
+Fields
+------
+schema_version : int
+    1. Raised only when a key is renamed or removed or its meaning changes; new keys may
+    appear within a version, so readers should ignore keys they do not know.
+discaudit_version : str
+    The version that wrote the report.
+status : str
+    ``"pass"``, ``"warn"`` or ``"fail"``: the worst status over the checks that gate
+    (advisory and turned-off checks excluded). ``discaudit check`` exits 1 when it reaches
+    ``--fail-on``.
+recommendation : object
+    ``model`` (``"lda"``, ``"regularized_lda"``, ``"qda"`` or ``"logistic_regression"``),
+    ``params`` (suggested settings), ``reasons`` (sentences), ``alternatives`` (list of
+    ``{"model", "reason"}``, best first), ``rules_fired`` (rule names, in order).
+findings : object
+    One entry per check key, in table order (``data_hygiene``, ``sample_size``,
+    ``scale_disparity``, ``collinearity``, ``outliers``, ``normality``,
+    ``covariance_homogeneity``, ``separation``, ``discriminant_signal``). Each has ``check``,
+    ``status`` (``"pass"``, ``"warn"``, ``"fail"`` or ``"skip"``), ``figure`` (the key figure
+    as text), ``summary`` (one sentence) and ``details`` (the check's statistics, p-values,
+    thresholds and affected features or rows; its keys are described by each check).
+meta : object
+    ``n_rows``, ``n_features``, ``n_classes``, ``classes``, ``features`` (audited, in order),
+    ``random_state``, ``severity`` (check -> ``"gate"``, ``"advisory"`` or ``"off"``) and
+    ``config`` (every :class:`~discaudit.config.Config` field used). Nothing that varies
+    between runs (timings) is written, so the same data, settings and seed give the same
+    JSON.
+caution : str
+    What the audit does not establish.
 """
 
 from __future__ import annotations

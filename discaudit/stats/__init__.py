@@ -7,6 +7,10 @@ result object or a pandas object. They compute numbers only; judgements live in
 
 from discaudit.stats.box_m import BoxMResult, box_m
 from discaudit.stats.condition_indices import ConditionIndicesResult, condition_indices
+from discaudit.stats.henze_zirkler import HenzeZirklerResult, henze_zirkler
+from discaudit.stats.mardia import MardiaResult, mardia
+from discaudit.stats.mcd import MCDResult, mcd
+from discaudit.stats.separation import SeparationResult, detect_separation
 from discaudit.stats.shrinkage import shrinkage_intensity
 from discaudit.stats.vif import vif
 from discaudit.stats.wilks_lambda import WilksLambdaResult, wilks_lambda
@@ -14,9 +18,17 @@ from discaudit.stats.wilks_lambda import WilksLambdaResult, wilks_lambda
 __all__ = [
     "BoxMResult",
     "ConditionIndicesResult",
+    "HenzeZirklerResult",
+    "MCDResult",
+    "MardiaResult",
+    "SeparationResult",
     "WilksLambdaResult",
     "box_m",
     "condition_indices",
+    "detect_separation",
+    "henze_zirkler",
+    "mardia",
+    "mcd",
     "shrinkage_intensity",
     "vif",
     "wilks_lambda",

@@ -1,0 +1,175 @@
+"""Check ``normality``: how far each class is from multivariate normal, and discrete features."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+from scipy import stats as sps
+
+from discaudit._plain import label
+from discaudit.checks._seeds import class_seeds
+from discaudit.config import Config
+from discaudit.errors import DataError
+from discaudit.findings import Finding, fmt, fmt_p, names
+from discaudit.intake import AuditData
+from discaudit.stats.henze_zirkler import henze_zirkler
+from discaudit.stats.mardia import mardia
+
+KEY = "normality"
+_SALT = 4
+
+
+def discrete_features(data: AuditData, limit: int) -> dict[str, int]:
+    """Features taking at most ``limit`` distinct values over all rows, with their counts."""
+    out = {}
+    for j, name in enumerate(data.features):
+        column = data.values[:, j]
+        if np.unique(column[:1000]).size > limit:  # cheap screen before a full pass
+            continue
+        distinct = np.unique(column).size
+        if distinct <= limit:
+            out[name] = int(distinct)
+    return out
+
+
+def _class_shape(X: np.ndarray, features: tuple[str, ...], config: Config, seed: int) -> dict[str, Any]:
+    """Mardia, Henze-Zirkler and the worst per-feature moments of one class."""
+    skew = sps.skew(X, axis=0)
+    kurt = sps.kurtosis(X, axis=0)
+    worst_skew = int(np.nanargmax(np.abs(skew)))
+    worst_kurt = int(np.nanargmax(kurt))
+    out: dict[str, Any] = {
+        "n": int(X.shape[0]),
+        "max_abs_skewness": float(abs(skew[worst_skew])),
+        "max_abs_skewness_feature": features[worst_skew],
+        "max_excess_kurtosis": float(kurt[worst_kurt]),
+        "max_excess_kurtosis_feature": features[worst_kurt],
+    }
+    m = mardia(X, max_rows=config.pairwise_max_rows, random_state=seed)
+    hz = henze_zirkler(X, max_rows=config.pairwise_max_rows, random_state=seed)
+    p = X.shape[1]
+    out.update(
+        {
+            "mardia_skewness": m.skewness,
+            "mardia_skew_statistic": m.skew_statistic,
+            "mardia_skew_df": m.skew_df,
+            "mardia_skew_p_value": m.skew_p_value,
+            "mardia_kurtosis": m.kurtosis,
+            "mardia_kurtosis_ratio": m.kurtosis / (p * (p + 2)),
+            "mardia_kurt_statistic": m.kurt_statistic,
+            "mardia_kurt_p_value": m.kurt_p_value,
+            "henze_zirkler_statistic": hz.statistic,
+            "henze_zirkler_p_value": hz.p_value,
+            "n_used": m.n_used,
+            "subsample_seed": m.random_state if m.n_used < m.n_total else None,
+        }
+    )
+    return out
+
+
+def _grade(shape: dict[str, Any], config: Config) -> tuple[str, str]:
+    """Status of one class: significance first, then the size of the departure."""
+    p_values = [shape["mardia_skew_p_value"], shape["mardia_kurt_p_value"], shape["henze_zirkler_p_value"]]
+    rejects = min(p for p in p_values if p is not None) < config.normality_alpha
+    ratio = shape["mardia_kurtosis_ratio"]
+    large = (
+        shape["max_abs_skewness"] > config.skew_large
+        or shape["max_excess_kurtosis"] > config.kurtosis_large
+        or ratio > config.mardia_kurtosis_ratio_large
+        or ratio < 1.0 / config.mardia_kurtosis_ratio_large
+    )
+    if rejects and large:
+        return "fail", "large departure"
+    if rejects:
+        return "warn", "significant but moderate departure"
+    return "pass", "no significant departure"
+
+
+def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
+    """Per class: Mardia skewness and kurtosis, Henze-Zirkler, worst features; discrete features.
+
+    At large n every test rejects, so a class fails only when a test rejects at
+    ``normality_alpha`` *and* the departure is large: a feature with |skewness| above
+    ``skew_large`` or excess kurtosis above ``kurtosis_large`` (West, Finch & Curran 1995),
+    or Mardia's kurtosis more than ``mardia_kurtosis_ratio_large`` times its normal
+    expectation (or less than its inverse). Rejection with a moderate departure warns.
+    Features with at most ``few_distinct_values`` distinct values cannot be Gaussian and
+    fail the check by themselves.
+    """
+    seeds = class_seeds(random_state, len(data.classes), _SALT)
+    discrete = discrete_features(data, config.few_distinct_values)
+    per_class: dict[Any, Any] = {}
+    statuses = []
+    continuous = [j for j, f in enumerate(data.features) if f not in discrete]
+    features = tuple(data.features[j] for j in continuous)
+    for k, cls in enumerate(data.classes if continuous else ()):
+        X = data.values[np.ix_(data.class_rows(k), continuous)]
+        if X.shape[0] <= X.shape[1] + 1:
+            per_class[label(cls)] = {"skipped": f"{X.shape[0]} rows for {X.shape[1]} features: too few for the tests"}
+            continue
+        try:
+            shape = _class_shape(X, features, config, seeds[k])
+        except DataError as exc:
+            per_class[label(cls)] = {"skipped": str(exc)}
+            continue
+        status, grade = _grade(shape, config)
+        shape["status"], shape["grade"] = status, grade
+        per_class[label(cls)] = shape
+        statuses.append((status, cls, shape))
+    details: dict[str, Any] = {
+        "per_class": per_class,
+        "discrete_features": list(discrete),
+        "distinct_values": discrete,
+        "alpha": config.normality_alpha,
+        "rule": (
+            f"fail when a test rejects at alpha = {config.normality_alpha} and the departure is large "
+            f"(|skewness| > {config.skew_large}, excess kurtosis > {config.kurtosis_large}, or Mardia kurtosis ratio "
+            f"beyond {config.mardia_kurtosis_ratio_large}); warn when a test rejects with a moderate departure; "
+            f"features with at most {config.few_distinct_values} distinct values fail by themselves"
+        ),
+        "covariance_divisor": "n (Mardia, Henze-Zirkler)",
+        "pairwise_max_rows": config.pairwise_max_rows,
+    }
+    failing = [(cls, s) for st, cls, s in statuses if st == "fail"]
+    warning = [(cls, s) for st, cls, s in statuses if st == "warn"]
+    worst_kurt = max((s["mardia_kurtosis_ratio"] for _, _, s in statuses), default=float("nan"))
+    figure = f"{len(failing) + len(warning)}/{len(data.classes)} classes"
+    if discrete:
+        binary = [f for f, n in discrete.items() if n == 2]
+        kind = f"binary ({names(binary)})" if binary else f"discrete ({names(list(discrete))})"
+        return Finding(
+            KEY,
+            "fail",
+            f"Features {kind} take at most {config.few_distinct_values} values and cannot be Gaussian"
+            + (f"; {len(failing)} classes also depart strongly from normality." if failing else "."),
+            details,
+            f"{len(discrete)} discrete feature(s)",
+        )
+    if failing:
+        cls, s = failing[0]
+        return Finding(
+            KEY,
+            "fail",
+            f"{len(failing)} of {len(data.classes)} classes depart strongly from normality; class {cls}: Mardia kurtosis "
+            f"{fmt(s['mardia_kurtosis_ratio'])} x normal, |skewness| up to {fmt(s['max_abs_skewness'])} "
+            f"({s['max_abs_skewness_feature']}), Henze-Zirkler {fmt_p(s['henze_zirkler_p_value'])}.",
+            details,
+            figure,
+        )
+    if warning:
+        cls, s = warning[0]
+        return Finding(
+            KEY,
+            "warn",
+            f"Normality is rejected in {len(warning)} classes but the departure is moderate (class {cls}: Mardia kurtosis "
+            f"{fmt(s['mardia_kurtosis_ratio'])} x normal, |skewness| up to {fmt(s['max_abs_skewness'])}).",
+            details,
+            figure,
+        )
+    if not statuses:
+        return Finding(KEY, "skip", "No class has enough rows for the normality tests.", details, "-")
+    return Finding(
+        KEY, "pass", f"No class departs significantly from normality (largest Mardia kurtosis ratio {fmt(worst_kurt)}).",
+        details, figure,
+    )

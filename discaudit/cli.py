@@ -1,0 +1,426 @@
+"""Command line: ``discaudit check DATA --target COL`` gates a data set in CI.
+
+Reads a CSV (``.csv``, ``.csv.gz``) or Parquet (``.parquet``, ``.pq``) file, runs
+:func:`discaudit.preflight`, writes a report and exits
+
+* 0 when the gate passes (the verdict's status is below ``--fail-on``),
+* 1 when it fails,
+* 2 for a usage or data error, with one line on stderr naming the file, column or key at
+  fault (never a traceback).
+
+Settings come from ``[tool.discaudit]`` of the nearest pyproject.toml or from ``--config
+FILE`` (see :mod:`discaudit.config_file`); command-line options win over the file, which
+wins over the defaults. Report formats are the entries of :data:`FORMATS`; to add one,
+register a renderer there (its name becomes a ``--format`` choice).
+"""
+
+from __future__ import annotations
+
+import argparse
+import contextlib
+import gzip
+import os
+import re
+import sys
+from collections.abc import Callable, Sequence
+from pathlib import Path
+from typing import Any, NoReturn, TextIO
+
+import pandas as pd
+
+from discaudit import config_file
+from discaudit.audit import preflight
+from discaudit.config import MISSING_POLICIES, NON_NUMERIC_POLICIES
+from discaudit.errors import DataError
+from discaudit.progress import Progress
+from discaudit.progress import enabled as progress_enabled
+from discaudit.report.junit import FAIL_ON_LEVELS, fails_gate
+from discaudit.result import Verdict
+
+#: A renderer turns a verdict into report text; it gets the gate level for formats that use it.
+Renderer = Callable[[Verdict, str], str]
+
+
+def _text(verdict: Verdict, fail_on: str) -> str:
+    return str(verdict) + "\n"  # what print(verdict) shows
+
+
+def _json(verdict: Verdict, fail_on: str) -> str:
+    return verdict.to_json() + "\n"
+
+
+def _markdown(verdict: Verdict, fail_on: str) -> str:
+    return verdict.to_markdown()
+
+
+def _junit(verdict: Verdict, fail_on: str) -> str:
+    return verdict.to_junit(fail_on=fail_on)
+
+
+#: ``--format`` name -> renderer. Adding a format is one entry here.
+FORMATS: dict[str, Renderer] = {"text": _text, "json": _json, "markdown": _markdown, "junit": _junit}
+
+#: Files larger than this are read in chunks with a progress line (at a terminal only).
+LARGE_FILE_BYTES = 16_000_000
+_CHUNK_ROWS = 200_000
+_CONFIG_ADVICE = re.compile(r"Config\((missing|non_numeric)='(\w+)'\)")
+_SUFFIXES = {".csv": "csv", ".csv.gz": "csv", ".parquet": "parquet", ".pq": "parquet"}
+
+EPILOG = """\
+examples:
+  discaudit check flakes.csv --target family --index-col flake_id
+  discaudit check flakes.csv --target family --index-col flake_id --format markdown --output audit.md
+  discaudit check data.parquet --target label --format json --output audit.json
+  discaudit check data.csv.gz --target label --exclude batch,operator --fail-on warn
+  discaudit check data.csv --target label --format junit --output discaudit.xml --config ci/discaudit.toml
+
+exit status:
+  0  the gate passed: the verdict's status is below --fail-on (advisory checks never count)
+  1  the gate failed
+  2  usage or data error; one line on stderr names the file, column or key at fault
+
+settings:
+  Thresholds and per-check severities come from [tool.discaudit] in the nearest
+  pyproject.toml (searching from the current directory upward), or from the TOML file given
+  by --config. Command-line options override the file, which overrides the defaults.
+  Example:
+    [tool.discaudit]
+    fail_on = "fail"
+    vif_fail = 20
+    [tool.discaudit.severity]
+    normality = "advisory"
+"""
+
+
+class UsageError(Exception):
+    """A command-line usage error (exit status 2)."""
+
+
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose errors are one line and do not exit by themselves."""
+
+    def error(self, message: str) -> NoReturn:
+        raise UsageError(f"{message} (see '{self.prog} --help')")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The ``discaudit`` argument parser (``check`` subcommand)."""
+    from discaudit import __version__
+
+    parser = _Parser(
+        prog="discaudit",
+        description="Pre-flight audit of a labelled data set before fitting a discriminant classifier.",
+        epilog=EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("--version", action="version", version=f"discaudit {__version__}")
+    commands = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
+    check = commands.add_parser(
+        "check",
+        help="audit a CSV or Parquet file and gate on the verdict",
+        description="Audit a CSV or Parquet file, write a report, and exit 0 (gate passed), 1 (gate failed) "
+        "or 2 (usage or data error).",
+        epilog=EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    check.add_argument("data", metavar="DATA", help="data file: .csv, .csv.gz, .parquet or .pq")
+    check.add_argument("--target", required=True, metavar="COL", help="the class column")
+    check.add_argument("--features", metavar="A,B,...", help="audit only these columns (comma-separated)")
+    check.add_argument("--exclude", metavar="A,B,...", help="leave these columns out (comma-separated)")
+    check.add_argument("--index-col", metavar="COL", help="column of row labels used in reports (not a feature)")
+    check.add_argument("--format", choices=list(FORMATS), default="text", help="report format (default: text)")
+    check.add_argument("--output", metavar="FILE", help="write the report to FILE instead of stdout")
+    check.add_argument(
+        "--fail-on",
+        choices=FAIL_ON_LEVELS,
+        default=None,
+        help="lowest status that fails the gate (default: fail_on from the config file, else fail)",
+    )
+    check.add_argument("--seed", type=_seed, default=0, help="seed of every random step (default: 0)")
+    check.add_argument("--config", metavar="FILE", help="TOML settings file (default: nearest pyproject.toml)")
+    check.add_argument("--missing", choices=MISSING_POLICIES, default=None, help="NaN/inf policy (overrides the file)")
+    check.add_argument(
+        "--non-numeric",
+        choices=NON_NUMERIC_POLICIES,
+        default=None,
+        help="non-numeric column policy (overrides the file)",
+    )
+    check.set_defaults(run=run_check)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; return the exit status (0 pass, 1 gate failed, 2 error)."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except UsageError as exc:
+        return _error(str(exc))
+    except SystemExit as exc:  # --help and --version
+        return exc.code if isinstance(exc.code, int) else 0
+    try:
+        return int(args.run(args))
+    except KeyboardInterrupt:
+        return _error("interrupted", status=130)
+
+
+def run_check(args: argparse.Namespace) -> int:
+    """The ``check`` subcommand: read, audit, report, gate."""
+    stage = "reading the settings"
+    where = args.config or "settings"
+    try:
+        settings = config_file.load(args.config) if args.config else config_file.discover()
+        config = config_file.make_config(settings, {"missing": args.missing, "non_numeric": args.non_numeric})
+        fail_on = args.fail_on or settings.fail_on or "fail"
+        stage, where = "reading the data", args.data
+        frame = read_table(
+            args.data,
+            target=args.target,
+            features=_names(args.features),
+            exclude=_names(args.exclude) or (),
+            index_col=args.index_col,
+        )
+        stage = "auditing"
+        with Progress(f"auditing {len(frame)} rows of {Path(args.data).name}"):
+            verdict = preflight(frame, target=args.target, config=config, random_state=args.seed)
+        stage, where = "writing the report", args.output or "<stdout>"
+        report = FORMATS[args.format](verdict, fail_on)
+        failed = fails_gate(verdict.status, fail_on)
+        if args.output:
+            Path(args.output).write_text(report, encoding="utf-8")
+            outcome = "failed" if failed else "passed"
+            _write(sys.stdout, f"discaudit: gate {outcome} (status {verdict.status}, fail-on {fail_on}); "
+                               f"{args.format} report written to {args.output}\n")
+        else:
+            _write(sys.stdout, report)
+        return 1 if failed else 0
+    except DataError as exc:
+        prefix = "" if str(exc).startswith(str(where)) or stage == "reading the settings" else f"{where}: "
+        return _error(prefix + _as_options(str(exc)))
+    except FileNotFoundError as exc:
+        return _error(f"{exc.filename or where}: no such file.")
+    except IsADirectoryError as exc:
+        return _error(f"{exc.filename or where}: is a directory, not a file.")
+    except PermissionError as exc:
+        return _error(f"{exc.filename or where}: permission denied.")
+    except OSError as exc:
+        return _error(f"{getattr(exc, 'filename', None) or where}: {exc.strerror or exc} while {stage}.")
+    except Exception as exc:  # noqa: BLE001 - the command line never shows a traceback
+        if stage == "reading the data":  # pandas and pyarrow parse errors
+            return _error(f"{where}: cannot be read as {_kind_name(args.data)}: {_first_line(exc)}")
+        return _error(
+            f"internal error while {stage} ({type(exc).__name__}: {_first_line(exc)}); please report it with "
+            "the command that caused it."
+        )
+
+
+def read_table(
+    path: str | os.PathLike[str],
+    *,
+    target: str,
+    features: Sequence[str] | None = None,
+    exclude: Sequence[str] = (),
+    index_col: str | None = None,
+    progress: bool | None = None,
+) -> pd.DataFrame:
+    """Read the columns an audit needs from a CSV or Parquet file.
+
+    Parameters
+    ----------
+    path : str or path-like
+        ``.csv``, ``.csv.gz``, ``.parquet`` or ``.pq``; the suffix decides the reader.
+    target : str
+        The class column (must exist).
+    features : sequence of str, optional
+        Feature columns, in this order; default every column but the target and the index.
+    exclude : sequence of str, default ()
+        Columns to leave out of the features.
+    index_col : str, optional
+        Column of row labels, used as the index (a Parquet file's stored pandas index also
+        counts).
+    progress : bool, optional
+        Read in chunks with a progress line on stderr; by default only for files larger
+        than :data:`LARGE_FILE_BYTES` when :func:`discaudit.progress.enabled`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        The features then the target, indexed by ``index_col`` when given.
+
+    Raises
+    ------
+    DataError
+        Unknown suffix, missing target or index column, unknown or conflicting names in
+        ``features``/``exclude``, or no feature left; the message names them.
+    FileNotFoundError
+        When the file does not exist.
+    """
+    path = Path(path)
+    kind = _kind(path)
+    if not path.exists():
+        raise FileNotFoundError(2, "No such file or directory", str(path))
+    if progress is None:
+        progress = progress_enabled() and path.stat().st_size > LARGE_FILE_BYTES
+    if kind == "csv":
+        columns = [str(c) for c in pd.read_csv(path, nrows=0).columns]
+        chosen = _choose(columns, target, features, exclude, index_col)
+        frame = _read_csv(path, [*chosen, target], index_col, progress)
+    else:
+        import pyarrow.parquet as pq
+
+        parquet = pq.ParquetFile(path)
+        columns, stored_index = _parquet_columns(parquet)
+        chosen = _choose(columns, target, features, exclude, index_col, index_names=stored_index)
+        frame = _read_parquet(parquet, path, [*chosen, target], index_col, progress)
+    if index_col is not None:
+        if index_col in frame.columns:
+            frame = frame.set_index(index_col)
+        elif frame.index.name != index_col:  # pragma: no cover - guarded by _choose
+            raise DataError(f"Index column {index_col!r} not found.")
+    return frame[[*chosen, target]]
+
+
+def _kind(path: Path) -> str:
+    name = path.name.lower()
+    for suffix, kind in _SUFFIXES.items():
+        if name.endswith(suffix):
+            return kind
+    raise DataError(
+        f"cannot tell the file format from the name {path.name!r}; use a .csv, .csv.gz, .parquet or .pq file."
+    )
+
+
+def _kind_name(path: str) -> str:
+    try:
+        return {"csv": "CSV", "parquet": "Parquet"}[_kind(Path(path))]
+    except DataError:
+        return "data"
+
+
+def _choose(
+    columns: list[str],
+    target: str,
+    features: Sequence[str] | None,
+    exclude: Sequence[str],
+    index_col: str | None,
+    index_names: Sequence[str] = (),
+) -> list[str]:
+    """The feature columns to read, after checking every name given.
+
+    ``columns`` are the file's data columns; ``index_names`` the names of an index stored
+    with the data (Parquet written by pandas), which only ``--index-col`` may name.
+    """
+    shown = _shown(columns)
+    if target not in columns:
+        raise DataError(f"target column {target!r} not found; the columns are: {shown}.")
+    if index_col is not None:
+        if index_col not in columns and index_col not in index_names:
+            raise DataError(f"index column {index_col!r} (--index-col) not found; the columns are: {shown}.")
+        if index_col == target:
+            raise DataError(f"--index-col {index_col!r} is the target column; pick the column of row labels.")
+    if features is not None and not features:
+        raise DataError("--features names no column; list at least one, e.g. --features a,b.")
+    for option, names in (("--features", features or ()), ("--exclude", exclude)):
+        unknown = [n for n in names if n not in columns]
+        if unknown:
+            raise DataError(f"{option} names columns not in the file: {_shown(unknown)}; the columns are: {shown}.")
+        if target in names:
+            raise DataError(f"{option} names the target column {target!r}; it is never a feature.")
+        if index_col is not None and index_col in names:
+            raise DataError(f"{option} names the index column {index_col!r}; it is never a feature.")
+    pool = list(features) if features else [c for c in columns if c not in (target, index_col)]
+    chosen = [c for c in dict.fromkeys(pool) if c not in set(exclude)]
+    if not chosen:
+        raise DataError("no feature column left after --features/--exclude; keep at least one.")
+    return chosen
+
+
+def _read_csv(path: Path, needed: list[str], index_col: str | None, progress: bool) -> pd.DataFrame:
+    usecols = needed + ([index_col] if index_col else [])
+    if not progress:
+        return pd.read_csv(path, usecols=usecols, low_memory=False)
+    size = path.stat().st_size
+    chunks = []
+    with path.open("rb") as raw, Progress(f"reading {path.name}", total=size, unit="B", show=True) as bar:
+        unpacked = gzip.open(raw) if path.name.lower().endswith(".gz") else contextlib.nullcontext(raw)  # noqa: SIM115
+        with unpacked as handle:
+            for chunk in pd.read_csv(handle, usecols=usecols, low_memory=False, chunksize=_CHUNK_ROWS):
+                chunks.append(chunk)
+                bar.update(raw.tell())  # compressed bytes consumed, for a .gz file
+    return pd.concat(chunks, ignore_index=True) if chunks else pd.read_csv(path, usecols=usecols)
+
+
+def _parquet_columns(parquet: Any) -> tuple[list[str], list[str]]:
+    """Data columns and the names of a stored pandas index, from a Parquet schema."""
+    schema = parquet.schema_arrow
+    meta = schema.pandas_metadata or {}
+    index_fields = [c for c in meta.get("index_columns", []) if isinstance(c, str)]
+    named = {c.get("field_name"): c.get("name") for c in meta.get("columns", [])}
+    stored_index = [str(named[f]) for f in index_fields if named.get(f) is not None]
+    return [n for n in schema.names if n not in index_fields], stored_index
+
+
+def _read_parquet(parquet: Any, path: Path, needed: list[str], index_col: str | None, progress: bool) -> pd.DataFrame:
+    import pyarrow as pa
+
+    columns = needed + ([index_col] if index_col and index_col in parquet.schema_arrow.names else [])
+    if not progress:
+        return parquet.read(columns=columns, use_pandas_metadata=True).to_pandas()
+    groups = parquet.num_row_groups
+    with Progress(f"reading {path.name}", total=groups, unit="row groups", show=True) as bar:
+        tables = []
+        for i in range(groups):
+            tables.append(parquet.read_row_group(i, columns=columns, use_pandas_metadata=True))
+            bar.update(i + 1)
+    if not tables:
+        return parquet.read(columns=columns, use_pandas_metadata=True).to_pandas()
+    return pa.concat_tables(tables).to_pandas()
+
+
+def _as_options(message: str) -> str:
+    """Library advice such as ``Config(missing='drop_rows')`` as the matching option ``--missing drop_rows``."""
+    return _CONFIG_ADVICE.sub(lambda m: f"--{m.group(1).replace('_', '-')} {m.group(2)}", message)
+
+
+def _seed(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"must be a whole number >= 0; got {text!r}") from None
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"must be a whole number >= 0; got {text!r}")
+    return value
+
+
+def _names(option: str | None) -> list[str] | None:
+    if option is None:
+        return None
+    return [n.strip() for n in option.split(",") if n.strip()]
+
+
+def _shown(names: Sequence[str], limit: int = 10) -> str:
+    listed = ", ".join(repr(n) for n in names[:limit])
+    return listed + (f" and {len(names) - limit} more" if len(names) > limit else "")
+
+
+def _first_line(exc: BaseException) -> str:
+    text = " ".join(str(exc).split())
+    return text if len(text) <= 300 else text[:297] + "..."
+
+
+def _error(message: str, status: int = 2) -> int:
+    _write(sys.stderr, f"discaudit: error: {' '.join(message.split())}\n")
+    return status
+
+
+def _write(stream: TextIO, text: str) -> None:
+    try:
+        stream.write(text)
+        stream.flush()
+    except BrokenPipeError:  # the reader went away (e.g. `| head`); nothing more to say
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, stream.fileno())
+
+
+if __name__ == "__main__":  # pragma: no cover
+    raise SystemExit(main())

@@ -1,0 +1,62 @@
+"""HTML verdict table for notebooks (``Verdict._repr_html_``).
+
+Formats the verdict table of :func:`discaudit.report.table.build` (nothing is computed
+here). Status reads without colour: a word and a symbol (``✓ PASS``, ``⚠ WARN``,
+``✗ FAIL``, ``– SKIP``), with ``(advisory)`` for checks that do not gate. Every string is
+HTML-escaped, quotes included, because column names and class labels come from the user and
+appear in summaries. No script and no external resource; the only styling is inline
+alignment, so the table also reads in a plain HTML viewer.
+"""
+
+from __future__ import annotations
+
+from html import escape
+
+from discaudit.report.markdown import status_label
+from discaudit.report.table import MODEL_NAMES, VerdictTable, build, format_params
+from discaudit.result import Verdict
+
+_CELL = 'style="text-align:left; vertical-align:top"'
+
+
+def render(verdict: Verdict) -> str:
+    """The verdict as an HTML fragment (a ``<div>`` holding the table and notes)."""
+    return format_table(build(verdict))
+
+
+def format_table(table: VerdictTable) -> str:
+    """HTML fragment of an already built verdict table."""
+    e = _text
+    parts = [
+        '<div class="discaudit-verdict">',
+        f"<p><strong>{e(table.title)}</strong><br>Gate status: <strong>{e(status_label(table.status))}</strong></p>",
+        "<table>",
+        "<thead><tr>" + "".join(f"<th {_CELL}>{h}</th>" for h in ("check", "status", "key figure", "summary"))
+        + "</tr></thead>",
+        "<tbody>",
+    ]
+    for row in table.rows:
+        parts.append(
+            f'<tr data-status="{e(row.status)}">'
+            f"<td {_CELL}><code>{e(row.check)}</code></td>"
+            f"<td {_CELL}>{e(status_label(row.status, row.severity))}</td>"
+            f"<td {_CELL}>{e(row.figure)}</td>"
+            f"<td {_CELL}>{e(row.summary)}</td></tr>"
+        )
+    parts += ["</tbody>", "</table>"]
+    parts.append(
+        f"<p><strong>Recommendation:</strong> {e(MODEL_NAMES[table.model])} (<code>{e(table.model)}</code>)<br>"
+        f"<strong>Suggested settings:</strong> {e(format_params(table.params))}</p>"
+    )
+    if table.reasons:
+        parts.append("<p><strong>Why:</strong></p><ul>" + "".join(f"<li>{e(r)}</li>" for r in table.reasons) + "</ul>")
+    if table.alternatives:
+        items = "".join(f"<li>{e(MODEL_NAMES[a['model']])}: {e(a['reason'])}</li>" for a in table.alternatives)
+        parts.append(f"<p><strong>Alternatives, best first:</strong></p><ol>{items}</ol>")
+    parts += [f"<p><small>{e(note)}</small></p>" for note in table.notes]
+    parts.append("</div>")
+    return "\n".join(parts)
+
+
+def _text(value: object) -> str:
+    return escape(str(value), quote=True)

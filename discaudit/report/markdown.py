@@ -1,0 +1,63 @@
+"""Markdown verdict for a pull-request or merge-request comment.
+
+Formats the verdict table of :func:`discaudit.report.table.build` (nothing is computed
+here): a heading with the gate status, a table ``check | status | key figure | summary``,
+then the recommendation, the reasons, the suggested settings, the alternatives and the
+notes (advisory checks, the caution). Every user-supplied string (column names and class
+labels end up in summaries) is escaped so it renders as text: Markdown punctuation is
+backslash-escaped (CommonMark lets any ASCII punctuation be escaped, which also stops raw
+HTML such as ``<script>``), and line breaks become spaces so a table row stays one row.
+"""
+
+from __future__ import annotations
+
+import re
+
+from discaudit.report.table import MODEL_NAMES, VerdictTable, build, format_params
+from discaudit.result import Verdict
+
+#: Status words with a symbol, so a status reads without colour.
+STATUS_SYMBOLS = {"pass": "\u2713", "warn": "\u26a0", "fail": "\u2717", "skip": "\u2013"}
+
+_SPECIAL = re.compile(r"([\\`*_\[\]<>#|~&])")
+_SPACE = re.compile(r"\s+")
+
+
+def status_label(status: str, severity: str = "gate") -> str:
+    """``"✗ FAIL"``, with ``" (advisory)"`` for a check that does not gate."""
+    word = f"{STATUS_SYMBOLS.get(status, '?')} {status.upper()}"
+    return word + (" (advisory)" if severity == "advisory" else "")
+
+
+def escape(text: object) -> str:
+    """Text for a Markdown paragraph or table cell: punctuation escaped, one line."""
+    return _SPECIAL.sub(r"\\\1", _SPACE.sub(" ", str(text)).strip())
+
+
+def render(verdict: Verdict) -> str:
+    """The verdict as Markdown (GitHub-flavoured tables)."""
+    return format_table(build(verdict))
+
+
+def format_table(table: VerdictTable) -> str:
+    """Markdown text of an already built verdict table."""
+    lines = [f"### {escape(table.title)}", "", f"**Gate status: {status_label(table.status)}**", ""]
+    lines += ["| check | status | key figure | summary |", "|---|---|---|---|"]
+    for row in table.rows:
+        cells = (f"`{row.check}`", status_label(row.status, row.severity), escape(row.figure), escape(row.summary))
+        lines.append("| " + " | ".join(cells) + " |")
+    lines += ["", f"**Recommendation:** {escape(MODEL_NAMES[table.model])} (`{table.model}`)", ""]
+    if table.reasons:
+        lines.append("**Why:**")
+        lines += [f"- {escape(reason)}" for reason in table.reasons]
+        lines.append("")
+    lines += [f"**Suggested settings:** {escape(format_params(table.params))}", ""]
+    if table.alternatives:
+        lines.append("**Alternatives, best first:**")
+        lines += [
+            f"{i}. {escape(MODEL_NAMES[alt['model']])}: {escape(alt['reason'])}"
+            for i, alt in enumerate(table.alternatives, 1)
+        ]
+        lines.append("")
+    lines += [f"> {escape(note)}" for note in table.notes]
+    return "\n".join(lines) + "\n"

@@ -1,0 +1,556 @@
+"""Complete and quasi-complete separation of the classes, detected by linear programming."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+from scipy import sparse
+from scipy.optimize import linprog
+
+from discaudit.errors import DataError
+from discaudit.stats._inputs import FloatMatrix, as_labels, as_matrix
+from discaudit.stats._sampling import resolve_seed
+
+__all__ = ["SeparationComparison", "SeparationResult", "detect_separation"]
+
+#: Relative singular-value threshold for the span of the boundary rows of a working set.
+_SPAN_TOL = 1e-9
+#: Relative projection residual above which a row is outside that span.
+_MEMBER_TOL = 1e-6
+#: |a_i' beta| below this times ||beta|| max_i ||a_i|| counts as zero (neither strict nor violated).
+_VALUE_TOL = 1e-9
+#: Coefficients of the standardized direction smaller than this are reported as zero.
+_ZERO_COEF = 1e-9
+
+IntArray = npt.NDArray[np.intp]
+
+
+@dataclass(frozen=True)
+class SeparationComparison:
+    """Separation of one class from the others (one comparison).
+
+    Attributes
+    ----------
+    label : object
+        The class on the positive side of the hyperplane.
+    versus : tuple
+        The classes on the other side (one class when K = 2, all the others when K > 2).
+    kind : str
+        ``"complete"``, ``"quasi_complete"`` or ``"none"``.
+    direction : dict[str, float] or None
+        Normal vector of a separating hyperplane over the standardized features (each feature
+        centred and divided by its standard deviation, divisor n), scaled to unit Euclidean
+        length, keyed by feature name. Found by minimizing its L1 norm, so it tends to involve
+        few features. None when ``kind == "none"``.
+    coefficients : dict[str, float] or None
+        The same hyperplane in the original units: sum_j coefficients[j] * x_j + intercept is
+        positive on the strictly separated rows of ``label``, negative on those of ``versus``
+        and zero on the boundary rows.
+    intercept : float or None
+        Intercept of that hyperplane in the original units.
+    margin : float or None
+        Smallest distance, in standardized units, from a strictly separated row to the
+        reported hyperplane (it is not maximized over hyperplanes).
+    separating_features : tuple[str, ...]
+        Features with a nonzero entry in ``direction``, largest absolute entry first.
+    boundary_rows : tuple[int, ...]
+        For quasi-complete separation, the integer positions (0-based, in the input) of the
+        rows that lie on every separating hyperplane; empty otherwise.
+    n_used : int
+        Rows in the final working set of the detection linear program (see Notes of
+        :func:`detect_separation`); the conclusion holds for all rows either way.
+    subsampled : bool
+        True when ``n_used`` is smaller than the number of rows, i.e. the linear programs ran
+        on a seeded random subsample (grown where needed) and the other rows were certified
+        by the checks described in the Notes of :func:`detect_separation`.
+    """
+
+    label: Any
+    versus: tuple[Any, ...]
+    kind: str
+    direction: dict[str, float] | None
+    coefficients: dict[str, float] | None
+    intercept: float | None
+    margin: float | None
+    separating_features: tuple[str, ...]
+    boundary_rows: tuple[int, ...]
+    n_used: int
+    subsampled: bool
+
+    @property
+    def n_boundary(self) -> int:
+        """Number of boundary rows."""
+        return len(self.boundary_rows)
+
+
+@dataclass(frozen=True)
+class SeparationResult:
+    """Outcome of :func:`detect_separation`.
+
+    Attributes
+    ----------
+    comparisons : tuple[SeparationComparison, ...]
+        One entry for K = 2 (the second class against the first, classes in sorted order),
+        else one per class against all the others.
+    any_complete : bool
+        True if some comparison is completely separated.
+    any_quasi_complete : bool
+        True if some comparison is quasi-completely separated.
+    classes : tuple
+        Class labels in code order.
+    feature_names : tuple[str, ...]
+        Feature names in column order.
+    n_total : int
+        Rows passed in.
+    random_state : int or None
+        Seed of the subsamples, or None when no comparison needed one.
+    max_rows : int
+        The subsampling threshold that was in force.
+    notes : tuple[str, ...]
+        Remarks on the input that affected the computation (e.g. constant features ignored).
+    """
+
+    comparisons: tuple[SeparationComparison, ...]
+    any_complete: bool
+    any_quasi_complete: bool
+    classes: tuple[Any, ...]
+    feature_names: tuple[str, ...]
+    n_total: int
+    random_state: int | None
+    max_rows: int
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def any_separation(self) -> bool:
+        """True if some comparison is completely or quasi-completely separated."""
+        return self.any_complete or self.any_quasi_complete
+
+
+def detect_separation(
+    X: Any, y: Any, *, max_rows: int = 2000, random_state: int | None = None
+) -> SeparationResult:
+    """Detect complete and quasi-complete separation of the classes by linear programming.
+
+    Under complete or quasi-complete separation the maximum likelihood estimate of a logistic
+    regression does not exist (coefficients diverge); discriminant analysis is unaffected.
+
+    Parameters
+    ----------
+    X : array-like or DataFrame, shape (n, p)
+        Numeric features. DataFrame column names are used in the result.
+    y : array-like, shape (n,)
+        Class labels, at least two distinct values.
+    max_rows : int, default 2000
+        Comparisons with more rows start from a seeded, class-stratified random subsample of
+        ``max_rows`` rows, grown only as far as needed to certify the answer for all rows;
+        see Notes.
+    random_state : int or None, default None
+        Seed of the subsamples. If None and a subsample is needed, a fresh seed is drawn and
+        recorded in the result.
+
+    Returns
+    -------
+    SeparationResult
+        ``comparisons`` (one :class:`SeparationComparison` each, with ``label``, ``versus``,
+        ``kind``, ``direction``, ``coefficients``, ``intercept``, ``margin``,
+        ``separating_features``, ``boundary_rows``, ``n_used``, ``subsampled``),
+        ``any_complete``, ``any_quasi_complete``, ``classes``, ``feature_names``, ``n_total``,
+        ``random_state``, ``max_rows``, ``notes``.
+
+    Raises
+    ------
+    DataError
+        If ``X`` is not finite numeric data, ``y`` does not match it or has fewer than two
+        classes, or ``max_rows`` is not an integer of at least 2; also if the LP solver fails.
+
+    See Also
+    --------
+    discaudit.stats.mardia.mardia : shape of the class distributions, the other input to the
+        choice between discriminant analysis and logistic regression.
+
+    Notes
+    -----
+    Write s_i = +1 for rows of ``label`` and -1 otherwise, and a_i = s_i (x_i, 1) with x_i the
+    standardized features. Following Albert and Anderson (1984), the classes are
+
+    * completely separated if some beta = (w, b) gives a_i' beta > 0 for every row;
+    * quasi-completely separated if not, but some beta gives a_i' beta >= 0 for every row with
+      strict inequality for at least one row (the rows with equality lie on the hyperplane);
+    * overlapping ("none") otherwise; then the logistic MLE exists (given full column rank).
+
+    The set C = {beta : a_i' beta >= 0 for all i} is a convex cone, so the rows that are strict
+    for *some* member of C are strict simultaneously for one member. The linear program
+
+        maximize sum_i t_i  subject to  a_i' beta >= t_i,  0 <= t_i <= 1,  beta free
+
+    therefore has optimum t_i = 1 exactly on that maximal set P and t_i = 0 elsewhere (any
+    feasible beta lies in C and a member of C can be scaled up). P = all rows means complete,
+    P empty means none, anything else quasi-complete with boundary rows = the complement of P:
+    those rows lie on every separating hyperplane. Rows with t_i > 1/2 are taken as in P.
+    Exact collinearity among the features, which makes a_i' beta = 0 for every row for some
+    beta != 0, is not separation and is not reported as such (only strict rows count);
+    constant features are dropped.
+
+    The reported hyperplane solves a second LP: minimize ||w||_1 subject to a_i' beta >= 1 on
+    P and a_i' beta = 0 on the boundary rows (any separating beta vanishes there), over the
+    standardized features; ``direction`` is w / ||w||_2 and ``margin`` is the smallest
+    a_i' beta / ||w||_2 on P. Minimizing the L1 norm keeps the direction sparse, so
+    ``separating_features`` names few features when few suffice.
+
+    Large data: the LPs run on a working set W of rows and the answer is certified for all
+    rows. W starts as all rows if there are at most ``max_rows``, else as a seeded subsample
+    stratified by side (up to ``max_rows // 2`` rows from each side, more from one side if the
+    other is small). After solving on W, with beta the solution:
+
+    * rows outside W with a_j' beta < 0 are added to W (most violated first) and the LP is
+      solved again;
+    * otherwise beta separates every row weakly; rows with a_j' beta > 0 are strictly
+      separated; a row with a_j' beta = 0 that lies in the span L_W of the non-strict rows of
+      W is non-strict for every separating beta, because the cone of the full data lies in the
+      cone of W, whose non-strict rows span a linear space on which every member vanishes;
+    * remaining rows with a_j' beta = 0 are added to W.
+
+    In particular, if the subsample shows no separation and its rows (x_i, 1) have full column
+    rank, L_W is everything and the full data are proven not separated after one small LP:
+    non-separability of such a subsample proves non-separability of the whole. W grows by at
+    most max(``max_rows``, |W|) rows per round; the direction LP uses the same device for the
+    strictly separated rows and enters the boundary rows as the linear equalities
+    Q' beta = 0, Q a basis of their span. Zero and membership use relative tolerances:
+    |a_j' beta| <= 1e-9 ||beta|| max_i ||a_i||, projection residual <= 1e-6 ||a_j||, span
+    rank at 1e-9 of the largest singular value. All LPs use :func:`scipy.optimize.linprog`
+    with the HiGHS solver on standardized features.
+
+    For K > 2 each class is compared with the union of the others. Separation of one pair of
+    classes that is not a one-versus-rest separation is not detected here; it also breaks the
+    multinomial logistic MLE (Albert and Anderson 1984).
+
+    References
+    ----------
+    .. [1] Albert, A. and Anderson, J. A. (1984). On the existence of maximum likelihood
+       estimates in logistic regression models. Biometrika, 71(1), 1-10.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from discaudit.stats.separation import detect_separation
+    >>> rng = np.random.default_rng(0)
+    >>> X = np.vstack([rng.normal(0, 1, (50, 2)), rng.normal(0, 1, (50, 2)) + [8, 0]])
+    >>> y = np.repeat(["a", "b"], 50)
+    >>> res = detect_separation(X, y)
+    >>> res.comparisons[0].kind, res.comparisons[0].separating_features[0]
+    ('complete', 'x0')
+
+    The classes are completely separated, mainly along ``x0``: an unpenalized logistic
+    regression on these data has no finite maximum likelihood estimate.
+    """
+    values, names = as_matrix(X, min_rows=2)
+    n = values.shape[0]
+    codes, classes = as_labels(y, n)
+    if len(classes) < 2:
+        raise DataError(
+            f"y has a single class ({classes[0]!r}); separation needs at least two classes. "
+            "Check the target column."
+        )
+    if isinstance(max_rows, bool) or not isinstance(max_rows, (int, np.integer)) or max_rows < 2:
+        raise DataError(f"max_rows must be an integer of at least 2; got {max_rows!r}.")
+
+    space = _FeatureSpace(values, names)
+    counts = np.bincount(codes, minlength=len(classes))
+    seed = resolve_seed(random_state) if n > max_rows else None
+    rng = np.random.default_rng(seed) if seed is not None else None
+
+    if len(classes) == 2:
+        plan = [(1, (classes[0],))]
+    else:
+        plan = [(k, tuple(c for j, c in enumerate(classes) if j != k)) for k in range(len(classes))]
+    comparisons = []
+    for k, versus in plan:
+        positive = codes == k
+        comparisons.append(_compare(space, positive, classes[k], versus, int(counts[k]), max_rows, rng))
+    notes = []
+    if space.dropped:
+        notes.append(f"constant features ignored: {', '.join(space.dropped)}")
+    return SeparationResult(
+        comparisons=tuple(comparisons),
+        any_complete=any(c.kind == "complete" for c in comparisons),
+        any_quasi_complete=any(c.kind == "quasi_complete" for c in comparisons),
+        classes=tuple(classes),
+        feature_names=tuple(names),
+        n_total=int(n),
+        random_state=seed,
+        max_rows=int(max_rows),
+        notes=tuple(notes),
+    )
+
+
+class _FeatureSpace:
+    """Standardized non-constant features (centred, divided by the divisor-n standard deviation)."""
+
+    def __init__(self, values: FloatMatrix, names: list[str]) -> None:
+        n = values.shape[0]
+        self.names = names
+        self.mean = values.mean(axis=0)
+        centred = values - self.mean
+        self.sd = np.sqrt(np.einsum("ij,ij->j", centred, centred) / n)
+        keep = (np.ptp(values, axis=0) > 0) & (self.sd > 1e-12 * np.abs(self.mean))
+        self.keep = np.flatnonzero(keep)
+        self.dropped = [names[j] for j in np.flatnonzero(~keep)]
+        self.q = self.keep.size
+        self.std = centred[:, self.keep] / self.sd[self.keep]
+
+
+def _compare(
+    space: _FeatureSpace,
+    positive: npt.NDArray[np.bool_],
+    label: Any,
+    versus: tuple[Any, ...],
+    n_positive: int,
+    max_rows: int,
+    rng: np.random.Generator | None,
+) -> SeparationComparison:
+    n = positive.size
+    sign = np.where(positive, 1.0, -1.0)
+    if space.q == 0:  # no varying feature: an intercept alone cannot separate two classes
+        return _not_separated(label, versus, n_used=n, n_total=n)
+    if n > max_rows and rng is not None:
+        start = _stratified_rows(positive, n_positive, max_rows, rng)
+    else:
+        start = np.arange(n)
+    A = _signed_design(space.std, sign)
+    strict, beta_detect, boundary_span, used = _maximal_strict_set(A, start, max_rows)
+    if not strict.any():
+        return _not_separated(label, versus, n_used=used, n_total=n)
+    beta = _min_l1_direction(A, strict, boundary_span, max_rows)
+    if beta is None:  # only through solver tolerances: keep the detection LP's hyperplane
+        beta = beta_detect
+    return _separated(space, label, versus, A, beta, strict, n_used=used)
+
+
+def _not_separated(label: Any, versus: tuple[Any, ...], *, n_used: int, n_total: int) -> SeparationComparison:
+    return SeparationComparison(
+        label=label,
+        versus=versus,
+        kind="none",
+        direction=None,
+        coefficients=None,
+        intercept=None,
+        margin=None,
+        separating_features=(),
+        boundary_rows=(),
+        n_used=int(n_used),
+        subsampled=n_used < n_total,
+    )
+
+
+def _separated(
+    space: _FeatureSpace,
+    label: Any,
+    versus: tuple[Any, ...],
+    A_std: FloatMatrix,
+    beta: npt.NDArray[np.float64],
+    strict: npt.NDArray[np.bool_],
+    *,
+    n_used: int,
+) -> SeparationComparison:
+    """Package a separating hyperplane found on the standardized features."""
+    n = strict.size
+    w_kept, b = beta[:-1], beta[-1]
+    norm = float(np.linalg.norm(w_kept))
+    w_kept, b = w_kept / norm, b / norm
+    w_kept = np.where(np.abs(w_kept) < _ZERO_COEF, 0.0, w_kept)
+    p = len(space.names)
+    direction = np.zeros(p)
+    direction[space.keep] = w_kept
+    coefs = np.zeros(p)
+    coefs[space.keep] = w_kept / space.sd[space.keep]
+    intercept = b - float(coefs @ space.mean)
+    margin = float(np.min(A_std[strict] @ np.append(w_kept, b)))
+    order = np.argsort(-np.abs(direction), kind="stable")
+    return SeparationComparison(
+        label=label,
+        versus=versus,
+        kind="complete" if strict.all() else "quasi_complete",
+        direction={space.names[j]: float(direction[j]) for j in range(p)},
+        coefficients={space.names[j]: float(coefs[j]) for j in range(p)},
+        intercept=float(intercept),
+        margin=margin,
+        separating_features=tuple(space.names[j] for j in order if direction[j] != 0.0),
+        boundary_rows=tuple(int(i) for i in np.flatnonzero(~strict)),
+        n_used=int(n_used),
+        subsampled=n_used < n,
+    )
+
+
+def _stratified_rows(
+    positive: npt.NDArray[np.bool_], n_positive: int, max_rows: int, rng: np.random.Generator
+) -> IntArray:
+    """Sorted positions of up to ``max_rows`` rows, balanced between the two sides."""
+    n_negative = positive.size - n_positive
+    take_pos = min(n_positive, max(max_rows // 2, max_rows - n_negative))
+    take_neg = min(n_negative, max_rows - take_pos)
+    pos = rng.choice(np.flatnonzero(positive), size=take_pos, replace=False)
+    neg = rng.choice(np.flatnonzero(~positive), size=take_neg, replace=False)
+    return np.sort(np.concatenate([pos, neg]))
+
+
+def _signed_design(features: FloatMatrix, sign: npt.NDArray[np.float64]) -> FloatMatrix:
+    """Rows a_i = s_i (x_i, 1)."""
+    return np.column_stack([features, np.ones(features.shape[0])]) * sign[:, None]
+
+
+def _right_singular(rows: FloatMatrix) -> tuple[npt.NDArray[np.float64], FloatMatrix]:
+    """Singular values and right singular vectors of a tall matrix, via its R factor (no U)."""
+    small = np.linalg.qr(rows, mode="r") if rows.shape[0] > rows.shape[1] else rows
+    _, s, Vt = np.linalg.svd(small, full_matrices=True)
+    s = np.concatenate([s, np.zeros(Vt.shape[0] - s.size)])
+    return s, Vt
+
+
+def _row_space(rows: FloatMatrix) -> tuple[FloatMatrix, FloatMatrix]:
+    """Orthonormal bases (d x r, d x (d - r)) of the span of the rows and of its complement.
+
+    The rank r counts singular values above _SPAN_TOL times the largest.
+    """
+    d = rows.shape[1]
+    if rows.shape[0] == 0:
+        return np.zeros((d, 0)), np.eye(d)
+    s, Vt = _right_singular(rows)
+    r = int(np.sum(s > _SPAN_TOL * s[0])) if s[0] > 0 else 0
+    return Vt[:r].T, Vt[r:].T
+
+
+def _outside_span(rows: FloatMatrix, complement: FloatMatrix) -> npt.NDArray[np.bool_]:
+    """Rows whose component orthogonal to the span exceeds _MEMBER_TOL times their length."""
+    if complement.shape[1] == 0:
+        return np.zeros(rows.shape[0], dtype=bool)
+    residual = np.linalg.norm(rows @ complement, axis=1)
+    return residual > _MEMBER_TOL * np.linalg.norm(rows, axis=1)
+
+
+def _grow(work: IntArray, candidates: IntArray, score: npt.NDArray[np.float64], chunk: int) -> IntArray:
+    """Add the candidates with the smallest score, at most max(chunk, |work|) of them."""
+    take = max(chunk, work.size)
+    if candidates.size > take:
+        candidates = candidates[np.argpartition(score, take - 1)[:take]]
+    return np.union1d(work, candidates)
+
+
+def _maximal_strict_set(
+    A: FloatMatrix, start: IntArray, chunk: int
+) -> tuple[npt.NDArray[np.bool_], npt.NDArray[np.float64], FloatMatrix, int]:
+    """Rows i with a_i' beta > 0 for some beta in the cone C = {beta : A beta >= 0}.
+
+    Solves max sum t  s.t.  a_i' beta >= t_i, 0 <= t_i <= 1, beta free, over a working set W
+    of rows (starting at ``start``), and certifies the answer for the other rows:
+
+    * a row j outside W with a_j' beta < 0 is violated: W grows (most violated first);
+    * otherwise (beta in C) a row with a_j' beta > 0 is strict;
+    * a row with a_j' beta = 0 that lies in the span L_W of the non-strict rows of W is
+      non-strict for every member of C (C lies in the cone of W, whose non-strict rows are
+      implicit equalities with a linear conic hull); any other such row joins W.
+
+    Returns the strict mask over all rows, the final beta (a member of C), an orthonormal
+    basis of the span of all non-strict rows (= L_W at the end) and |W|.
+    """
+    n = A.shape[0]
+    norms = np.linalg.norm(A, axis=1)
+    a_max = float(norms.max())
+    work = np.asarray(start, dtype=np.intp)
+    while True:
+        beta, t = _strict_lp(A[work])
+        strict_w = t > 0.5
+        span, complement = _row_space(A[work[~strict_w]])
+        strict = np.zeros(n, dtype=bool)
+        strict[work[strict_w]] = True
+        outside = np.setdiff1d(np.arange(n), work, assume_unique=True)
+        if outside.size == 0:
+            return strict, beta, span, int(work.size)
+        values = A[outside] @ beta
+        tol = _VALUE_TOL * float(np.linalg.norm(beta)) * a_max
+        violated = values < -tol
+        if violated.any():
+            work = _grow(work, outside[violated], values[violated], chunk)
+            continue
+        positive = values > tol
+        zero = outside[~positive]
+        unresolved = zero[_outside_span(A[zero], complement)] if zero.size else zero
+        if unresolved.size:
+            work = _grow(work, unresolved, -norms[unresolved], chunk)
+            continue
+        strict[outside[positive]] = True
+        return strict, beta, span, int(work.size)
+
+
+def _strict_lp(A: FloatMatrix) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64]]:
+    """Solve max sum t s.t. A beta - t >= 0, 0 <= t <= 1, beta free; return (beta, t)."""
+    m, d = A.shape
+    A_ub = sparse.hstack([sparse.csr_matrix(-A), sparse.identity(m, format="csr")], format="csr")
+    c = np.concatenate([np.zeros(d), -np.ones(m)])
+    bounds = [(None, None)] * d + [(0.0, 1.0)] * m
+    res = _solve(c, A_ub, np.zeros(m), None, None, bounds)
+    if res.status != 0:
+        raise DataError(
+            f"the separation linear program failed (HiGHS status {res.status}: {res.message}) on "
+            f"{m} rows and {d - 1} feature coordinates; check for extreme values or drop "
+            "near-duplicate features."
+        )
+    return np.asarray(res.x[:d], dtype=np.float64), np.asarray(res.x[d:], dtype=np.float64)
+
+
+def _min_l1_direction(
+    A: FloatMatrix, strict: npt.NDArray[np.bool_], Q: FloatMatrix, chunk: int
+) -> npt.NDArray[np.float64] | None:
+    """beta = (w, b) minimizing ||w||_1 s.t. a_i' beta >= 1 on strict rows, = 0 on the others.
+
+    The boundary rows enter as the equalities Q' beta = 0, Q an orthonormal basis of their span
+    (equivalent to a_i' beta >= 0 there, because every separating beta is zero on them); the
+    strict rows enter through a working set grown with the violated rows. Returns None if a
+    program is reported infeasible (possible only through solver tolerances).
+    """
+    d = A.shape[1]
+    q = d - 1
+    strict_rows = np.flatnonzero(strict)
+    eye = sparse.identity(q, format="csr")
+    zero_col = sparse.csr_matrix((q, 1))
+    l1_rows = sparse.vstack(
+        [sparse.hstack([eye, zero_col, -eye]), sparse.hstack([-eye, zero_col, -eye])], format="csr"
+    )
+    A_eq = np.hstack([Q.T, np.zeros((Q.shape[1], q))]) if Q.shape[1] else None
+    b_eq = np.zeros(Q.shape[1]) if Q.shape[1] else None
+    c = np.concatenate([np.zeros(d), np.ones(q)])
+    bounds = [(None, None)] * d + [(0.0, None)] * q
+    if strict_rows.size > chunk:
+        work = strict_rows[
+            np.argpartition(A[strict_rows] @ _rough_direction(A, strict_rows), chunk - 1)[:chunk]
+        ]
+        work = np.sort(work)
+    else:
+        work = strict_rows
+    while True:
+        m = work.size
+        A_ub = sparse.vstack(
+            [sparse.hstack([sparse.csr_matrix(-A[work]), sparse.csr_matrix((m, q))]), l1_rows], format="csr"
+        )
+        b_ub = np.concatenate([-np.ones(m), np.zeros(2 * q)])
+        res = _solve(c, A_ub, b_ub, A_eq, b_eq, bounds)
+        if res.status != 0:
+            return None
+        beta = np.asarray(res.x[:d], dtype=np.float64)
+        values = A[strict_rows] @ beta
+        violated = values < 1.0 - 1e-7
+        if not violated.any():
+            return beta
+        work = _grow(work, strict_rows[violated], values[violated], chunk)
+
+
+def _rough_direction(A: FloatMatrix, rows: IntArray) -> npt.NDArray[np.float64]:
+    """Mean of the signed rows: a cheap guess to pick the hardest rows for the first working set."""
+    return A[rows].mean(axis=0)
+
+
+def _solve(c: Any, A_ub: Any, b_ub: Any, A_eq: Any, b_eq: Any, bounds: Any) -> Any:
+    with np.errstate(all="ignore"):
+        return linprog(c, A_ub=A_ub, b_ub=b_ub, A_eq=A_eq, b_eq=b_eq, bounds=bounds, method="highs")

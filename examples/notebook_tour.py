@@ -1,0 +1,104 @@
+# %% [markdown]
+# # A tour of discaudit in a notebook
+#
+# Audit the invented plastic-flake data (`examples/make_flake_data.py`) before choosing a
+# discriminant classifier, then look behind the verdict. Each `# %%` block is a notebook cell
+# (Jupyter, VS Code and others read this layout); run the file as a script to see it all.
+# In a notebook, a cell that ends with `verdict` shows the verdict as an HTML table.
+
+# %%
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import pandas as pd
+
+import discaudit
+
+HERE = Path(__file__).resolve().parent if "__file__" in globals() else Path("examples").resolve()
+DATA = HERE / "data" / "flakes.csv"
+if DATA.exists():
+    flakes = pd.read_csv(DATA, index_col="flake_id")
+else:  # not written yet (`make demo` writes it): simulate it, seeded
+    sys.path.insert(0, str(HERE))
+    from make_flake_data import make_flakes
+
+    flakes, _ = make_flakes()
+flakes.head()
+
+# %% [markdown]
+# ## The verdict
+# One call; nothing is fitted. `random_state` makes the robust fits reproducible.
+
+# %%
+verdict = discaudit.preflight(flakes, target="family", random_state=0)
+print(verdict)  # in a notebook, `verdict` alone renders the HTML table
+
+# %% [markdown]
+# ## One row per check, as a DataFrame
+
+# %%
+table = verdict.to_frame()
+print(table[["check", "status", "figure"]].to_string(index=False))
+print("\nChecks that fail the gate:", table.loc[table["status"] == "fail", "check"].tolist())
+
+# %% [markdown]
+# ## Behind a finding: collinearity
+# `details` holds every statistic and the thresholds applied, as plain JSON values.
+
+# %%
+collinearity = verdict.findings["collinearity"]
+print(collinearity.summary)
+vif = pd.Series(collinearity.details["vif_within"], name="VIF (pooled within-class)")
+print(vif.sort_values(ascending=False).round(1).to_string())
+print("thresholds:", collinearity.details["thresholds"])
+
+# %% [markdown]
+# ## Behind a finding: outlying flakes
+# Rows are named by the DataFrame index (`flake_id`), so they can be looked up directly.
+
+# %%
+outliers = verdict.findings["outliers"]
+print(outliers.summary)
+flagged = [
+    {"class": cls, "flake": row["row"], "robust distance": round(row["distance"], 1)}
+    for cls, fit in outliers.details.get("per_class", {}).items()
+    for row in fit.get("flagged_rows", [])
+]
+flagged = pd.DataFrame(flagged)
+if not flagged.empty:
+    flagged = flagged.sort_values("robust distance", ascending=False)
+    print(flagged.head(8).to_string(index=False))
+    print(flakes.loc[flagged["flake"].head(3), ["nir_1100", "nir_1400", "thickness_um", "family"]])
+
+# %% [markdown]
+# ## The recommendation and its reasons
+
+# %%
+rec = verdict.recommendation
+print(rec.model, rec.params)
+for reason in rec.reasons:
+    print("-", reason)
+
+# %% [markdown]
+# ## Policy as configuration
+# A team that fits a model robust to non-Gaussian shape may make `normality` advisory: it is
+# still shown, but it no longer fails the gate. The same setting can live in
+# `[tool.discaudit.severity]` of pyproject.toml for the command line.
+
+# %%
+relaxed = discaudit.Config(severity={"normality": "advisory"})
+relaxed_verdict = discaudit.preflight(flakes, target="family", config=relaxed, random_state=0)
+print("gate status:", verdict.status, "->", relaxed_verdict.status)
+print(relaxed_verdict.to_frame().query("severity == 'advisory'")[["check", "status", "severity"]])
+
+# %% [markdown]
+# ## Reports to share
+# Markdown for a pull-request comment, JSON for machines (versioned schema), JUnit XML for CI.
+
+# %%
+print(verdict.to_markdown()[:600], "...")
+document = json.loads(verdict.to_json())
+print("schema_version", document["schema_version"], "| checks:", ", ".join(document["findings"]))

@@ -1,0 +1,110 @@
+"""The outliers, normality and separation checks inside preflight."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import discaudit
+
+
+def test_planted_contaminated_flakes_are_flagged_and_named(flakes) -> None:
+    frame, planted = flakes
+    v = discaudit.preflight(frame, target="family", random_state=0)
+    rows = v.outlier_rows()
+    assert set(planted["contaminated"]) <= set(rows.index)
+    # the planted flakes lie farther out than the rest of what is flagged (Gaussian tail rows)
+    others = rows.drop(index=planted["contaminated"])
+    assert rows.loc[planted["contaminated"], "ratio"].median() > 2 * others["ratio"].median()
+    assert list(rows.columns) == ["class", "distance", "classical_distance", "cutoff", "ratio"]
+    listed = {r["row"] for c in v.findings["outliers"].details["per_class"].values() for r in c["flagged_rows"]}
+    assert set(planted["contaminated"]) <= listed
+
+
+def test_outlier_verdict_is_reproducible_and_seeded(flakes) -> None:
+    frame, _ = flakes
+    a = discaudit.preflight(frame, target="family", random_state=3)
+    b = discaudit.preflight(frame, target="family", random_state=3)
+    assert a.to_json() == b.to_json()
+
+
+def _gaussian(n: int, p: int, k: int, seed: int) -> tuple[pd.DataFrame, np.ndarray]:
+    rng = np.random.default_rng(seed)
+    X = np.vstack([rng.normal(size=(n, p)) + 0.8 * j for j in range(k)])
+    return pd.DataFrame(X, columns=[f"f{j}" for j in range(p)]), np.repeat(np.arange(k), n)
+
+
+def test_gross_contamination_is_influential_and_argues_against_lda() -> None:
+    X, y = _gaussian(200, 4, 2, seed=21)
+    # 8% of class 0 moved far away in one direction: the class mean and pooled covariance move
+    bad = np.arange(16)
+    X.iloc[bad, :] += 12.0
+    v = discaudit.preflight(X, y, random_state=0)
+    f = v.findings["outliers"]
+    assert f.status == "fail"
+    assert set(X.index[bad]) <= set(v.outlier_rows().index)
+    assert f.details["max_mean_shift"] > 0.25
+    assert v.recommendation.model != "lda"
+    assert any("outliers" in r for r in v.recommendation.reasons)
+
+
+def test_clean_gaussian_outliers_pass() -> None:
+    X, y = _gaussian(300, 3, 2, seed=5)
+    v = discaudit.preflight(X, y, random_state=0)
+    assert v.findings["outliers"].status == "pass"
+    assert v.findings["normality"].status == "pass"
+    assert v.findings["separation"].status == "pass"
+
+
+def test_small_class_falls_back_to_classical_distances() -> None:
+    X, y = _gaussian(9, 5, 2, seed=8)  # 9 rows < 2(p+1) = 12
+    v = discaudit.preflight(X, y, random_state=0)
+    per_class = v.findings["outliers"].details["per_class"]
+    assert all("classical distances" in c["method"] for c in per_class.values())
+
+
+def test_heavy_tails_fail_normality_and_name_the_rule() -> None:
+    rng = np.random.default_rng(2)
+    n, p = 400, 3
+    # multivariate t with 3 df: heavy tails (invented, seeded)
+    t = rng.standard_normal((2 * n, p)) / np.sqrt(rng.chisquare(3, (2 * n, 1)) / 3)
+    X = pd.DataFrame(t + np.repeat([[0, 0, 0], [1, 1, 1]], n, axis=0), columns=["a", "b", "c"])
+    y = np.repeat(["u", "w"], n)
+    v = discaudit.preflight(X, y)
+    f = v.findings["normality"]
+    assert f.status == "fail"
+    assert "rule" in f.details
+    assert f.details["per_class"]["u"]["mardia_kurtosis_ratio"] > 1.5
+
+
+def test_binary_feature_is_named_as_discrete() -> None:
+    X, y = _gaussian(100, 3, 2, seed=4)
+    X["smoker"] = np.random.default_rng(4).integers(0, 2, len(X))
+    v = discaudit.preflight(X, y)
+    f = v.findings["normality"]
+    assert f.status == "fail"
+    assert f.details["discrete_features"] == ["smoker"]
+    assert "smoker" in f.summary
+
+
+def test_complete_separation_warns_and_suggests_a_penalty() -> None:
+    rng = np.random.default_rng(6)
+    X = pd.DataFrame(rng.normal(size=(80, 2)), columns=["u", "v"])
+    y = np.where(X["u"] > 0, "hi", "lo")
+    X.loc[y == "hi", "u"] += 0.5
+    v = discaudit.preflight(X, y)
+    f = v.findings["separation"]
+    assert f.status == "warn" and f.details["any_complete"]
+    assert "u" in f.details["comparisons"][0]["separating_features"]
+
+
+@pytest.mark.parametrize("seed", [0, 1])
+def test_subsample_sizes_and_seeds_are_recorded(seed: int) -> None:
+    X, y = _gaussian(1500, 3, 2, seed=seed)
+    cfg = discaudit.Config(pairwise_max_rows=500, separation_max_rows=400)
+    v = discaudit.preflight(X, y, config=cfg, random_state=seed)
+    shape = v.findings["normality"].details["per_class"]["0"]
+    assert shape["n_used"] == 500 and shape["subsample_seed"] is not None
+    again = discaudit.preflight(X, y, config=cfg, random_state=seed)
+    assert again.to_json() == v.to_json()
