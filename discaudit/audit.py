@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import time
 import warnings
 from typing import Any
@@ -62,7 +63,19 @@ def preflight(
     'regularized_lda'
     """
     config = config or Config()
-    data = load(X, y, target=target, config=config)
+    if _is_dask_frame(X):
+        from discaudit.distributed import preflight_dask
+
+        return preflight_dask(X, target=target, config=config, random_state=random_state)
+    return audit(load(X, y, target=target, config=config), config, random_state)
+
+
+def _is_dask_frame(X: Any) -> bool:
+    return type(X).__module__.startswith("dask") and hasattr(X, "to_delayed")
+
+
+def audit(data: AuditData, config: Config, random_state: int | None) -> Verdict:
+    """Run every check on validated data and assemble the verdict."""
     findings: dict[str, Finding] = {}
     timings: dict[str, float] = {}
     for key, run in checks.registry():
@@ -74,6 +87,13 @@ def preflight(
         else:
             findings[key] = _run_check(key, run, data, config, random_state)
         timings[key] = time.perf_counter() - start
+    return assemble(findings, data, config, random_state, timings)
+
+
+def assemble(
+    findings: dict[str, Finding], data: AuditData, config: Config, random_state: int | None, timings: dict[str, float]
+) -> Verdict:
+    """Findings -> recommendation, gate status and metadata."""
     decision = decide(findings, config)
     recommendation = Recommendation(
         model=decision.model,
@@ -96,14 +116,23 @@ def _run_check(key: str, run: checks.CheckFunction, data: AuditData, config: Con
             return skipped(key, f"The check could not run: {type(exc).__name__}: {exc}", check_error=True)
     if caught:
         messages = sorted({f"{w.category.__name__}: {w.message}" for w in caught})
-        details = {**finding.details, "warnings": messages}
-        return Finding(finding.check, finding.status, finding.summary, details, finding.figure)
+        return dataclasses.replace(finding, details={**finding.details, "warnings": messages})
     return finding
 
 
 def _meta(data: AuditData, config: Config, random_state: int | None) -> dict[str, Any]:
+    sample = None
+    if data.sample is not None:
+        sample = {
+            "n_sampled": data.n,
+            "per_class": {label(c): n for c, n in data.sample.per_class.items()},
+            "capacity_per_class": data.sample.capacity,
+            "random_state": data.sample.random_state,
+            "method": data.sample.method,
+        }
     return {
-        "n_rows": data.n,
+        "n_rows": data.moments.n_total,
+        "sample": sample,
         "n_features": data.p,
         "n_classes": len(data.classes),
         "classes": [label(c) for c in data.classes],
@@ -111,4 +140,31 @@ def _meta(data: AuditData, config: Config, random_state: int | None) -> dict[str
         "random_state": random_state,
         "severity": {k: config.severity_of(k) for k in checks.CHECK_KEYS},
         "config": config.to_dict(),
+        "fingerprint": _fingerprint(data),
+    }
+
+
+def _fingerprint(data: AuditData) -> dict[str, Any]:
+    """SHA-256 of the audited rows and labels, so a report can be matched to its data.
+
+    Hashed, in order: the audited float matrix (n x p, C order, little-endian float64),
+    each row's class code (little-endian int64) and the class labels in code order (JSON,
+    UTF-8). Row order, values, column order and labels all change it; column names do not.
+    """
+    import hashlib
+    import json
+
+    import numpy as np
+
+    digest = hashlib.sha256()
+    digest.update(np.ascontiguousarray(data.values, dtype="<f8"))
+    digest.update(np.ascontiguousarray(data.codes, dtype="<i8"))
+    digest.update(json.dumps([str(label(c)) for c in data.classes]).encode("utf-8"))
+    scope = "the stratified sample of rows held in memory" if getattr(data, "sample", None) is not None else "all audited rows"
+    return {
+        "sha256": digest.hexdigest(),
+        "rows": data.n,
+        "columns": data.p,
+        "covers": f"{scope}: feature matrix (C order, little-endian float64), then class codes (little-endian int64), "
+        "then the class labels in code order (JSON)",
     }

@@ -30,12 +30,13 @@ import pandas as pd
 
 from discaudit import config_file
 from discaudit.audit import preflight
-from discaudit.config import MISSING_POLICIES, NON_NUMERIC_POLICIES
+from discaudit.config import MISSING_POLICIES, NON_NUMERIC_POLICIES, Config
 from discaudit.errors import DataError
 from discaudit.progress import Progress
 from discaudit.progress import enabled as progress_enabled
 from discaudit.report.junit import FAIL_ON_LEVELS, fails_gate
 from discaudit.result import Verdict
+from discaudit.stream import file_chunks, preflight_chunks
 
 #: A renderer turns a verdict into report text; it gets the gate level for formats that use it.
 Renderer = Callable[[Verdict, str], str]
@@ -145,6 +146,12 @@ def build_parser() -> argparse.ArgumentParser:
         default=None,
         help="non-numeric column policy (overrides the file)",
     )
+    check.add_argument(
+        "--stream",
+        action="store_true",
+        help="read the file in batches with bounded memory (automatic for files larger than a quarter of RAM)",
+    )
+    check.add_argument("--batch-rows", type=int, default=200_000, metavar="N", help="rows per batch when streaming")
     check.set_defaults(run=run_check)
     return parser
 
@@ -173,16 +180,10 @@ def run_check(args: argparse.Namespace) -> int:
         config = config_file.make_config(settings, {"missing": args.missing, "non_numeric": args.non_numeric})
         fail_on = args.fail_on or settings.fail_on or "fail"
         stage, where = "reading the data", args.data
-        frame = read_table(
-            args.data,
-            target=args.target,
-            features=_names(args.features),
-            exclude=_names(args.exclude) or (),
-            index_col=args.index_col,
-        )
-        stage = "auditing"
-        with Progress(f"auditing {len(frame)} rows of {Path(args.data).name}"):
-            verdict = preflight(frame, target=args.target, config=config, random_state=args.seed)
+        if args.stream or _larger_than_memory_share(Path(args.data)):
+            verdict = _stream_audit(args, config)  # reads while it audits: parse errors count as reading
+        else:
+            verdict = _in_memory_audit(args, config)
         stage, where = "writing the report", args.output or "<stdout>"
         report = FORMATS[args.format](verdict, fail_on)
         failed = fails_gate(verdict.status, fail_on)
@@ -212,6 +213,53 @@ def run_check(args: argparse.Namespace) -> int:
             f"internal error while {stage} ({type(exc).__name__}: {_first_line(exc)}); please report it with "
             "the command that caused it."
         )
+
+
+def _in_memory_audit(args: argparse.Namespace, config: Config) -> Verdict:
+    frame = read_table(
+        args.data,
+        target=args.target,
+        features=_names(args.features),
+        exclude=_names(args.exclude) or (),
+        index_col=args.index_col,
+    )
+    with Progress(f"auditing {len(frame)} rows of {Path(args.data).name}"):
+        return preflight(frame, target=args.target, config=config, random_state=args.seed)
+
+
+def _stream_audit(args: argparse.Namespace, config: Config) -> Verdict:
+    """Two bounded-memory passes over the file (see :mod:`discaudit.stream`)."""
+    path = Path(args.data)
+    if not path.exists():
+        raise FileNotFoundError(2, "No such file or directory", str(path))
+    if args.batch_rows < 1:
+        raise DataError("--batch-rows must be a positive number of rows.")
+    if _kind(path) == "csv":
+        columns, stored_index = [str(c) for c in pd.read_csv(path, nrows=0).columns], []
+    else:
+        import pyarrow.parquet as pq
+
+        columns, stored_index = _parquet_columns(pq.ParquetFile(path))
+    chosen = _choose(columns, args.target, _names(args.features), _names(args.exclude) or (), args.index_col,
+                     index_names=stored_index)
+    source = file_chunks(path, batch_rows=args.batch_rows, index_col=args.index_col, columns=[*chosen, args.target])
+    with Progress(f"streaming {path.name}", unit="rows") as bar:
+        done = [0]
+
+        def advance(rows: int) -> None:
+            done[0] += rows
+            bar.update(done[0])
+
+        return preflight_chunks(source, args.target, config=config, random_state=args.seed, progress=advance)
+
+
+def _larger_than_memory_share(path: Path, share: float = 0.25) -> bool:
+    """Whether the file is larger than ``share`` of physical memory (then stream it)."""
+    try:
+        total = os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES")
+        return path.exists() and path.stat().st_size > share * total
+    except (ValueError, OSError, AttributeError):
+        return False
 
 
 def read_table(

@@ -130,6 +130,11 @@ class Config:
     pairwise_max_rows: int = _threshold(
         5000, "Rows per class above which pairwise statistics use a seeded random subsample.", "design choice (cost grows as n^2)"
     )
+    sample_rows_per_class: int = _threshold(
+        20000,
+        "Streamed or distributed input: rows per class kept in the seeded sample for the robust and pairwise checks.",
+        "design choice (bounds memory; moments stay exact)",
+    )
     separation_max_rows: int = _threshold(
         2000, "Rows per comparison above which separation is first tested on a seeded subsample.", "design choice"
     )

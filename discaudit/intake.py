@@ -40,6 +40,17 @@ class IntakeRecord:
 
 
 @dataclass(frozen=True)
+class SampleInfo:
+    """How the rows in ``AuditData.values`` were sampled from a larger input."""
+
+    n_total: int
+    per_class: dict[Any, int]
+    capacity: int
+    random_state: int | None
+    method: str = "seeded uniform reservoir sample per class, merged exactly across chunks"
+
+
+@dataclass(frozen=True)
 class AuditData:
     """Validated data shared by every check.
 
@@ -59,6 +70,12 @@ class AuditData:
         Per-class counts, means and scatter matrices, computed once.
     record : IntakeRecord
         What intake dropped or set aside.
+    distinct_counts : dict
+        Features with at most ``Config.few_distinct_values`` distinct values (over all rows),
+        with their number of distinct values.
+    sample : SampleInfo or None
+        Set when ``values`` is a per-class random sample of a larger (streamed) input; the
+        moments are then still exact over all rows.
     """
 
     values: FloatArray
@@ -68,6 +85,8 @@ class AuditData:
     row_labels: pd.Index
     moments: ClassMoments
     record: IntakeRecord
+    distinct_counts: dict[str, int] = field(default_factory=dict)
+    sample: SampleInfo | None = None
 
     @property
     def n(self) -> int:
@@ -92,12 +111,12 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
         numeric feature, mismatched lengths, non-finite values under ``missing="error"``,
         or non-numeric features under ``non_numeric="error"``.
     """
-    frame, labels = _split(X, y, target)
+    frame, labels = split(X, y, target)
     n_rows_input, n_features_input = frame.shape
-    frame, non_numeric = _numeric_columns(frame, config)
+    frame, non_numeric = numeric_columns(frame, config)
     values, frame, labels, dropped, unlabelled = _handle_missing(frame, labels, config)
-    codes, classes = _encode(labels)
-    _check_magnitude(values, list(frame.columns))
+    codes, classes = encode(labels)
+    check_magnitude(np.abs(values).max(axis=0) if values.size else np.zeros(values.shape[1]), list(frame.columns))
     keep, constant, duplicates = _screen_columns(values, [str(c) for c in frame.columns])
     if not keep.any():
         raise DataError(
@@ -108,6 +127,7 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
         values = np.ascontiguousarray(values[:, keep])
     features = tuple(str(c) for c, k in zip(frame.columns, keep, strict=True) if k)
     moments = ClassMoments.from_arrays(values, codes, classes)
+    distinct = distinct_counts(values, features, config.few_distinct_values)
     record = IntakeRecord(
         n_rows_input=n_rows_input,
         n_features_input=n_features_input,
@@ -117,10 +137,10 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
         constant_columns=tuple(constant),
         duplicate_columns=tuple(duplicates),
     )
-    return AuditData(values, codes, classes, features, frame.index, moments, record)
+    return AuditData(values, codes, classes, features, frame.index, moments, record, distinct)
 
 
-def _split(X: Any, y: Any, target: str | None) -> tuple[pd.DataFrame, pd.Series]:
+def split(X: Any, y: Any, target: str | None) -> tuple[pd.DataFrame, pd.Series]:
     if target is not None and y is not None:
         raise DataError("Pass either y or target=, not both.")
     if target is not None:
@@ -175,7 +195,7 @@ def _as_labels(y: Any, frame: pd.DataFrame) -> pd.Series:
     return pd.Series(y.to_numpy(dtype=object), index=frame.index, name=y.name)
 
 
-def _numeric_columns(frame: pd.DataFrame, config: Config) -> tuple[pd.DataFrame, list[str]]:
+def numeric_columns(frame: pd.DataFrame, config: Config) -> tuple[pd.DataFrame, list[str]]:
     non_numeric = [
         str(c)
         for c in frame.columns
@@ -223,31 +243,50 @@ def _handle_missing(
     return values[kept], frame[kept], labels[kept], {label(k): int(v) for k, v in dropped.items()}, int(missing_label.sum())
 
 
-def _encode(labels: pd.Series) -> tuple[npt.NDArray[np.intp], tuple[Any, ...]]:
+def encode(labels: pd.Series) -> tuple[npt.NDArray[np.intp], tuple[Any, ...]]:
+    """Integer codes of the labels and the classes (sorted when comparable); DataError if too few."""
     classes = ordered_unique(labels.tolist())
+    lookup = {c: k for k, c in enumerate(classes)}
+    codes = np.fromiter((lookup[v] for v in labels.tolist()), dtype=np.intp, count=len(labels))
+    check_classes(classes, np.bincount(codes, minlength=len(classes)))
+    return codes, tuple(classes)
+
+
+def check_classes(classes: list[Any], counts: npt.NDArray[np.int64]) -> None:
+    """DataError unless there are two or more classes, each with at least two rows."""
     if len(classes) < 2:
         found = f"only class {classes[0]!r}" if classes else "no labelled rows"
         raise DataError(f"An audit needs at least two classes in the target; found {found}.")
-    lookup = {c: k for k, c in enumerate(classes)}
-    codes = np.fromiter((lookup[v] for v in labels.tolist()), dtype=np.intp, count=len(labels))
-    counts = np.bincount(codes, minlength=len(classes))
     small = [f"{classes[k]!r} ({int(counts[k])} row)" for k in np.flatnonzero(counts < 2)]
     if small:
         raise DataError(
             f"Class {', '.join(small)} has fewer than two rows; a class covariance needs at least two. "
             "Merge or drop that class."
         )
-    return codes, tuple(classes)
 
 
-def _check_magnitude(values: FloatArray, columns: list[Any]) -> None:
-    huge = np.abs(values).max(axis=0) > _LARGEST_SQUARABLE if values.size else np.zeros(0, bool)
+def check_magnitude(max_abs: FloatArray, columns: list[Any]) -> None:
+    """DataError naming the columns whose largest magnitude would overflow when squared."""
+    huge = max_abs > _LARGEST_SQUARABLE
     if huge.any():
         cols = [str(columns[j]) for j in np.flatnonzero(huge)]
         raise DataError(
             f"Columns {cols[:8]} hold values beyond 1e150 in magnitude, whose squares overflow float64; "
             "rescale them (e.g. change units or take logs)."
         )
+
+
+def distinct_counts(values: FloatArray, features: tuple[str, ...], limit: int) -> dict[str, int]:
+    """Features taking at most ``limit`` distinct values, with their counts."""
+    out = {}
+    for j, name in enumerate(features):
+        column = values[:, j]
+        if np.unique(column[:1000]).size > limit:  # cheap screen before a full pass
+            continue
+        distinct = np.unique(column).size
+        if distinct <= limit:
+            out[name] = int(distinct)
+    return out
 
 
 def _screen_columns(values: FloatArray, names: list[str]) -> tuple[npt.NDArray[np.bool_], list[str], list[tuple[str, str]]]:

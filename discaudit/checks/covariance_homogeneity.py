@@ -35,6 +35,27 @@ def _divergence_from_pooled(moments: ClassMoments) -> np.ndarray:
     return np.asarray(out)
 
 
+def _plane_arrays(moments: ClassMoments) -> dict[str, Any]:
+    """Class means and covariances on the discriminant plane, for the ellipse plot.
+
+    Not part of the JSON: ``plane_basis`` (p, 2), ``plane_axis_labels``, ``plane_means``
+    (K, 2) and ``plane_covariances`` (K, 2, 2, unbiased) for every class, singular ones
+    included. Empty when there is no plane (see :func:`discaudit.plot.plane.discriminant_plane`).
+    """
+    from discaudit.plot.plane import discriminant_plane, project_moments
+
+    plane = discriminant_plane(moments)
+    if plane is None:
+        return {}
+    means, covariances = project_moments(plane, moments)
+    return {
+        "plane_basis": plane.basis,
+        "plane_axis_labels": plane.axis_labels,
+        "plane_means": means,
+        "plane_covariances": covariances,
+    }
+
+
 def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
     """Box's M (significance) beside a BIC comparison of shared vs separate covariances (size).
 
@@ -44,6 +65,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     of them does. Classes with a singular covariance are left out of both and named.
     """
     m = data.moments
+    arrays = _plane_arrays(m)
     logdets = [logdet_spd(S) for S in m.class_covariances()]
     ok = np.array([np.isfinite(v) for v in logdets])
     excluded = [label(c) for c, good in zip(m.classes, ok, strict=True) if not good]
@@ -61,6 +83,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             "of covariances cannot be tested; QDA is not an option without regularization.",
             details,
             "untestable",
+            arrays,
         )
     if not np.isfinite(logdet_spd(m.pooled_covariance)):
         return Finding(KEY, "skip", "The pooled covariance is singular (see collinearity); Box's M is undefined.", details, "-")
@@ -110,12 +133,13 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             f"Class covariances differ, most in class {sub.classes[worst]}, by more than their extra parameters cost" + tail + ".",
             details,
             figure,
+            arrays,
         )
     if rejects:
         return Finding(
-            KEY, "warn", "Box's M detects unequal covariances, but separate covariances do not pay for their parameters" + tail + ".", details, figure
+            KEY, "warn", "Box's M detects unequal covariances, but separate covariances do not pay for their parameters" + tail + ".", details, figure, arrays
         )
     if favours_separate:
-        return Finding(KEY, "warn", "BIC favours separate covariances though Box's M does not reject" + tail + ".", details, figure)
+        return Finding(KEY, "warn", "BIC favours separate covariances though Box's M does not reject" + tail + ".", details, figure, arrays)
     status = "warn" if excluded else "pass"
-    return Finding(KEY, status, "No evidence that class covariances differ" + tail + ".", details, figure)
+    return Finding(KEY, status, "No evidence that class covariances differ" + tail + ".", details, figure, arrays)

@@ -20,19 +20,6 @@ KEY = "normality"
 _SALT = 4
 
 
-def discrete_features(data: AuditData, limit: int) -> dict[str, int]:
-    """Features taking at most ``limit`` distinct values over all rows, with their counts."""
-    out = {}
-    for j, name in enumerate(data.features):
-        column = data.values[:, j]
-        if np.unique(column[:1000]).size > limit:  # cheap screen before a full pass
-            continue
-        distinct = np.unique(column).size
-        if distinct <= limit:
-            out[name] = int(distinct)
-    return out
-
-
 def _class_shape(X: np.ndarray, features: tuple[str, ...], config: Config, seed: int) -> dict[str, Any]:
     """Mardia, Henze-Zirkler and the worst per-feature moments of one class."""
     skew = sps.skew(X, axis=0)
@@ -98,7 +85,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     fail the check by themselves.
     """
     seeds = class_seeds(random_state, len(data.classes), _SALT)
-    discrete = discrete_features(data, config.few_distinct_values)
+    discrete = data.distinct_counts
     per_class: dict[Any, Any] = {}
     statuses = []
     continuous = [j for j, f in enumerate(data.features) if f not in discrete]

@@ -1,7 +1,14 @@
-"""Check ``outliers``: robust Mahalanobis distances per class (FAST-MCD), and whether flagged rows matter."""
+"""Check ``outliers``: robust Mahalanobis distances per class (FAST-MCD), and whether flagged rows matter.
+
+The check runs in three steps so that streamed input can reuse it: :func:`fit_classes`
+(a robust fit per class, on all rows or on a sample), :func:`score_rows` (distances and
+flags for any rows, e.g. every row of a file in a second pass) and :func:`judge`
+(influence on LDA's estimates and the status).
+"""
 
 from __future__ import annotations
 
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -13,15 +20,41 @@ from discaudit.checks._seeds import class_seeds
 from discaudit.config import Config
 from discaudit.findings import Finding, fmt, names
 from discaudit.intake import AuditData
+from discaudit.moments import ClassMoments
 from discaudit.stats._linalg import logdet_spd
 from discaudit.stats.mcd import mcd
 
 KEY = "outliers"
 _SALT = 3
-_MAX_LISTED_ROWS = 100
+MAX_LISTED_ROWS = 100
 
 
-def _mahalanobis_sq(X: np.ndarray, centre: np.ndarray, cov: np.ndarray) -> np.ndarray | None:
+@dataclass(frozen=True)
+class ClassFit:
+    """The centre, scatter and cut-off that define 'far' for one class."""
+
+    code: int
+    method: str
+    location: np.ndarray
+    covariance: np.ndarray
+    cutoff: float
+    cutoff_rule: str
+    robust: bool
+    info: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class ClassOutcome:
+    """What scoring the rows of one class found."""
+
+    n: int
+    n_flagged: int
+    listed: list[dict[str, Any]]
+    kept_mean: np.ndarray | None
+    masked: int
+
+
+def mahalanobis_sq(X: np.ndarray, centre: np.ndarray, cov: np.ndarray) -> np.ndarray | None:
     """Squared Mahalanobis distances by a Cholesky triangular solve; None if cov is singular."""
     try:
         L = linalg.cholesky(cov, lower=True, check_finite=False)
@@ -40,6 +73,151 @@ def _cutoff(config: Config, n: int, p: int, h: int | None) -> tuple[float, str]:
     return float(sps.chi2.ppf(config.outlier_quantile, p)), f"chi-square({p}) {config.outlier_quantile} quantile"
 
 
+def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tuple[list[ClassFit], list[np.ndarray]]:
+    """A reweighted FAST-MCD fit per class with at least 2(p+1) rows, classical otherwise.
+
+    Returns the fits and, per class, the squared distances of the class's rows in ``data``.
+    """
+    m = data.moments
+    p = data.p
+    seeds = class_seeds(random_state, len(data.classes), _SALT)
+    fits, distances = [], []
+    for k in range(len(data.classes)):
+        X = data.values[data.class_rows(k)]
+        nk = X.shape[0]
+        if nk >= 2 * (p + 1):
+            fit = mcd(X, random_state=seeds[k], cutoff_quantile=config.outlier_quantile)
+            cut, rule = _cutoff(config, nk, fit.p_used, fit.h)
+            info: dict[str, Any] = {
+                "h": fit.h,
+                "n_reweighted": fit.n_reweighted,
+                "corrections": list(fit.corrections),
+                "seed": seeds[k],
+                "exact_fit": fit.exact_fit,
+            }
+            if fit.exact_fit and fit.hyperplane_normal is not None:
+                info["hyperplane"] = {
+                    "normal": dict(zip(data.features, fit.hyperplane_normal.tolist(), strict=True)),
+                    "offset": fit.hyperplane_offset,
+                    "n_on_hyperplane": fit.n_on_hyperplane,
+                }
+            fits.append(ClassFit(k, "reweighted FAST-MCD", fit.location, fit.covariance, cut, rule, True, info))
+            distances.append(fit.distances)
+        else:
+            cov = m.class_covariances()[k]
+            d = mahalanobis_sq(X, m.means[k], cov)
+            note = f"classical distances (fewer than 2(p+1) = {2 * (p + 1)} rows for a robust fit)"
+            if d is None:
+                cov = m.pooled_covariance
+                d = mahalanobis_sq(X, m.means[k], cov)
+                note += ", pooled covariance (class covariance singular)"
+            cut, rule = _cutoff(config, nk, p, None)
+            fits.append(ClassFit(k, note, m.means[k], cov, cut, rule, False))
+            distances.append(d if d is not None else np.zeros(nk))
+    return fits, distances
+
+
+def score_rows(
+    X: np.ndarray, d_robust: np.ndarray, fit: ClassFit, moments: ClassMoments, row_labels: Any
+) -> tuple[ClassOutcome, np.ndarray, np.ndarray]:
+    """Flags, listed rows and the mean of the kept rows for rows X of one class.
+
+    Returns the outcome, the flags and the classical distances (from the class's own
+    classical mean and covariance, for the masking comparison).
+    """
+    k = fit.code
+    d_classical = mahalanobis_sq(X, moments.means[k], moments.class_covariances()[k])
+    if d_classical is None:
+        d_classical = mahalanobis_sq(X, moments.means[k], moments.pooled_covariance)
+    if d_classical is None:
+        d_classical = np.full(X.shape[0], np.nan)
+    flagged = d_robust > fit.cutoff
+    order = np.flatnonzero(flagged)[np.argsort(-d_robust[flagged], kind="stable")][:MAX_LISTED_ROWS]
+    listed = [
+        {"row": label(row_labels[i]), "distance": float(d_robust[i]), "classical_distance": float(d_classical[i])}
+        for i in order
+    ]
+    kept = ~flagged
+    kept_mean = X[kept].mean(axis=0) if kept.sum() > 1 else None
+    masked = int((flagged & (d_classical <= fit.cutoff)).sum())
+    return ClassOutcome(X.shape[0], int(flagged.sum()), listed, kept_mean, masked), flagged, d_classical
+
+
+def judge(
+    data: AuditData, config: Config, fits: list[ClassFit], outcomes: list[ClassOutcome], arrays: dict[str, Any]
+) -> Finding:
+    """Influence of the flagged rows on LDA's estimates, and the status."""
+    m = data.moments
+    p = data.p
+    pooled = m.pooled_covariance
+    pooled_ok = np.isfinite(logdet_spd(pooled))
+    robust_scatter = np.zeros((p, p))
+    per_class: dict[Any, Any] = {}
+    shifts = []
+    for fit, out in zip(fits, outcomes, strict=True):
+        k = fit.code
+        robust_scatter += (m.counts[k] - 1) * fit.covariance if fit.robust else m.scatter[k]
+        shift = 0.0
+        if out.n_flagged and out.kept_mean is not None and pooled_ok:
+            d = mahalanobis_sq((out.kept_mean - m.means[k])[None, :], np.zeros(p), pooled)
+            shift = float(np.sqrt(d[0])) if d is not None else 0.0
+        shifts.append(shift)
+        per_class[label(data.classes[k])] = {
+            "n": out.n,
+            "method": fit.method,
+            **fit.info,
+            "cutoff": fit.cutoff,
+            "cutoff_rule": fit.cutoff_rule,
+            "n_flagged": out.n_flagged,
+            "fraction_flagged": out.n_flagged / out.n if out.n else 0.0,
+            "flagged_rows": out.listed,
+            "n_listed": len(out.listed),
+            "mean_shift": shift,
+            "masked_by_classical": out.masked,
+        }
+    ld_classical = logdet_spd(pooled)
+    ld_robust = logdet_spd(robust_scatter / (m.n_total - m.n_classes))
+    excess = (ld_classical - ld_robust) / p if np.isfinite(ld_classical) and np.isfinite(ld_robust) else float("nan")
+    total = sum(o.n_flagged for o in outcomes)
+    max_shift = max(shifts, default=0.0)
+    details: dict[str, Any] = {
+        "per_class": per_class,
+        "n_flagged": total,
+        "max_mean_shift": max_shift,
+        "pooled_logdet_excess_per_feature": excess,
+        "robust_fit_rule": "reweighted FAST-MCD for classes with at least 2(p+1) rows, classical distances otherwise",
+        "distance": "squared Mahalanobis distance from the class's own (robust) centre and covariance",
+        "influence": "mean_shift: class mean with vs without its flagged rows, in pooled-Mahalanobis units; "
+        "pooled_logdet_excess_per_feature: (log det classical pooled - log det robust pooled) / p",
+        "thresholds": {
+            "quantile": config.outlier_quantile,
+            "cutoff": config.outlier_cutoff,
+            "fraction_warn": config.outlier_fraction_warn,
+            "mean_shift_warn": config.outlier_mean_shift_warn,
+            "mean_shift_fail": config.outlier_mean_shift_fail,
+            "logdet_warn": config.outlier_logdet_warn,
+            "logdet_fail": config.outlier_logdet_fail,
+        },
+    }
+    fractions = {c: v["fraction_flagged"] for c, v in per_class.items()}
+    worst_class = max(fractions, key=fractions.__getitem__)
+    n_rows = int(m.n_total)
+    figure = f"{total} flagged ({fmt(100 * total / n_rows, 2)}%)"
+    influence = f"class means move up to {fmt(max_shift)} pooled SD, pooled log-det excess {fmt(excess)} per feature"
+    flagged_text = _examples(per_class)
+    big_excess = bool(np.isfinite(excess) and excess > config.outlier_logdet_fail)
+    if max_shift > config.outlier_mean_shift_fail or big_excess:
+        return Finding(KEY, "fail", f"{total} rows lie far from their class ({flagged_text}) and distort LDA's estimates: "
+                       f"{influence}.", details, figure, arrays)
+    wide = fractions[worst_class] > config.outlier_fraction_warn
+    some_excess = bool(np.isfinite(excess) and excess > config.outlier_logdet_warn)
+    if max_shift > config.outlier_mean_shift_warn or some_excess or wide:
+        share = f"{fmt(100 * fractions[worst_class], 2)}% of class {worst_class} flagged; " if wide else ""
+        return Finding(KEY, "warn", f"{total} rows flagged ({flagged_text}); {share}{influence}.", details, figure, arrays)
+    return Finding(KEY, "pass", f"{total} rows beyond the cut-off, about what a Gaussian tail gives, with little "
+                   f"influence ({influence}).", details, figure, arrays)
+
+
 def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
     """Flag rows far from their own class by robust distance, and measure their influence on LDA.
 
@@ -53,128 +231,31 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     ``outlier_logdet_fail``; warns above the warn thresholds or when more than
     ``outlier_fraction_warn`` of a class is flagged.
     """
-    m = data.moments
-    n, p = data.n, data.p
-    seeds = class_seeds(random_state, len(data.classes), _SALT)
-    distance = np.zeros(n)
-    classical = np.zeros(n)
-    cutoffs = np.zeros(n)
-    flagged = np.zeros(n, dtype=bool)
-    robust_scatter = np.zeros((p, p))
-    pooled = m.pooled_covariance
-    per_class: dict[Any, Any] = {}
-    shifts = []
-    for k, cls in enumerate(data.classes):
-        rows = data.class_rows(k)
-        X = data.values[rows]
-        nk = len(rows)
-        info: dict[str, Any] = {"n": nk}
-        d_classical = _mahalanobis_sq(X, m.means[k], m.class_covariances()[k])
-        if d_classical is None:
-            d_classical = _mahalanobis_sq(X, m.means[k], pooled)
-            info["classical_covariance"] = "pooled (class covariance singular)"
-        if nk >= 2 * (p + 1):
-            fit = mcd(X, random_state=seeds[k], cutoff_quantile=config.outlier_quantile)
-            d_robust, h = fit.distances, fit.h
-            cut, rule = _cutoff(config, nk, fit.p_used, h)
-            info.update(
-                {
-                    "method": "reweighted FAST-MCD",
-                    "h": h,
-                    "n_reweighted": fit.n_reweighted,
-                    "corrections": list(fit.corrections),
-                    "seed": seeds[k],
-                    "exact_fit": fit.exact_fit,
-                }
-            )
-            if fit.exact_fit and fit.hyperplane_normal is not None:
-                info["hyperplane"] = {
-                    "normal": dict(zip(data.features, fit.hyperplane_normal.tolist(), strict=True)),
-                    "offset": fit.hyperplane_offset,
-                    "n_on_hyperplane": fit.n_on_hyperplane,
-                }
-            robust_scatter += (nk - 1) * fit.covariance
-        else:
-            d_robust, h = d_classical, None
-            cut, rule = _cutoff(config, nk, p, None)
-            info["method"] = f"classical distances (fewer than 2(p+1) = {2 * (p + 1)} rows for a robust fit)"
-            robust_scatter += m.scatter[k]
-        if d_classical is None or d_robust is None:
-            per_class[label(cls)] = {**info, "skipped": "covariance singular; distances undefined"}
-            continue
-        is_out = d_robust > cut
-        distance[rows], classical[rows], cutoffs[rows], flagged[rows] = d_robust, d_classical, cut, is_out
-        shift = 0.0
-        if is_out.any() and (~is_out).sum() > 1:
-            moved = X[~is_out].mean(axis=0) - m.means[k]
-            shift = float(np.sqrt(_mahalanobis_sq(moved[None, :], np.zeros(p), pooled)[0])) if np.isfinite(
-                logdet_spd(pooled)) else float("nan")
-        shifts.append(shift)
-        order = np.argsort(-d_robust[is_out])
-        listed = [
-            {"row": label(data.row_labels[rows[i]]), "distance": float(d_robust[i]), "classical_distance": float(d_classical[i])}
-            for i in np.flatnonzero(is_out)[order][:_MAX_LISTED_ROWS]
-        ]
-        info.update(
-            {
-                "cutoff": cut,
-                "cutoff_rule": rule,
-                "n_flagged": int(is_out.sum()),
-                "fraction_flagged": float(is_out.mean()),
-                "flagged_rows": listed,
-                "mean_shift": shift,
-                "masked_by_classical": int((is_out & (d_classical <= cut)).sum()),
-            }
-        )
-        per_class[label(cls)] = info
-    ld_classical = logdet_spd(pooled)
-    ld_robust = logdet_spd(robust_scatter / (m.n_total - m.n_classes))
-    excess = (ld_classical - ld_robust) / p if np.isfinite(ld_classical) and np.isfinite(ld_robust) else float("nan")
-    details: dict[str, Any] = {
-        "per_class": per_class,
-        "n_flagged": int(flagged.sum()),
-        "pooled_logdet_excess_per_feature": excess,
-        "robust_fit_rule": "reweighted FAST-MCD for classes with at least 2(p+1) rows, classical distances otherwise",
-        "distance": "squared Mahalanobis distance from the class's own (robust) centre and covariance",
-        "thresholds": {
-            "quantile": config.outlier_quantile,
-            "cutoff": config.outlier_cutoff,
-            "fraction_warn": config.outlier_fraction_warn,
-            "mean_shift_warn": config.outlier_mean_shift_warn,
-            "mean_shift_fail": config.outlier_mean_shift_fail,
-            "logdet_warn": config.outlier_logdet_warn,
-            "logdet_fail": config.outlier_logdet_fail,
-        },
-    }
-    arrays = {
+    fits, distances = fit_classes(data, config, random_state)
+    n = data.n
+    arrays: dict[str, Any] = {
         "row_label": data.row_labels,
         "class": np.asarray(data.classes, dtype=object)[data.codes],
-        "distance": distance,
-        "classical_distance": classical,
-        "cutoff": cutoffs,
-        "flagged": flagged,
+        "distance": np.zeros(n),
+        "classical_distance": np.zeros(n),
+        "cutoff": np.zeros(n),
+        "flagged": np.zeros(n, dtype=bool),
     }
-    total = int(flagged.sum())
-    max_shift = max((s for s in shifts if np.isfinite(s)), default=0.0)
-    fractions = {c: v.get("fraction_flagged", 0.0) for c, v in per_class.items()}
-    worst_class = max(fractions, key=fractions.__getitem__) if fractions else None
-    details["max_mean_shift"] = max_shift
-    figure = f"{total} flagged ({fmt(100 * total / n, 2)}%)"
-    influence = f"class means move up to {fmt(max_shift)} pooled SD, pooled log-det excess {fmt(excess)} per feature"
-    flagged_text = _examples(per_class)
-    if max_shift > config.outlier_mean_shift_fail or (np.isfinite(excess) and excess > config.outlier_logdet_fail):
-        return Finding(KEY, "fail", f"{total} rows lie far from their class ({flagged_text}) and distort LDA's estimates: "
-                       f"{influence}.", details, figure, arrays)
-    wide = fractions.get(worst_class, 0.0) > config.outlier_fraction_warn if worst_class is not None else False
-    if max_shift > config.outlier_mean_shift_warn or (np.isfinite(excess) and excess > config.outlier_logdet_warn) or wide:
-        share = f"{fmt(100 * fractions[worst_class], 2)}% of class {worst_class} flagged; " if wide else ""
-        return Finding(KEY, "warn", f"{total} rows flagged ({flagged_text}); {share}{influence}.", details, figure, arrays)
-    return Finding(KEY, "pass", f"{total} rows beyond the cut-off, about what a Gaussian tail gives, with little "
-                   f"influence ({influence}).", details, figure, arrays)
+    outcomes = []
+    for fit, d in zip(fits, distances, strict=True):
+        rows = data.class_rows(fit.code)
+        outcome, flagged, d_classical = score_rows(data.values[rows], d, fit, data.moments, data.row_labels[rows])
+        outcomes.append(outcome)
+        arrays["distance"][rows] = d
+        arrays["classical_distance"][rows] = d_classical
+        arrays["cutoff"][rows] = fit.cutoff
+        arrays["flagged"][rows] = flagged
+    arrays["fits"] = fits
+    return judge(data, config, fits, outcomes, arrays)
 
 
 def _examples(per_class: dict[Any, Any]) -> str:
     rows = sorted(
-        ((r["distance"], r["row"], c) for c, v in per_class.items() for r in v.get("flagged_rows", [])), reverse=True
+        ((r["distance"], str(r["row"]), c) for c, v in per_class.items() for r in v.get("flagged_rows", [])), reverse=True
     )
     return "farthest " + names([f"{row} ({c})" for _, row, c in rows], 3) if rows else "none"

@@ -46,8 +46,13 @@ _MAX_CSTEPS = 100
 #: Work budget (in multiply-adds, n * p^2 per C-step and candidate) for the full-data stage
 #: of the nested scheme; it sets how many candidates are carried to the full data.
 _FULL_STAGE_BUDGET = 2.0e9
-#: Rows of the intermediate random subsample used when n > 2 * _MID_ROWS (an extra level of
-#: the nested scheme: the merged candidates are iterated to convergence on it first).
+#: Up to this much work per C-step (n * p^2) every candidate carried to the full data is
+#: iterated to convergence; above it each gets two C-steps and only the best goes on.
+_CONVERGE_ALL_WORK = 2.0e8
+#: From this many rows on, an intermediate random subsample of min(_MID_ROWS, n // 3) rows is
+#: used (an extra level of the nested scheme: the merged candidates are iterated to
+#: convergence on it before the C-steps on all rows, which then need only a few steps).
+_MID_FROM = 40_000
 _MID_ROWS = 20_000
 #: A C-step counts as converged when log det decreases by less than this ...
 _LOGDET_TOL = 1e-10
@@ -257,16 +262,21 @@ def mcd(
     closest to its own mean in its own metric, which never increases the determinant
     (Rousseeuw & Van Driessen 1999, Theorem 1). With n <= 600 every start gets two C-steps on
     all rows, the best 10 are iterated to convergence. With n > 600 the nested scheme of the
-    paper is used: a random subsample of min(n, 1500) rows is split into k = min(5, m // 300)
-    groups; each group gets n_starts / k starts with h_g = ceil(n_g h / n) and two C-steps,
-    keeping its best 10; the pooled candidates get two C-steps on the merged set
-    (h_m = ceil(m h / n)), the best 10 are kept, and C-steps on all rows follow. When n > 1500
-    the full-data stage gives one C-step to each of the best few merged candidates (as many as
-    fit a budget of about 2e9 multiply-adds, between 1 and 10) and iterates the best to
-    convergence, so that the cost grows linearly in n. A candidate has converged when its
-    h-subset no longer changes or its log det decreases by less than 1e-10. The random
-    numbers come from ``numpy.random.default_rng(random_state)``; ties in the distances are
-    broken by row order, so the same seed gives the same result.
+    paper is used: a random subsample of m = min(n, 1500) rows is split into
+    k = min(5, m // 300) groups; each group gets ceil(n_starts / k) starts with
+    h_g = ceil(n_g h / n) and two C-steps, keeping its best 10; the pooled candidates get two
+    C-steps on the merged set (h_m = ceil(m h / n)) and the best 10 are kept. If n <= 1500 the
+    merged set is the whole data and those 10 are iterated to convergence. Otherwise the
+    best n_full = min(10, max(1, 2e9 / (n p^2))) candidates go on to C-steps on all rows:
+    while n p^2 <= 2e8 each is iterated to convergence, above that each gets two C-steps and
+    the best one is iterated to convergence, so that the cost grows about linearly in n. For
+    n >= 40,000 an extra level is inserted before that (not in the paper): the 10 merged
+    candidates get two C-steps on a random subsample of min(20,000, n // 3) rows, and the best
+    n_full of them are iterated to convergence there. A candidate has converged when its
+    h-subset no longer changes or its log det decreases by less than 1e-10 (1e-7, a relative
+    change of the determinant of 1e-7, in the stages on all rows and on the 20,000-row
+    subsample). The random numbers come from ``numpy.random.default_rng(random_state)``; ties
+    in the distances are broken by row order, so the same seed gives the same result.
 
     **Raw estimate.** ``raw_location`` is the mean and the uncorrected raw covariance is the
     covariance (divisor h) of the best h-subset found; ``raw_log_determinant`` is its log
@@ -365,14 +375,14 @@ def mcd(
 
     constant = np.ptp(data, axis=0) == 0
     constant_names = tuple(names[j] for j in np.flatnonzero(constant))
-    common = dict(
-        h=h,
-        n_starts=starts,
-        random_state=seed,
-        cutoff_quantile=quantile,
-        feature_names=tuple(names),
-        constant_columns=constant_names,
-    )
+    common: dict[str, Any] = {
+        "h": h,
+        "n_starts": starts,
+        "random_state": seed,
+        "cutoff_quantile": quantile,
+        "feature_names": tuple(names),
+        "constant_columns": constant_names,
+    }
     if constant.any():
         warnings.warn(
             f"X has constant columns {list(constant_names)}; the MCD is computed on the other "
@@ -425,7 +435,7 @@ def mcd_consistency_factor(alpha: float, p: int) -> float:
     Examples
     --------
     >>> round(mcd_consistency_factor(0.5, 1), 4)   # 0.5 / P(chi2_3 <= 0.4549)
-    4.5118
+    7.0101
     """
     if not 0.0 < alpha <= 1.0:
         raise DataError(f"alpha must be in (0, 1]; got {alpha}.")
@@ -450,7 +460,7 @@ def _support_size(n: int, p: int, support_fraction: float | None) -> int:
             f"support_fraction must be in [0.5, 1]; got {value}. Below 0.5 the MCD no longer "
             "describes the majority of the rows; use None for the default h = floor((n+p+1)/2)."
         )
-    h = int(math.ceil(value * n - 1e-9))
+    h = math.ceil(value * n - 1e-9)
     if h <= p:
         raise DataError(
             f"support_fraction={value} gives h = {h} rows for {p} features; h must exceed p. "
@@ -477,7 +487,7 @@ def _check_starts(n_starts: int) -> int:
 
 def _resolve_seed(random_state: int | None) -> int:
     if random_state is None:
-        return int(np.random.SeedSequence().entropy % (2**32))
+        return int(np.random.SeedSequence().generate_state(1)[0])
     if isinstance(random_state, bool) or not isinstance(random_state, (int, np.integer)):
         raise DataError(
             f"random_state must be a non-negative integer or None; got {random_state!r}. "
@@ -631,10 +641,9 @@ def _smallest(d: FloatVector, h: int) -> BoolVector:
 class _ExactFitFound(Exception):
     """Raised inside the search when at least h rows lie on a hyperplane."""
 
-    def __init__(self, on_plane: BoolVector, tol: float) -> None:
+    def __init__(self, on_plane: BoolVector) -> None:
         super().__init__("exact fit")
         self.on_plane = on_plane
-        self.tol = tol
 
 
 class _Search:
@@ -671,7 +680,7 @@ class _Search:
         tol = max(float(resid[rows].max()) * (1.0 + 1e-9), _ON_PLANE * math.sqrt(top), 1e-12)
         on = resid <= tol
         if int(on.sum()) >= self.h:
-            raise _ExactFitFound(on, tol)
+            raise _ExactFitFound(on)
 
     def _plane_residuals(self, mu: FloatVector, N: FloatMatrix) -> FloatVector:
         out = np.empty(self.n)
@@ -785,8 +794,8 @@ class _Search:
             mu, L, ld, idx = self.csteps(sub, self.h, mu, L, _MAX_CSTEPS)
             return self._finish_small(sub, mu, L, ld, idx), None, "nested subsets"
         n_full = int(max(1, min(_KEEP, _FULL_STAGE_BUDGET // (float(self.n) * self.p * self.p))))
-        if self.n > 2 * _MID_ROWS:
-            mid = np.sort(self.rng.choice(self.n, size=_MID_ROWS, replace=False))
+        if self.n >= _MID_FROM:
+            mid = np.sort(self.rng.choice(self.n, size=min(_MID_ROWS, self.n // 3), replace=False))
             h_mid = self._local_h(mid.size)
             mu, L, ld, idx = self.csteps(mid, h_mid, mu, L, 2)
             mu, L, ld, idx = self.best(mu, L, ld, idx, n_full)
@@ -818,7 +827,7 @@ class _Search:
     def _finish_small(self, rows: npt.NDArray[np.intp], mu: FloatMatrix, L: Any, ld: FloatVector, idx: Any) -> BoolVector:
         if mu.shape[0] == 0:
             mu0, L0 = self._fallback_start(np.arange(self.n))
-            mu, L, ld, idx = self.csteps(np.arange(self.n), self.h, mu0, L0, _MAX_CSTEPS)
+            mu, _, ld, idx = self.csteps(np.arange(self.n), self.h, mu0, L0, _MAX_CSTEPS)
             rows = np.arange(self.n)
             if mu.shape[0] == 0:  # pragma: no cover - an exact fit is raised before this
                 raise DataError("the MCD search found no nonsingular h-subset; the data are degenerate.")
@@ -834,9 +843,9 @@ class _Search:
         rows from its mean and covariance (saving one pass over the data).
         """
         best: _FullState | None = None
-        # Every candidate is iterated to convergence when that fits the work budget (about
-        # 20 C-steps each); otherwise each gets two C-steps and only the best goes on.
-        cheap = 20.0 * mu.shape[0] * self.n * self.p * self.p <= _FULL_STAGE_BUDGET
+        # Every candidate is iterated to convergence when C-steps on all rows are cheap;
+        # otherwise each gets two C-steps and only the best goes on.
+        cheap = float(self.n) * self.p * self.p <= _CONVERGE_ALL_WORK
         steps = _MAX_CSTEPS if cheap or mu.shape[0] == 1 else 2
         for b in range(mu.shape[0]):
             state = self._converge_full(mu[b], L[b], steps)
@@ -969,31 +978,31 @@ def _fit(
     rw_scale = c_rw * f_rw
     cutoff = float(sp_stats.chi2.ppf(quantile, p))
     distances = d_rw_unc / rw_scale
-    return dict(
-        raw_location=raw_loc,
-        raw_covariance=raw_cov,
-        support=support,
-        location=loc,
-        covariance=S_rw * rw_scale,
-        distances=distances,
-        outliers=distances > cutoff,
-        raw_distances=raw_d,
-        reweighted=kept,
-        p_used=p,
-        raw_log_determinant=raw_log_det,
-        cutoff=cutoff,
-        raw_consistency_factor=c_raw,
-        reweighted_consistency_factor=c_rw,
-        raw_correction_factor=f_raw,
-        reweighted_correction_factor=f_rw,
-        corrections=tuple(corrections),
-        n_reweighted=n_kept,
-        search=scheme,
-        exact_fit=False,
-        hyperplane_normal=None,
-        hyperplane_offset=None,
-        n_on_hyperplane=0,
-    )
+    return {
+        "raw_location": raw_loc,
+        "raw_covariance": raw_cov,
+        "support": support,
+        "location": loc,
+        "covariance": S_rw * rw_scale,
+        "distances": distances,
+        "outliers": distances > cutoff,
+        "raw_distances": raw_d,
+        "reweighted": kept,
+        "p_used": p,
+        "raw_log_determinant": raw_log_det,
+        "cutoff": cutoff,
+        "raw_consistency_factor": c_raw,
+        "reweighted_consistency_factor": c_rw,
+        "raw_correction_factor": f_raw,
+        "reweighted_correction_factor": f_rw,
+        "corrections": tuple(corrections),
+        "n_reweighted": n_kept,
+        "search": scheme,
+        "exact_fit": False,
+        "hyperplane_normal": None,
+        "hyperplane_offset": None,
+        "n_on_hyperplane": 0,
+    }
 
 
 def _scheme_of(n: int) -> str:
@@ -1028,7 +1037,7 @@ def _smallest_exact_fit(
 
 def _exact_fit_result(X: FloatMatrix, scale: FloatVector, on: BoolVector, quantile: float, scheme: str) -> dict[str, Any]:
     """Estimates and finite distances when at least h rows lie on a hyperplane (see mcd Notes)."""
-    n, p = X.shape
+    n = X.shape[0]
     n_on = int(on.sum())
     loc, S = _masked_moments(X, on, _masked_mean(X, on))
     Ss = S / np.outer(scale, scale)
@@ -1060,31 +1069,31 @@ def _exact_fit_result(X: FloatMatrix, scale: FloatVector, on: BoolVector, quanti
         f"exact fit: {n_on} rows lie on a hyperplane; mean and covariance of those rows, "
         "no consistency factor; off-plane rows get the exact-fit distance convention"
     )
-    return dict(
-        raw_location=loc,
-        raw_covariance=S,
-        support=on.copy(),
-        location=loc.copy(),
-        covariance=S.copy(),
-        distances=distances,
-        outliers=distances > cutoff,
-        raw_distances=distances.copy(),
-        reweighted=on.copy(),
-        p_used=rank,
-        raw_log_determinant=ld,
-        cutoff=cutoff,
-        raw_consistency_factor=1.0,
-        reweighted_consistency_factor=1.0,
-        raw_correction_factor=1.0,
-        reweighted_correction_factor=1.0,
-        corrections=(note,),
-        n_reweighted=n_on,
-        search=scheme,
-        exact_fit=True,
-        hyperplane_normal=normal,
-        hyperplane_offset=offset,
-        n_on_hyperplane=n_on,
-    )
+    return {
+        "raw_location": loc,
+        "raw_covariance": S,
+        "support": on.copy(),
+        "location": loc.copy(),
+        "covariance": S.copy(),
+        "distances": distances,
+        "outliers": distances > cutoff,
+        "raw_distances": distances.copy(),
+        "reweighted": on.copy(),
+        "p_used": rank,
+        "raw_log_determinant": ld,
+        "cutoff": cutoff,
+        "raw_consistency_factor": 1.0,
+        "reweighted_consistency_factor": 1.0,
+        "raw_correction_factor": 1.0,
+        "reweighted_correction_factor": 1.0,
+        "corrections": (note,),
+        "n_reweighted": n_on,
+        "search": scheme,
+        "exact_fit": True,
+        "hyperplane_normal": normal,
+        "hyperplane_offset": offset,
+        "n_on_hyperplane": n_on,
+    }
 
 
 def _embed(fit: dict[str, Any], data: FloatMatrix, varying: npt.NDArray[np.intp], constant: BoolVector) -> dict[str, Any]:
@@ -1112,10 +1121,11 @@ def _embed(fit: dict[str, Any], data: FloatMatrix, varying: npt.NDArray[np.intp]
         out["n_on_hyperplane"] = n
         out["raw_log_determinant"] = float("-inf")
         out["exact_fit"] = True
-    out["corrections"] = fit["corrections"] + (
+    note = (
         f"constant columns set aside: the fit uses {varying.size} of {p} columns; "
-        "their covariance rows and columns are zero",
+        "their covariance rows and columns are zero"
     )
+    out["corrections"] = (*fit["corrections"], note)
     return out
 
 
