@@ -11,6 +11,7 @@ from discaudit.findings import Finding, fmt, names
 from discaudit.intake import AuditData
 from discaudit.stats.condition_indices import ConditionIndicesResult, condition_indices_from_covariance
 from discaudit.stats.shrinkage import class_centred_fourth_sum, ledoit_wolf_intensity
+from discaudit.stats.shrinkage_retention import shrinkage_retention
 from discaudit.stats.vif import vif_from_covariance
 
 KEY = "collinearity"
@@ -65,11 +66,16 @@ def _shrinkage(data: AuditData) -> dict[str, Any]:
     standardized = ledoit_wolf_intensity(
         W / np.outer(scale, scale), N, class_centred_fourth_sum(data.values, data.codes, m.means, scale)
     )
+    retention = shrinkage_retention(m, standardized)
     return {
+        "retained_separation": None if retention is None else retention.retained,
+        "low_variance_separation_share": None if retention is None else retention.low_variance_share,
         "ledoit_wolf_raw": raw,
         "ledoit_wolf_standardized": standardized,
         "estimator": "Ledoit-Wolf (2004) intensity of the pooled within-class covariance (class-centred rows, "
-        "divisor N); 'standardized' scales each feature to unit pooled within-class variance first",
+        "divisor N); 'standardized' scales each feature to unit pooled within-class variance first; "
+        "retained_separation: share of the noise-corrected between-class Mahalanobis separation kept by LDA "
+        "with the standardized intensity",
     }
 
 

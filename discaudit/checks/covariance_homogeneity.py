@@ -113,6 +113,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
                 "n_params_shared": bic.n_params_shared,
                 "n_params_separate": bic.n_params_separate,
                 "delta_bic": bic.delta_bic,
+                "delta_aic": bic.delta_aic,
                 "gain_per_row": bic.gain_per_row,
             },
             "log_determinants": {label(c): v for c, v in zip(sub.classes, box.log_determinants, strict=True)},

@@ -26,6 +26,9 @@ class CovarianceBICResult:
         -2 loglik + n_params ln N.
     delta_bic : float
         bic_shared - bic_separate: positive favours separate covariances (QDA's model).
+    delta_aic : float
+        aic_shared - aic_separate with AIC = -2 loglik + 2 n_params (Akaike 1974): the
+        predictive counterpart of ``delta_bic`` (positive favours separate covariances).
     gain_per_row : float
         (loglik_separate - loglik_shared) / N, in nats per row: the size of the covariance
         difference, independent of N.
@@ -38,6 +41,7 @@ class CovarianceBICResult:
     bic_shared: float
     bic_separate: float
     delta_bic: float
+    delta_aic: float
     gain_per_row: float
 
 
@@ -65,6 +69,8 @@ def covariance_bic(moments: ClassMoments) -> CovarianceBICResult:
     References
     ----------
     Schwarz, G. (1978). Estimating the dimension of a model. Annals of Statistics 6, 461-464.
+    Akaike, H. (1974). A new look at the statistical model identification. IEEE Transactions
+    on Automatic Control 19, 716-723.
     Kass, R. E. & Raftery, A. E. (1995). Bayes factors. JASA 90, 773-795.
     """
     counts = moments.counts.astype(np.float64)
@@ -84,5 +90,6 @@ def covariance_bic(moments: ClassMoments) -> CovarianceBICResult:
         bic_shared=float(bic_shared),
         bic_separate=float(bic_separate),
         delta_bic=float(bic_shared - bic_separate),
+        delta_aic=float(2.0 * (separate - shared) - 2.0 * (k_separate - k_shared)),
         gain_per_row=float((separate - shared) / N),
     )
