@@ -58,8 +58,12 @@ def _junit(verdict: Verdict, fail_on: str) -> str:
     return verdict.to_junit(fail_on=fail_on)
 
 
+def _html(verdict: Verdict, fail_on: str) -> str:
+    return verdict.to_html()
+
+
 #: ``--format`` name -> renderer. Adding a format is one entry here.
-FORMATS: dict[str, Renderer] = {"text": _text, "json": _json, "markdown": _markdown, "junit": _junit}
+FORMATS: dict[str, Renderer] = {"text": _text, "json": _json, "markdown": _markdown, "junit": _junit, "html": _html}
 
 #: Files larger than this are read in chunks with a progress line (at a terminal only).
 LARGE_FILE_BYTES = 16_000_000

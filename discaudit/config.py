@@ -91,6 +91,11 @@ class Config:
     outlier_fraction_warn: float = _threshold(
         0.05, "Share of a class flagged as outlying above this: warn.", "common practice"
     )
+    robust_min_rows_per_feature: float = _threshold(
+        5.0,
+        "A class gets a robust (MCD) fit only with at least this many rows per feature; fewer use classical distances.",
+        "Rousseeuw & Van Driessen (1999) advise n > 5p for MCD (from memory)",
+    )
     outlier_cutoff: str = _threshold(
         "chi2",
         "Cut-off for robust squared distances: 'chi2' (chi-square(p) quantile) or 'hardin_rocke' (F-based).",

@@ -153,6 +153,39 @@ class Verdict:
         rows = [(r.check, r.status, r.figure, r.summary, r.severity) for r in build(self).rows]
         return pd.DataFrame(rows, columns=["check", "status", "figure", "summary", "severity"])
 
+    def plot(self, check: str | None = None, ax: Any = None) -> Any:
+        """Diagnostic plot of one check, or an overview of the checks that warn or fail.
+
+        Thin wrapper of :func:`discaudit.plot.plot_verdict` (see there for each plot).
+        Needs matplotlib (``pip install 'discaudit[plot]'``); raises ImportError saying so
+        otherwise.
+
+        Parameters
+        ----------
+        check : str, optional
+            ``"outliers"``, ``"covariance_homogeneity"``, ``"collinearity"``,
+            ``"scale_disparity"`` or ``"normality"``; None for the overview.
+        ax : matplotlib Axes, optional
+            Draw the check's main panel on this axes.
+
+        Returns
+        -------
+        matplotlib.figure.Figure
+        """
+        from discaudit.plot import plot_verdict
+
+        return plot_verdict(self, check=check, ax=ax)
+
+    def to_html(self) -> str:
+        """A self-contained HTML report: table, findings, figures, settings, data fingerprint.
+
+        See :mod:`discaudit.report.html`. Figures need matplotlib; without it the report
+        is written without them and says so.
+        """
+        from discaudit.report.html import render
+
+        return render(self)
+
     def to_markdown(self) -> str:
         """The verdict as Markdown for a pull-request comment (see ``discaudit.report.markdown``)."""
         from discaudit.report.markdown import render

@@ -123,7 +123,7 @@ def test_fail_on_warn_versus_fail_on_a_data_set_that_only_warns(files, capsys) -
         (("check", "{dir}/garbage.parquet", "--target", "label"), "garbage.parquet: cannot be read as Parquet"),
         (("check", "{dir}/nan.csv", "--target", "label", "--index-col", "row_id"), "f2 (1)"),
         (("check", "{pass}", "--target", "label", "--config", "{dir}/missing.toml"), "missing.toml: no such file"),
-        (("check", "{pass}", "--format", "html", "--target", "label"), "invalid choice: 'html'"),
+        (("check", "{pass}", "--format", "pdf", "--target", "label"), "invalid choice: 'pdf'"),
         (("check", "{pass}"), "--target"),
         ((), "COMMAND"),
     ],

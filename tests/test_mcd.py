@@ -48,7 +48,7 @@ def _support_logdet(X: np.ndarray, mask: np.ndarray) -> float:
 
 def _exhaustive_mcd(X: np.ndarray, h: int) -> tuple[float, tuple[int, ...]]:
     """Exact MCD objective: the smallest log det over all h-subsets (vectorized in blocks)."""
-    n, p = X.shape
+    n = X.shape[0]
     best, best_subset = np.inf, ()
     combos = np.array(list(itertools.combinations(range(n), h)), dtype=np.intp)
     for a in range(0, combos.shape[0], 50_000):
@@ -175,7 +175,7 @@ class TestConsistency:
     def test_factor_limits(self) -> None:
         assert mcd_consistency_factor(1.0, 4) == 1.0
         values = [mcd_consistency_factor(a, 3) for a in (0.5, 0.7, 0.9, 0.99)]
-        assert all(x > y > 1 for x, y in zip(values, values[1:]))
+        assert all(x > y > 1 for x, y in itertools.pairwise(values))
 
     def test_large_sample_estimates_are_consistent(self) -> None:
         # 20,000 normal rows (nested-subset search): raw and reweighted covariances estimate
@@ -337,7 +337,7 @@ class TestHardinRocke:
         for p in (1, 3, 10):
             values = [hardin_rocke_cutoff(n, p).cutoff for n in (200, 2_000, 20_000, 10**8)]
             chi2 = stats.chi2.ppf(0.975, p)
-            assert all(a > b for a, b in zip(values, values[1:]))
+            assert all(a > b for a, b in itertools.pairwise(values))
             assert values[0] > chi2
             assert values[-1] == pytest.approx(chi2, rel=1e-5)
 

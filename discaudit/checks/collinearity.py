@@ -19,17 +19,38 @@ _RANK_TOLERANCE = 1e-10
 
 
 def _dependencies(ci: ConditionIndicesResult, features: list[str], config: Config) -> list[dict[str, Any]]:
-    """Near dependencies: dimensions above the warn index with features of proportion > cut."""
+    """Near dependencies: dimensions above the warn index with features of proportion > cut.
+
+    When several dimensions with high indices share the variance of the same coefficients
+    (coexisting dependencies), no single dimension may pass the proportion cut; Belsley,
+    Kuh & Welsch then sum the proportions over those dimensions, which is reported as one
+    combined dependency.
+    """
     out = []
     props = ci.variance_proportions.to_numpy()
-    for k in np.flatnonzero(ci.indices > config.condition_index_warn)[::-1]:
-        involved = [features[j] for j in np.flatnonzero(props[k] > config.variance_proportion)]
+    high = np.flatnonzero(ci.indices > config.condition_index_warn)[::-1]
+    for k in high:
+        involved = np.flatnonzero(props[k] > config.variance_proportion)
         if len(involved) >= 2:
             out.append(
                 {
                     "condition_index": float(ci.indices[k]),
-                    "features": involved,
-                    "proportions": {features[j]: float(props[k, j]) for j in np.flatnonzero(props[k] > config.variance_proportion)},
+                    "features": [features[j] for j in involved],
+                    "proportions": {features[j]: float(props[k, j]) for j in involved},
+                    "dimensions": 1,
+                }
+            )
+    if len(high) > 1:
+        combined = props[high].sum(axis=0)
+        involved = np.flatnonzero(combined > config.variance_proportion)
+        covered = {f for d in out for f in d["features"]}
+        if len(involved) >= 2 and not {features[j] for j in involved} <= covered:
+            out.append(
+                {
+                    "condition_index": float(ci.indices[high[0]]),
+                    "features": [features[j] for j in involved],
+                    "proportions": {features[j]: float(combined[j]) for j in involved},
+                    "dimensions": int(len(high)),
                 }
             )
     return out
@@ -145,8 +166,10 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     high = [f for f, v in zip(used, vifs, strict=True) if v > config.vif_warn]
     dep_text = ""
     if dependencies:
-        dep_text = f"; strongest near dependency (index {fmt(dependencies[0]['condition_index'])}) joins " + names(
-            dependencies[0]["features"]
+        first = dependencies[0]
+        spread = f" over {first['dimensions']} dimensions" if first["dimensions"] > 1 else ""
+        dep_text = f"; strongest near dependency (index {fmt(first['condition_index'])}{spread}) joins " + names(
+            first["features"]
         )
     if max_vif > config.vif_fail or cond > config.condition_index_fail:
         return Finding(

@@ -73,8 +73,17 @@ def _cutoff(config: Config, n: int, p: int, h: int | None) -> tuple[float, str]:
     return float(sps.chi2.ppf(config.outlier_quantile, p)), f"chi-square({p}) {config.outlier_quantile} quantile"
 
 
+def robust_min_rows(p: int, config: Config) -> int:
+    """Rows a class needs for a robust fit: max(2(p+1), robust_min_rows_per_feature * p)."""
+    return int(max(2 * (p + 1), np.ceil(config.robust_min_rows_per_feature * p)))
+
+
 def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tuple[list[ClassFit], list[np.ndarray]]:
-    """A reweighted FAST-MCD fit per class with at least 2(p+1) rows, classical otherwise.
+    """A reweighted FAST-MCD fit per class with at least ``min_rows`` rows, classical otherwise.
+
+    The rule (``robust_min_rows_per_feature`` x p rows, at least 2(p+1)) follows the advice
+    that MCD needs n well above 5p to estimate the scatter without heavy finite-sample
+    shrinkage (Rousseeuw & Van Driessen 1999; cited from memory).
 
     Returns the fits and, per class, the squared distances of the class's rows in ``data``.
     """
@@ -82,10 +91,11 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
     p = data.p
     seeds = class_seeds(random_state, len(data.classes), _SALT)
     fits, distances = [], []
+    min_rows = robust_min_rows(p, config)
     for k in range(len(data.classes)):
         X = data.values[data.class_rows(k)]
         nk = X.shape[0]
-        if nk >= 2 * (p + 1):
+        if nk >= min_rows:
             fit = mcd(X, random_state=seeds[k], cutoff_quantile=config.outlier_quantile)
             cut, rule = _cutoff(config, nk, fit.p_used, fit.h)
             info: dict[str, Any] = {
@@ -106,7 +116,7 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
         else:
             cov = m.class_covariances()[k]
             d = mahalanobis_sq(X, m.means[k], cov)
-            note = f"classical distances (fewer than 2(p+1) = {2 * (p + 1)} rows for a robust fit)"
+            note = f"classical distances (fewer than {min_rows} rows for a robust fit)"
             if d is None:
                 cov = m.pooled_covariance
                 d = mahalanobis_sq(X, m.means[k], cov)
@@ -185,7 +195,8 @@ def judge(
         "n_flagged": total,
         "max_mean_shift": max_shift,
         "pooled_logdet_excess_per_feature": excess,
-        "robust_fit_rule": "reweighted FAST-MCD for classes with at least 2(p+1) rows, classical distances otherwise",
+        "robust_fit_rule": f"reweighted FAST-MCD for classes with at least {robust_min_rows(p, config)} rows "
+        f"({config.robust_min_rows_per_feature:g} per feature, at least 2(p+1)), classical distances otherwise",
         "distance": "squared Mahalanobis distance from the class's own (robust) centre and covariance",
         "influence": "mean_shift: class mean with vs without its flagged rows, in pooled-Mahalanobis units; "
         "pooled_logdet_excess_per_feature: (log det classical pooled - log det robust pooled) / p",
@@ -221,7 +232,7 @@ def judge(
 def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
     """Flag rows far from their own class by robust distance, and measure their influence on LDA.
 
-    Each class with at least 2(p+1) rows gets a reweighted FAST-MCD fit (Rousseeuw & Van
+    Each class with at least ``robust_min_rows_per_feature`` rows per feature gets a reweighted FAST-MCD fit (Rousseeuw & Van
     Driessen 1999) and squared robust distances; smaller classes fall back to classical
     distances from the class mean and covariance (noted). Influence on what LDA uses: the
     shift of each class mean when its flagged rows are removed, in pooled-Mahalanobis

@@ -73,7 +73,7 @@ def _unlabelled_note(ax: Axes, verdict: Any, n_labelled: int, cap: int) -> None:
                     "(verdict.outlier_rows() lists all)", (0.02, 0.98), xycoords="axes fraction", va="top", fontsize=7)
 
 
-def place_labels(ax: Axes, requests: list[tuple], gap: float = 9.0) -> None:
+def place_labels(ax: Axes, requests: list[tuple], gap: float = 9.0, layout: bool = True) -> None:
     """Annotate points with labels placed so that they do not overprint each other.
 
     Farthest points first, each label tries positions right then left of its point, at
@@ -84,7 +84,7 @@ def place_labels(ax: Axes, requests: list[tuple], gap: float = 9.0) -> None:
         return
     fig = ax.figure
     engine = fig.get_layout_engine() if hasattr(fig, "get_layout_engine") else None
-    if engine is not None:
+    if layout and engine is not None:
         engine.execute(fig)  # final axes positions, so distances in points are right
     width, height = fig.get_size_inches() * 72.0
     box = ax.get_position()
@@ -203,11 +203,12 @@ def draw_figure(verdict: Any) -> Figure:
         draw_qq(verdict, axes[1])
         return fig
     fig, axes = c.new_figure(len(groups) + 1, ncols=3 if len(groups) >= 3 else 2)
+    pending = []
     for ax, (k, name, rows) in zip(axes, groups, strict=False):
         log = _log_for(verdict, rows)
         requests = _draw_class(ax, verdict, k, name, rows, LABEL_CAP, log)
         _finish_distance_axes(ax, log, _robust(verdict, name))
-        place_labels(ax, requests)
+        pending.append((ax, requests))
         n_flagged = int(np.asarray(_arrays(verdict)["flagged"], dtype=bool)[rows].sum())
         if n_flagged > len(requests):
             ax.annotate(f"labelled: the {LABEL_CAP} farthest; {n_flagged - len(requests)} more flagged", (0.02, 0.98),
@@ -219,4 +220,7 @@ def draw_figure(verdict: Any) -> Figure:
         c.status_title(ax, f"Outliers in class {c.short(name, 20)}", verdict, KEY)
     draw_qq(verdict, axes[len(groups)])
     c.figure_title(fig, "Outliers: robust distances per class", verdict, KEY)
+    fig.get_layout_engine().execute(fig)  # once, so that label spacing uses the final panel sizes
+    for ax, requests in pending:
+        place_labels(ax, requests, layout=False)
     return fig

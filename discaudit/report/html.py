@@ -1,0 +1,313 @@
+"""Self-contained HTML report of a verdict (``Verdict.to_html()``, ``--format html``).
+
+One file that opens anywhere, offline: no script, no external stylesheet, font, image or
+link (only in-page ``#anchors``); figures are embedded as base64 PNG written without
+the PNG ``Software`` text chunk. The report holds
+
+* the caution and the verdict table (:mod:`discaudit.report.html_table`, the same table
+  every renderer formats),
+* the data: rows, features, classes and the fingerprint recorded by the audit
+  (``meta["fingerprint"]``: SHA-256 of the audited matrix and labels),
+* one section per finding: status, summary, the diagnostic figure for checks that have
+  one (:mod:`discaudit.plot`), and the details as tables,
+* the settings: every :class:`~discaudit.config.Config` field with the value used, its
+  default, meaning and source; the severity of each check; the seed and the version.
+
+Every user-supplied string (column names, class and row labels, anything inside the
+details) is HTML-escaped with quotes; nothing is computed here beyond formatting. Without
+matplotlib the report is written without figures and says so.
+"""
+
+from __future__ import annotations
+
+import base64
+import io
+from html import escape
+from typing import Any
+
+from discaudit.config import Config
+from discaudit.findings import fmt
+from discaudit.report.html_table import format_table
+from discaudit.report.markdown import status_label
+from discaudit.report.table import build
+from discaudit.result import CAUTION, Verdict
+
+#: Tables with more rows than this are folded into a ``<details>`` element.
+FOLD_ROWS = 25
+#: Lists of plain values longer than this are cut, with the count of the rest.
+MAX_LIST_ITEMS = 60
+#: Nesting depth beyond which details are shown as plain text.
+MAX_DEPTH = 5
+DPI = 96
+
+_STYLE = """
+body { font-family: system-ui, -apple-system, "Segoe UI", Roboto, Helvetica, Arial, sans-serif;
+       max-width: 1180px; margin: 1.5em auto; padding: 0 1em; color: #1a1a1a; line-height: 1.4; }
+h1 { font-size: 1.5em; } h2 { font-size: 1.25em; border-bottom: 1px solid #ccc; padding-bottom: .2em; margin-top: 2em; }
+h3 { font-size: 1.05em; margin-bottom: .3em; }
+table { border-collapse: collapse; margin: .4em 0; font-size: .9em; }
+th, td { border: 1px solid #d0d0d0; padding: .2em .5em; text-align: left; vertical-align: top; }
+th { background: #f3f3f3; }
+td.num { text-align: right; font-variant-numeric: tabular-nums; }
+code { font-size: .95em; }
+.caution { border: 2px solid #000; padding: .6em .9em; background: #fffbea; }
+.status { font-weight: bold; }
+.finding { border-left: 6px solid #888; padding: .2em 0 .2em 1em; margin: 1.5em 0; }
+.finding[data-status="fail"] { border-left-style: double; border-left-color: #D55E00; }
+.finding[data-status="warn"] { border-left-style: dashed; border-left-color: #E69F00; }
+.finding[data-status="pass"] { border-left-color: #0072B2; }
+figure { margin: .8em 0; } figure img { max-width: 100%; height: auto; border: 1px solid #e0e0e0; }
+figcaption { font-size: .85em; color: #333; }
+details > summary { cursor: pointer; color: #0b4f8a; }
+.changed { font-weight: bold; }
+"""
+
+
+def render(verdict: Verdict, *, plots: bool = True, dpi: int = DPI) -> str:
+    """The verdict as one self-contained HTML document.
+
+    Parameters
+    ----------
+    verdict : Verdict
+    plots : bool, default True
+        Embed the diagnostic figures (needs matplotlib; left out with a note otherwise).
+    dpi : int, default 96
+        Resolution of the embedded PNG figures.
+
+    Returns
+    -------
+    str
+        A complete HTML5 document.
+    """
+    figures, figure_note = _figures(verdict, dpi) if plots else ({}, "Figures were not requested.")
+    table = build(verdict)
+    meta = verdict.meta
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en">',
+        "<head>",
+        '<meta charset="utf-8">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>{_e(table.title)}</title>",
+        f"<style>{_STYLE}</style>",
+        "</head>",
+        "<body>",
+        f"<h1>{_e(table.title)}</h1>",
+        f'<p>Gate status: <span class="status">{_e(status_label(verdict.status))}</span>. '
+        f"Written by discaudit {_e(_version())}; this file is self-contained (no scripts, no external resources).</p>",
+        f'<div class="caution"><strong>Caution.</strong> {_e(CAUTION)}</div>',
+        _contents(verdict),
+        '<h2 id="verdict">Verdict</h2>',
+        format_table(table),
+        '<h2 id="data">Data</h2>',
+        _data_section(verdict),
+        '<h2 id="findings">Findings</h2>',
+    ]
+    if figure_note:
+        parts.append(f"<p><em>{_e(figure_note)}</em></p>")
+    severity = meta.get("severity", {})
+    for key, finding in verdict.findings.items():
+        parts.append(_finding_section(key, finding, severity.get(key, "gate"), figures.get(key)))
+    parts += ['<h2 id="settings">Settings</h2>', _settings_section(verdict), "</body>", "</html>"]
+    return "\n".join(parts) + "\n"
+
+
+def _version() -> str:
+    from discaudit import __version__
+
+    return str(__version__)
+
+
+def _e(value: Any) -> str:
+    return escape(str(value), quote=True)
+
+
+def _contents(verdict: Verdict) -> str:
+    severity = verdict.meta.get("severity", {})
+    items = "".join(
+        f'<li><a href="#finding-{_e(k)}"><code>{_e(k)}</code></a>: {_e(status_label(f.status, severity.get(k, "gate")))}</li>'
+        for k, f in verdict.findings.items()
+    )
+    return (
+        '<nav><p><a href="#verdict">Verdict</a> · <a href="#data">Data</a> · <a href="#findings">Findings</a> · '
+        f'<a href="#settings">Settings</a></p><ul>{items}</ul></nav>'
+    )
+
+
+def _figures(verdict: Verdict, dpi: int) -> tuple[dict[str, tuple[str, str]], str]:
+    """Check -> (base64 PNG, alt text) for every check with a plot, and a note if there are none."""
+    try:
+        from discaudit.plot import plot_verdict, plottable, require_matplotlib
+
+        require_matplotlib()
+    except ImportError:
+        return {}, "Figures are left out: matplotlib is not installed (pip install 'discaudit[plot]')."
+    out = {}
+    for key in plottable(verdict):
+        fig = plot_verdict(verdict, key)
+        buffer = io.BytesIO()
+        fig.savefig(buffer, format="png", dpi=dpi, metadata={"Software": None})
+        encoded = base64.b64encode(buffer.getvalue()).decode("ascii")
+        out[key] = (encoded, f"Diagnostic plot of the {key} check: {verdict.findings[key].summary}")
+    return out, ""
+
+
+def _finding_section(key: str, finding: Any, severity: str, figure: tuple[str, str] | None) -> str:
+    parts = [
+        f'<section class="finding" id="finding-{_e(key)}" data-check="{_e(key)}" data-status="{_e(finding.status)}">',
+        f'<h3><code>{_e(key)}</code> <span class="status">{_e(status_label(finding.status, severity))}</span>'
+        f"{' · ' + _e(finding.figure) if finding.figure else ''}</h3>",
+        f"<p>{_e(finding.summary)}</p>",
+    ]
+    if figure is not None:
+        encoded, alt = figure
+        parts.append(
+            f'<figure data-check="{_e(key)}"><img alt="{_e(alt)}" src="data:image/png;base64,{encoded}">'
+            f"<figcaption>{_e(_CAPTIONS.get(key, ''))}</figcaption></figure>"
+        )
+    if finding.details:
+        parts.append(f"<details open><summary>Details of <code>{_e(key)}</code></summary>{_value(finding.details, 0)}</details>")
+    parts.append("</section>")
+    return "\n".join(parts)
+
+
+_CAPTIONS = {
+    "scale_disparity": "Pooled within-class standard deviation of each feature (log scale); hatched bars lie beyond "
+    "the threshold times the smallest spread.",
+    "collinearity": "VIF of each feature in the pooled within-class correlation (log scale), with the warn (dashed) "
+    "and fail (solid) thresholds; hatching gives the level; near dependencies are numbered.",
+    "outliers": "Per class: robust (MCD) against classical squared Mahalanobis distance; dashed line: the class's "
+    "cut-off; filled and labelled: flagged rows. Last panel: chi-square Q-Q plot of the robust distances.",
+    "normality": "Per class: sorted classical squared Mahalanobis distances against chi-square(p) quantiles; a "
+    "Gaussian class follows the dotted line.",
+    "covariance_homogeneity": "95% covariance ellipse of each class on the discriminant plane (solid: classical, "
+    "dashed: robust MCD); right: the same ellipses centred, to compare shapes and sizes.",
+}
+
+
+# -- details as tables ---------------------------------------------------------------------------
+
+def _is_scalar(value: Any) -> bool:
+    return value is None or isinstance(value, (str, int, float, bool))
+
+
+def _scalar(value: Any) -> str:
+    if value is None:
+        return "n/a"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float):
+        return _e(fmt(value, 4))
+    return _e(value)
+
+
+def _cell(value: Any, depth: int) -> str:
+    css = ' class="num"' if isinstance(value, (int, float)) and not isinstance(value, bool) else ""
+    return f"<td{css}>{_value(value, depth)}</td>"
+
+
+def _fold(html_table: str, n_rows: int) -> str:
+    if n_rows <= FOLD_ROWS:
+        return html_table
+    return f"<details><summary>{n_rows} rows</summary>{html_table}</details>"
+
+
+def _value(value: Any, depth: int) -> str:
+    """Details value as HTML: scalars as text, mappings and records as tables."""
+    if _is_scalar(value):
+        return _scalar(value)
+    if depth >= MAX_DEPTH:
+        return f"<code>{_e(value)}</code>"
+    if isinstance(value, dict):
+        if not value:
+            return "none"
+        inner = list(value.values())
+        if all(isinstance(v, dict) and v and all(_is_scalar(x) for x in v.values()) for v in inner) and len(inner) > 1:
+            return _wide_table(value)
+        rows = "".join(f"<tr><th>{_e(k)}</th>{_cell(v, depth + 1)}</tr>" for k, v in value.items())
+        return _fold(f"<table>{rows}</table>", len(value))
+    if isinstance(value, (list, tuple)):
+        if not value:
+            return "none"
+        if all(_is_scalar(v) for v in value):
+            shown = ", ".join(_scalar(v) for v in value[:MAX_LIST_ITEMS])
+            more = f" … and {len(value) - MAX_LIST_ITEMS} more" if len(value) > MAX_LIST_ITEMS else ""
+            return shown + more
+        if all(isinstance(v, dict) for v in value):
+            columns = list(dict.fromkeys(k for v in value for k in v))
+            head = "".join(f"<th>{_e(c)}</th>" for c in columns)
+            body = "".join(
+                "<tr>" + "".join(_cell(v.get(c), depth + 1) if c in v else "<td></td>" for c in columns) + "</tr>"
+                for v in value
+            )
+            return _fold(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>", len(value))
+        return "<ul>" + "".join(f"<li>{_value(v, depth + 1)}</li>" for v in value) + "</ul>"
+    return _e(value)
+
+
+def _wide_table(value: dict[str, dict[str, Any]]) -> str:
+    """A mapping of flat mappings (e.g. per class) as one table: inner keys down, outer keys across."""
+    columns = list(value)
+    keys = list(dict.fromkeys(k for v in value.values() for k in v))
+    head = "<th></th>" + "".join(f"<th>{_e(c)}</th>" for c in columns)
+    body = "".join(
+        f"<tr><th>{_e(k)}</th>" + "".join(_cell(value[c].get(k), 0) if k in value[c] else "<td></td>" for c in columns) + "</tr>"
+        for k in keys
+    )
+    return _fold(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>", len(keys))
+
+
+# -- data and settings -----------------------------------------------------------------------
+
+def _data_section(verdict: Verdict) -> str:
+    meta = verdict.meta
+    rows = [
+        ("rows", meta.get("n_rows")),
+        ("features audited", meta.get("n_features")),
+        ("classes", meta.get("n_classes")),
+    ]
+    counts = verdict.findings["sample_size"].details.get("class_counts") if "sample_size" in verdict.findings else None
+    fingerprint = meta.get("fingerprint") or {}
+    parts = ["<table>" + "".join(f"<tr><th>{_e(k)}</th>{_cell(v, 0)}</tr>" for k, v in rows)]
+    if counts:
+        parts.append(f"<tr><th>rows per class</th><td>{_value(counts, 1)}</td></tr>")
+    else:
+        parts.append(f"<tr><th>class labels</th><td>{_value(meta.get('classes', []), 1)}</td></tr>")
+    parts.append(f"<tr><th>feature names</th><td>{_value(meta.get('features', []), 1)}</td></tr>")
+    if fingerprint:
+        parts.append(f"<tr><th>SHA-256 fingerprint</th><td><code>{_e(fingerprint.get('sha256', ''))}</code><br>"
+                     f"<small>{_e(fingerprint.get('rows', ''))} rows x {_e(fingerprint.get('columns', ''))} columns hashed; "
+                     f"{_e(fingerprint.get('covers', ''))}</small></td></tr>")
+    else:
+        parts.append("<tr><th>SHA-256 fingerprint</th><td>not recorded by this version</td></tr>")
+    if meta.get("sample"):
+        parts.append(f"<tr><th>sample</th><td>{_value(meta['sample'], 1)}</td></tr>")
+    parts.append("</table>")
+    return "".join(parts)
+
+
+def _settings_section(verdict: Verdict) -> str:
+    meta = verdict.meta
+    used = meta.get("config", {})
+    rows = []
+    for field in Config.describe():
+        name = field["name"]
+        if name == "severity":
+            continue
+        value = used.get(name, field["default"])
+        changed = value != field["default"]
+        mark = ' class="changed"' if changed else ""
+        rows.append(
+            f"<tr><th><code>{_e(name)}</code></th><td{mark}>{_scalar(value)}{' (changed)' if changed else ''}</td>"
+            f"<td>{_scalar(field['default'])}</td><td>{_e(field['doc'])}</td><td>{_e(field['source'])}</td></tr>"
+        )
+    head = "<tr><th>setting</th><th>value used</th><th>default</th><th>meaning</th><th>source</th></tr>"
+    severity = meta.get("severity", {})
+    sev_rows = "".join(f"<tr><th><code>{_e(k)}</code></th><td>{_e(v)}</td></tr>" for k, v in severity.items())
+    return (
+        f"<p>Seed of every random step (<code>random_state</code>): {_scalar(meta.get('random_state'))}. "
+        f"discaudit version {_e(_version())}.</p>"
+        f"<table><thead>{head}</thead><tbody>{''.join(rows)}</tbody></table>"
+        "<h3>Severity of each check</h3><p>gate: counts toward the gate status; advisory: shown only; off: not run.</p>"
+        f"<table>{sev_rows}</table>"
+    )
