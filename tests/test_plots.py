@@ -99,8 +99,10 @@ def test_cutoff_line_equals_the_findings_cutoff(demo, outlier_figure):
         (line,) = _gids(ax, f"cutoff:{k}")
         y = line.get_ydata()
         assert y[0] == y[1] == pytest.approx(per_class[name]["cutoff"], rel=1e-12)
-        # the default rule: chi-square(p) 0.975 quantile (scipy)
-        assert per_class[name]["cutoff"] == pytest.approx(sps.chi2.ppf(0.975, p), rel=1e-12)
+        # the default rule: the scaled F(p, m - p) 0.975 quantile for m fitted rows (scipy)
+        m = per_class[name]["n_reweighted"]
+        expected = p * (m - 1) * (m + 1) / (m * (m - p)) * sps.f.ppf(0.975, p, m - p)
+        assert per_class[name]["cutoff"] == pytest.approx(expected, rel=1e-12)
 
 
 def test_labelled_points_are_the_flagged_rows_farthest_first(demo, outlier_figure):

@@ -108,3 +108,25 @@ def test_subsample_sizes_and_seeds_are_recorded(seed: int) -> None:
     assert shape["n_used"] == 500 and shape["subsample_seed"] is not None
     again = discaudit.preflight(X, y, config=cfg, random_state=seed)
     assert again.to_json() == v.to_json()
+
+
+@pytest.mark.parametrize(("n", "p"), [(60, 10), (200, 20), (1000, 10)])
+def test_clean_gaussian_classes_flag_about_the_nominal_share(n: int, p: int) -> None:
+    # Invented, seeded: on clean Gaussian classes the flagged share should be near the nominal
+    # 2.5% even when rows per feature are few (the small-sample cut-offs exist for this).
+    rng = np.random.default_rng(n + p)
+    X = np.vstack([rng.normal(size=(n, p)) + 2 * k for k in range(3)])
+    v = discaudit.preflight(X, np.repeat([0, 1, 2], n), random_state=0)
+    f = v.findings["outliers"]
+    assert f.status == "pass"
+    assert f.details["n_flagged"] / (3 * n) < 0.08
+
+
+def test_classical_fallback_uses_the_in_sample_beta_law() -> None:
+    from scipy import stats as sps
+
+    X, y = _gaussian(30, 4, 2, seed=3)  # 30 rows < 10 per feature: classical distances
+    v = discaudit.preflight(X, y, random_state=0)
+    c = v.findings["outliers"].details["per_class"]["0"]
+    # Gnanadesikan & Kettenring (1972): in-sample squared distances ~ (n-1)^2/n Beta(p/2, (n-p-1)/2)
+    assert c["cutoff"] == pytest.approx(29**2 / 30 * sps.beta.ppf(0.975, 2, 12.5), rel=1e-12)

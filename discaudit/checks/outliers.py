@@ -64,13 +64,31 @@ def mahalanobis_sq(X: np.ndarray, centre: np.ndarray, cov: np.ndarray) -> np.nda
     return np.einsum("ij,ij->j", Z, Z)
 
 
-def _cutoff(config: Config, n: int, p: int, h: int | None) -> tuple[float, str]:
+def _cutoff(config: Config, n: int, p: int, h: int | None, m: int | None) -> tuple[float, str]:
+    """The squared-distance cut-off for a class and the rule that produced it.
+
+    ``small_sample_f`` treats each row like a new observation judged against a mean and
+    covariance estimated from the m rows of the (reweighted) fit, whose squared distance
+    satisfies d m (m - p) / (p (m - 1)(m + 1)) ~ F(p, m - p) under normality; it tends to
+    the chi-square(p) quantile as m grows and stops small classes from flagging a large
+    share of clean rows. A classical fit's rows are inside their own estimate, so their
+    squared distances follow (n-1)^2/n Beta(p/2, (n-p-1)/2) (Gnanadesikan & Kettenring 1972).
+    """
+    q = config.outlier_quantile
     if config.outlier_cutoff == "hardin_rocke" and h is not None:
         from discaudit.stats.hardin_rocke import hardin_rocke_cutoff
 
-        hr = hardin_rocke_cutoff(n, p, h=h, alpha=1.0 - config.outlier_quantile)
-        return float(hr.cutoff), f"Hardin & Rocke (2005) F-based cut-off at {config.outlier_quantile}"
-    return float(sps.chi2.ppf(config.outlier_quantile, p)), f"chi-square({p}) {config.outlier_quantile} quantile"
+        hr = hardin_rocke_cutoff(n, p, h=h, alpha=1.0 - q)
+        return float(hr.cutoff), f"Hardin & Rocke (2005) F-based cut-off at {q}"
+    if config.outlier_cutoff == "small_sample_f" and m is not None and m > p + 1:
+        if h is None:  # classical fit: every row is inside its own estimate (beta law)
+            scale = (m - 1) ** 2 / m
+            return float(scale * sps.beta.ppf(q, p / 2, (m - p - 1) / 2)), (
+                f"Beta({p}/2, {m - p - 1}/2) {q} quantile scaled by (n-1)^2/n for in-sample classical distances"
+            )
+        scale = p * (m - 1) * (m + 1) / (m * (m - p))
+        return float(scale * sps.f.ppf(q, p, m - p)), f"F({p}, {m - p}) {q} quantile scaled for {m} fitted rows"
+    return float(sps.chi2.ppf(q, p)), f"chi-square({p}) {q} quantile"
 
 
 def robust_min_rows(p: int, config: Config) -> int:
@@ -83,7 +101,8 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
 
     The rule (``robust_min_rows_per_feature`` x p rows, at least 2(p+1)) follows the advice
     that MCD needs n well above 5p to estimate the scatter without heavy finite-sample
-    shrinkage (Rousseeuw & Van Driessen 1999; cited from memory).
+    shrinkage (Rousseeuw & Van Driessen 1999; cited from memory); the default of 10 rows
+    per feature comes from seeded Gaussian simulations (see Config).
 
     Returns the fits and, per class, the squared distances of the class's rows in ``data``.
     """
@@ -96,8 +115,8 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
         X = data.values[data.class_rows(k)]
         nk = X.shape[0]
         if nk >= min_rows:
-            fit = mcd(X, random_state=seeds[k], cutoff_quantile=config.outlier_quantile)
-            cut, rule = _cutoff(config, nk, fit.p_used, fit.h)
+            fit = mcd(X, random_state=seeds[k], cutoff_quantile=config.outlier_quantile, finite_sample_correction=True)
+            cut, rule = _cutoff(config, nk, fit.p_used, fit.h, fit.n_reweighted)
             info: dict[str, Any] = {
                 "h": fit.h,
                 "n_reweighted": fit.n_reweighted,
@@ -121,7 +140,7 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
                 cov = m.pooled_covariance
                 d = mahalanobis_sq(X, m.means[k], cov)
                 note += ", pooled covariance (class covariance singular)"
-            cut, rule = _cutoff(config, nk, p, None)
+            cut, rule = _cutoff(config, nk, p, None, nk)
             fits.append(ClassFit(k, note, m.means[k], cov, cut, rule, False))
             distances.append(d if d is not None else np.zeros(nk))
     return fits, distances
@@ -167,11 +186,14 @@ def judge(
     for fit, out in zip(fits, outcomes, strict=True):
         k = fit.code
         robust_scatter += (m.counts[k] - 1) * fit.covariance if fit.robust else m.scatter[k]
-        shift = 0.0
+        shift = noise = 0.0
         if out.n_flagged and out.kept_mean is not None and pooled_ok:
             d = mahalanobis_sq((out.kept_mean - m.means[k])[None, :], np.zeros(p), pooled)
             shift = float(np.sqrt(d[0])) if d is not None else 0.0
-        shifts.append(shift)
+            f = out.n_flagged / out.n
+            noise = float(np.sqrt(p * f / ((1.0 - f) * out.n))) if f < 1 else 0.0
+        excess_shift = float(np.sqrt(max(shift**2 - noise**2, 0.0)))
+        shifts.append(excess_shift)
         per_class[label(data.classes[k])] = {
             "n": out.n,
             "method": fit.method,
@@ -183,7 +205,11 @@ def judge(
             "flagged_rows": out.listed,
             "n_listed": len(out.listed),
             "mean_shift": shift,
+            "mean_shift_noise": noise,
+            "mean_shift_beyond_noise": excess_shift,
             "masked_by_classical": out.masked,
+            "excess_flagged_p_value": float(sps.binom.sf(out.n_flagged - 1, out.n, 1.0 - config.outlier_quantile))
+            if out.n else 1.0,
         }
     ld_classical = logdet_spd(pooled)
     ld_robust = logdet_spd(robust_scatter / (m.n_total - m.n_classes))
@@ -199,7 +225,10 @@ def judge(
         f"({config.robust_min_rows_per_feature:g} per feature, at least 2(p+1)), classical distances otherwise",
         "distance": "squared Mahalanobis distance from the class's own (robust) centre and covariance",
         "influence": "mean_shift: class mean with vs without its flagged rows, in pooled-Mahalanobis units; "
-        "pooled_logdet_excess_per_feature: (log det classical pooled - log det robust pooled) / p",
+        "mean_shift_noise: the shift expected from dropping that share of rows at random, sqrt(p f / ((1-f) n)); "
+        "statuses use the shift beyond that noise; "
+        "pooled_logdet_excess_per_feature: (log det classical pooled - log det robust pooled) / p; "
+        "excess_flagged_p_value: binomial test of more flagged rows than the nominal 1 - quantile share",
         "thresholds": {
             "quantile": config.outlier_quantile,
             "cutoff": config.outlier_cutoff,
@@ -214,13 +243,19 @@ def judge(
     worst_class = max(fractions, key=fractions.__getitem__)
     n_rows = int(m.n_total)
     figure = f"{total} flagged ({fmt(100 * total / n_rows, 2)}%)"
-    influence = f"class means move up to {fmt(max_shift)} pooled SD, pooled log-det excess {fmt(excess)} per feature"
+    influence = (
+        f"class means move up to {fmt(max_shift)} pooled SD beyond sampling noise, pooled log-det excess "
+        f"{fmt(excess)} per feature"
+    )
     flagged_text = _examples(per_class)
     big_excess = bool(np.isfinite(excess) and excess > config.outlier_logdet_fail)
     if max_shift > config.outlier_mean_shift_fail or big_excess:
         return Finding(KEY, "fail", f"{total} rows lie far from their class ({flagged_text}) and distort LDA's estimates: "
                        f"{influence}.", details, figure, arrays)
-    wide = fractions[worst_class] > config.outlier_fraction_warn
+    wide = any(
+        v["fraction_flagged"] > config.outlier_fraction_warn and v["excess_flagged_p_value"] < 0.001
+        for v in per_class.values()
+    )
     some_excess = bool(np.isfinite(excess) and excess > config.outlier_logdet_warn)
     if max_shift > config.outlier_mean_shift_warn or some_excess or wide:
         share = f"{fmt(100 * fractions[worst_class], 2)}% of class {worst_class} flagged; " if wide else ""
