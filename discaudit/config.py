@@ -78,6 +78,11 @@ class Config:
     qda_rows_per_feature: float = _threshold(
         5.0, "QDA needs at least this many rows per feature in its smallest class.", "common practice"
     )
+    shrinkage_retained_min: float = _threshold(
+        0.9,
+        "Recommend shrinkage for collinearity only when it keeps at least this share of the class separation.",
+        "design choice, tuned on the even-seed scenarios of the validation study",
+    )
     imbalance_warn: float = _threshold(
         10.0, "Largest over smallest class size above this: report the imbalance.", "common practice"
     )

@@ -81,14 +81,36 @@ def _few_rows(f: Findings, c: Config) -> str | None:
     return None
 
 
+def _retained(f: Findings) -> float | None:
+    value = _detail(f, "collinearity", "shrinkage", "retained_separation")
+    return None if value is None else float(value)
+
+
 def _serious_collinearity(f: Findings, c: Config) -> str | None:
     if _status(f, "collinearity") != "fail":
         return None
+    retained = _retained(f)
+    if retained is not None and retained < c.shrinkage_retained_min:
+        return None
     vif = _detail(f, "collinearity", "max_vif")
     cond = _detail(f, "collinearity", "condition_number")
+    kept = f" and shrinkage keeps {fmt(100 * retained, 3)}% of the class separation" if retained is not None else ""
     return (
         f"collinearity: VIF up to {fmt(vif)} and condition number {fmt(cond)} make the inverse pooled covariance "
-        "unstable; shrinkage stabilizes it."
+        f"unstable{kept}; shrinkage stabilizes it at little cost."
+    )
+
+
+def _costly_shrinkage(f: Findings, c: Config) -> str | None:
+    if _status(f, "collinearity") != "fail":
+        return None
+    retained = _retained(f)
+    if retained is None or retained >= c.shrinkage_retained_min:
+        return None
+    return (
+        f"collinearity: VIF up to {fmt(_detail(f, 'collinearity', 'max_vif'))}, but the classes differ along "
+        f"low-variance directions: shrinkage would keep only {fmt(100 * retained, 3)}% of the class separation, so "
+        "the unshrunk pooled covariance is the better bet while rows per feature allow it."
     )
 
 
@@ -126,9 +148,12 @@ RULES: tuple[Rule, ...] = (
     Rule("pooled_covariance_singular", "blocking", ("sample_size", "collinearity"), "regularized_lda", _pooled_singular),
     Rule("few_rows_per_feature", "dimensionality", ("sample_size",), "regularized_lda", _few_rows),
     Rule("serious_collinearity", "conditioning", ("collinearity",), "regularized_lda", _serious_collinearity),
-    Rule("unequal_covariances", "covariance", ("covariance_homogeneity", "sample_size"), "qda", _unequal_covariances),
-    Rule("influential_outliers", "shape", ("outliers",), "logistic_regression", _influential_outliers),
+    # Under a strongly non-Gaussian shape the Gaussian covariance comparison (Box's M, BIC) is
+    # not to be trusted, so the shape rules come before the covariance rule.
     Rule("non_gaussian_shape", "shape", ("normality", "separation"), "logistic_regression", _non_gaussian),
+    Rule("influential_outliers", "shape", ("outliers",), "logistic_regression", _influential_outliers),
+    Rule("unequal_covariances", "covariance", ("covariance_homogeneity", "sample_size"), "qda", _unequal_covariances),
+    Rule("costly_shrinkage", "conditioning", ("collinearity",), "lda", _costly_shrinkage),
 )
 
 _DEFAULT_ORDER = ("lda", "regularized_lda", "logistic_regression", "qda")

@@ -1,0 +1,120 @@
+"""Open data sets shipped with scikit-learn and statsmodels, as (X DataFrame, y Series).
+
+scikit-learn: iris, wine, breast cancer, digits (64 pixels, some constant: the audit sets
+them aside and every candidate pipeline drops columns constant in its training folds).
+
+statsmodels (every data set in ``statsmodels.datasets`` with a class variable; the others
+have a continuous, count or proportion outcome, or too few rows to cross-validate):
+
+``anes96_vote``
+    1996 American National Election Study extract: ``vote`` (0/1) from the other nine
+    recorded variables (``logpopul`` is dropped: it is ``log(popul + 0.1)``).
+``fair_affair``
+    Fair's extramarital-affairs survey: class ``affairs > 0`` from the eight other items.
+``spector_grade``
+    Spector & Mazzeo's teaching-method data: ``GRADE`` (improved or not) from GPA, TUCE, PSI
+    (32 rows).
+``modechoice_mode``
+    Greene's travel-mode data reshaped to one row per traveller: the chosen mode (air,
+    train, bus, car) from household income, party size and the four modes' terminal time,
+    in-vehicle cost, in-vehicle time and generalized cost (18 columns; the car's terminal
+    time is always 0, so constant).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+import numpy as np
+import pandas as pd
+
+
+def _sk(loader: Callable) -> tuple[pd.DataFrame, pd.Series]:
+    bunch = loader(as_frame=True)
+    return bunch.data.astype(float), bunch.target.rename("class")
+
+
+def iris():
+    from sklearn.datasets import load_iris
+
+    return _sk(load_iris)
+
+
+def wine():
+    from sklearn.datasets import load_wine
+
+    return _sk(load_wine)
+
+
+def breast_cancer():
+    from sklearn.datasets import load_breast_cancer
+
+    return _sk(load_breast_cancer)
+
+
+def digits():
+    from sklearn.datasets import load_digits
+
+    return _sk(load_digits)
+
+
+def anes96_vote():
+    from statsmodels.datasets import anes96
+
+    df = anes96.load_pandas().data
+    y = df["vote"].astype(int).rename("vote")
+    X = df.drop(columns=["vote", "logpopul"]).astype(float)
+    return X, y
+
+
+def fair_affair():
+    from statsmodels.datasets import fair
+
+    df = fair.load_pandas().data
+    y = (df["affairs"] > 0).astype(int).rename("had_affair")
+    return df.drop(columns=["affairs"]).astype(float), y
+
+
+def spector_grade():
+    from statsmodels.datasets import spector
+
+    df = spector.load_pandas().data
+    return df.drop(columns=["GRADE"]).astype(float), df["GRADE"].astype(int).rename("grade")
+
+
+def modechoice_mode():
+    from statsmodels.datasets import modechoice
+
+    df = modechoice.load_pandas().data
+    names = {1: "air", 2: "train", 3: "bus", 4: "car"}
+    df = df.assign(mode=df["mode"].astype(int).map(names))
+    wide = df.pivot(index="individual", columns="mode", values=["ttme", "invc", "invt", "gc"])
+    wide.columns = [f"{var}_{mode}" for var, mode in wide.columns]
+    person = df.groupby("individual")[["hinc", "psize"]].first()
+    chosen = df.loc[df["choice"] == 1].set_index("individual")["mode"].rename("mode")
+    X = person.join(wide).astype(float)
+    return X, chosen.loc[X.index]
+
+
+OPEN_DATA: dict[str, tuple[str, Callable[[], tuple[pd.DataFrame, pd.Series]]]] = {
+    "iris": ("scikit-learn", iris),
+    "wine": ("scikit-learn", wine),
+    "breast_cancer": ("scikit-learn", breast_cancer),
+    "digits": ("scikit-learn", digits),
+    "anes96_vote": ("statsmodels", anes96_vote),
+    "fair_affair": ("statsmodels", fair_affair),
+    "spector_grade": ("statsmodels", spector_grade),
+    "modechoice_mode": ("statsmodels", modechoice_mode),
+}
+
+
+def describe(X: pd.DataFrame, y: pd.Series) -> str:
+    counts = y.value_counts().sort_index()
+    return f"n={len(y)}, p={X.shape[1]}, K={len(counts)}, class sizes {'/'.join(str(int(c)) for c in counts)}"
+
+
+if __name__ == "__main__":
+    for name, (source, load) in OPEN_DATA.items():
+        X, y = load()
+        print(f"{name:16s} {source:12s} {describe(X, y)}; constant columns: {int((X.nunique() <= 1).sum())}")
+        assert np.isfinite(X.to_numpy()).all()
