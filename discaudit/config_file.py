@@ -137,7 +137,8 @@ def make_config(settings: FileSettings, overrides: dict[str, Any] | None = None)
 def _read_toml(path: Path) -> dict[str, Any]:
     with path.open("rb") as handle:
         try:
-            return tomllib.load(handle)
+            table: dict[str, Any] = tomllib.load(handle)  # Any if checked for 3.10 without tomli
+            return table
         except tomllib.TOMLDecodeError as exc:
             raise DataError(f"{path}: not valid TOML ({exc}).") from None
         except UnicodeDecodeError:

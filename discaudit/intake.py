@@ -116,7 +116,8 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
     frame, non_numeric = numeric_columns(frame, config)
     values, frame, labels, dropped, unlabelled = _handle_missing(frame, labels, config)
     codes, classes = encode(labels)
-    check_magnitude(np.abs(values).max(axis=0) if values.size else np.zeros(values.shape[1]), list(frame.columns))
+    if values.size:  # reductions only: no temporary copy of the data
+        check_magnitude(np.maximum(-values.min(axis=0), values.max(axis=0)), list(frame.columns))
     keep, constant, duplicates = _screen_columns(values, [str(c) for c in frame.columns])
     if not keep.any():
         raise DataError(
@@ -177,7 +178,8 @@ def _as_frame(X: Any) -> pd.DataFrame:
     if array.ndim != 2:
         raise DataError(f"X must be two-dimensional (rows x features); got shape {array.shape}.")
     frame = pd.DataFrame(array, columns=[f"x{j}" for j in range(array.shape[1])])
-    return frame.infer_objects()
+    inferred: pd.DataFrame = frame.infer_objects()  # pandas-stubs' Self reads as Any when checked for 3.10
+    return inferred
 
 
 def _as_labels(y: Any, frame: pd.DataFrame) -> pd.Series:
@@ -192,7 +194,8 @@ def _as_labels(y: Any, frame: pd.DataFrame) -> pd.Series:
         y = pd.Series(array)
     if len(y) != len(frame):
         raise DataError(f"X has {len(frame)} rows but y has {len(y)} labels; they must match.")
-    return pd.Series(y.to_numpy(dtype=object), index=frame.index, name=y.name)
+    labels: pd.Series = pd.Series(y.to_numpy(dtype=object), index=frame.index, name=y.name)
+    return labels
 
 
 def numeric_columns(frame: pd.DataFrame, config: Config) -> tuple[pd.DataFrame, list[str]]:
@@ -230,7 +233,7 @@ def _handle_missing(
             )
         if bad_rows.any():
             counts = bad.sum(axis=0)
-            cols = [f"{frame.columns[j]} ({int(counts[j])})" for j in np.flatnonzero(counts)]
+            cols = [f"{frame.columns[int(j)]} ({int(counts[j])})" for j in np.flatnonzero(counts)]
             raise DataError(
                 f"NaN or infinite values in columns {', '.join(cols[:8])} (first at row "
                 f"{label(frame.index[np.flatnonzero(bad_rows)[0]])}); impute or drop them, "

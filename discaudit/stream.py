@@ -83,6 +83,7 @@ _FLAGGED_COLUMNS = ["row_label", "class", "distance", "classical_distance", "cut
 
 def tally_chunk(chunk: pd.DataFrame, target: str, data: AuditData, fits: list[outliers.ClassFit]) -> OutlierTally:
     """Score every row of one chunk against the robust fits (pass 2)."""
+    data = outliers.continuous_part(data)
     K, p = len(fits), data.p
     n, n_flagged, masked, kept_n = (np.zeros(K, dtype=np.int64) for _ in range(4))
     kept_sum = np.zeros((K, p))
@@ -112,6 +113,8 @@ def tally_chunk(chunk: pd.DataFrame, target: str, data: AuditData, fits: list[ou
 def rejudge_outliers(verdict: Verdict, data: AuditData, tally: OutlierTally, config: Config) -> Verdict:
     """Replace the sample-based outliers finding by one over every row, and re-assemble."""
     fits: list[outliers.ClassFit] = verdict.findings["outliers"].arrays["fits"]
+    full = data
+    data = outliers.continuous_part(data)
     outcomes = [
         outliers.ClassOutcome(int(tally.n[k]), int(tally.n_flagged[k]), tally.listed[k],
                               tally.kept_sum[k] / tally.kept_n[k] if tally.kept_n[k] > 1 else None, int(tally.masked[k]))
@@ -129,9 +132,12 @@ def rejudge_outliers(verdict: Verdict, data: AuditData, tally: OutlierTally, con
     }
     judged = outliers.judge(data, config, fits, outcomes, arrays)
     details = {**judged.details, "scored_rows": "every row of the input (second pass), against robust fits on the sample"}
+    discrete = [f for f in full.features if f not in data.features]
+    if discrete:
+        details["discrete_features_left_out"] = discrete
     findings = dict(verdict.findings)
     findings["outliers"] = dataclasses.replace(judged, details=details)
-    return assemble(findings, data, config, verdict.meta["random_state"], verdict.timings)
+    return assemble(findings, full, config, verdict.meta["random_state"], verdict.timings)
 
 
 def has_fits(verdict: Verdict) -> bool:

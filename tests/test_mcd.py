@@ -232,6 +232,8 @@ class TestDegenerate:
             res = mcd(pd.DataFrame(Xc, columns=["a", "k", "b", "c"]), random_state=3)
         ref = mcd(X, random_state=3)
         assert res.exact_fit and res.constant_columns == ("k",)
+        assert res.support.all() and res.raw_subset.sum() == res.h
+        np.testing.assert_array_equal(res.raw_subset, ref.support)
         np.testing.assert_array_equal(res.hyperplane_normal, [0, 1, 0, 0])
         assert res.hyperplane_offset == 7.5 and res.n_on_hyperplane == 120
         assert res.location[1] == 7.5 and not res.covariance[1].any() and not res.covariance[:, 1].any()
@@ -283,6 +285,57 @@ class TestDegenerate:
         np.testing.assert_array_equal(res.outliers[40:], True)
         # Finite distances serialize as JSON numbers.
         json.dumps([float(d) for d in res.distances], allow_nan=False)
+
+    def test_regression_tied_non_dyadic_values_gave_nan_distances(self) -> None:
+        # 7 of 10 rows share x1 = 0.2 (h = 6); the mean of the tied values is not exactly 0.2,
+        # so their variance was tiny but not zero and the exact fit went unnoticed.
+        rng = np.random.default_rng(0)
+        X = rng.normal(size=(10, 2))
+        X[:7, 1] = 0.2
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", RuntimeWarning)
+            warnings.simplefilter("ignore", DegenerateDataWarning)
+            res = mcd(X, random_state=0)
+        assert res.exact_fit and res.n_on_hyperplane == 7
+        np.testing.assert_allclose(res.hyperplane_normal, [0.0, 1.0], atol=1e-12)
+        assert res.hyperplane_offset == pytest.approx(0.2)
+        assert np.isfinite(res.distances).all() and res.outliers[7:].all()
+
+    def test_regression_iris_setosa_exact_fit(self) -> None:
+        # scikit-learn ships Fisher's iris; 29 of the 50 setosa rows have petal width 0.2
+        # (count it in the data), more than h = 27: an exact fit on petal width = 0.2.
+        from sklearn.datasets import load_iris
+
+        iris = load_iris()
+        setosa = iris.data[iris.target == 0]
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", RuntimeWarning)
+            warnings.simplefilter("ignore", DegenerateDataWarning)
+            res = mcd(setosa, random_state=0)
+        assert int((setosa[:, 3] == 0.2).sum()) == 29
+        assert res.exact_fit and res.n_on_hyperplane == 29
+        np.testing.assert_array_equal(res.support, setosa[:, 3] == 0.2)
+        np.testing.assert_allclose(res.hyperplane_normal, [0, 0, 0, 1], atol=1e-12)
+        assert np.isfinite(res.distances).all()
+
+    @pytest.mark.parametrize("factor", [1e-300, 1e-100, 1e100])
+    def test_regression_extreme_column_scale(self, factor: float) -> None:
+        # Affine equivariance across the float64 range: a column in units of 1e-300 used to
+        # underflow the scaled covariance (RuntimeWarning, failed eigen-decomposition).
+        X = np.random.default_rng(0).normal(size=(20, 2))
+        ref = mcd(X, random_state=0)
+        with warnings.catch_warnings():
+            warnings.simplefilter("error", RuntimeWarning)
+            res = mcd(X * np.array([1.0, factor]), random_state=0)
+        np.testing.assert_allclose(res.distances, ref.distances, rtol=1e-12)
+        np.testing.assert_array_equal(res.support, ref.support)
+        assert np.isfinite(res.covariance).all()
+        assert res.raw_log_determinant == pytest.approx(ref.raw_log_determinant + 2 * math.log(factor), rel=1e-12)
+
+    def test_huge_values_rejected(self) -> None:
+        X = pd.DataFrame({"big": [1e300, 2e300, 3e300, 5e300, 1e300], "small": [1.0, 0.0, 2.0, 1.0, 3.0]})
+        with pytest.raises(DataError, match="big"):
+            mcd(X)
 
     def test_bad_arguments(self) -> None:
         X = np.random.default_rng(0).standard_normal((30, 2))

@@ -130,3 +130,13 @@ def test_classical_fallback_uses_the_in_sample_beta_law() -> None:
     c = v.findings["outliers"].details["per_class"]["0"]
     # Gnanadesikan & Kettenring (1972): in-sample squared distances ~ (n-1)^2/n Beta(p/2, (n-p-1)/2)
     assert c["cutoff"] == pytest.approx(29**2 / 30 * sps.beta.ppf(0.975, 2, 12.5), rel=1e-12)
+
+
+def test_discrete_features_are_left_out_of_the_outlier_distances() -> None:
+    # Invented, seeded: a binary flag would make every MCD fit an exact fit on its two values.
+    X, y = _gaussian(300, 3, 2, seed=12)
+    X["flag"] = np.random.default_rng(12).integers(0, 2, len(X))
+    v = discaudit.preflight(X, y, random_state=0)
+    f = v.findings["outliers"]
+    assert f.details["discrete_features_left_out"] == ["flag"]
+    assert f.status == "pass" and f.details["n_flagged"] / len(X) < 0.08

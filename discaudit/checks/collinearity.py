@@ -26,7 +26,7 @@ def _dependencies(ci: ConditionIndicesResult, features: list[str], config: Confi
     Kuh & Welsch then sum the proportions over those dimensions, which is reported as one
     combined dependency.
     """
-    out = []
+    out: list[dict[str, Any]] = []
     props = ci.variance_proportions.to_numpy()
     high = np.flatnonzero(ci.indices > config.condition_index_warn)[::-1]
     for k in high:

@@ -91,7 +91,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     continuous = [j for j, f in enumerate(data.features) if f not in discrete]
     features = tuple(data.features[j] for j in continuous)
     for k, cls in enumerate(data.classes if continuous else ()):
-        X = data.values[np.ix_(data.class_rows(k), continuous)]
+        X = data.values[np.ix_(data.class_rows(k), np.asarray(continuous, dtype=np.intp))]
         if X.shape[0] <= X.shape[1] + 1:
             per_class[label(cls)] = {"skipped": f"{X.shape[0]} rows for {X.shape[1]} features: too few for the tests"}
             continue

@@ -8,8 +8,9 @@ flags for any rows, e.g. every row of a file in a second pass) and :func:`judge`
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 from scipy import linalg
@@ -61,7 +62,7 @@ def mahalanobis_sq(X: np.ndarray, centre: np.ndarray, cov: np.ndarray) -> np.nda
     except linalg.LinAlgError:
         return None
     Z = linalg.solve_triangular(L, (X - centre).T, lower=True, check_finite=False)
-    return np.einsum("ij,ij->j", Z, Z)
+    return cast(np.ndarray, np.einsum("ij,ij->j", Z, Z))  # numpy types einsum as Any
 
 
 def _cutoff(config: Config, n: int, p: int, h: int | None, m: int | None) -> tuple[float, str]:
@@ -89,6 +90,25 @@ def _cutoff(config: Config, n: int, p: int, h: int | None, m: int | None) -> tup
         scale = p * (m - 1) * (m + 1) / (m * (m - p))
         return float(scale * sps.f.ppf(q, p, m - p)), f"F({p}, {m - p}) {q} quantile scaled for {m} fitted rows"
     return float(sps.chi2.ppf(q, p)), f"chi-square({p}) {q} quantile"
+
+
+def continuous_part(data: AuditData) -> AuditData:
+    """The data without its discrete features (binary or few-valued columns).
+
+    A column with a handful of values puts most rows of a class on a few hyperplanes, so an
+    MCD fit becomes an exact fit that flags everything off them; distances are computed on
+    the continuous features only (the discrete ones are named in the details).
+    """
+    keep = np.array([f not in data.distinct_counts for f in data.features])
+    if keep.all() or not keep.any():
+        return data
+    idx = np.flatnonzero(keep)
+    return dataclasses.replace(
+        data,
+        values=np.ascontiguousarray(data.values[:, idx]),
+        features=tuple(data.features[j] for j in idx),
+        moments=data.moments.subset(idx),
+    )
 
 
 def robust_min_rows(p: int, config: Config) -> int:
@@ -277,6 +297,11 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     ``outlier_logdet_fail``; warns above the warn thresholds or when more than
     ``outlier_fraction_warn`` of a class is flagged.
     """
+    discrete = [f for f in data.features if f in data.distinct_counts]
+    data = continuous_part(data)
+    if discrete and len(discrete) == len(data.features):
+        return Finding(KEY, "skip", "Every feature is discrete, so distances from a class centre say nothing about "
+                       "outlying rows.", {"discrete_features_left_out": discrete}, "-")
     fits, distances = fit_classes(data, config, random_state)
     n = data.n
     arrays: dict[str, Any] = {
@@ -297,7 +322,10 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         arrays["cutoff"][rows] = fit.cutoff
         arrays["flagged"][rows] = flagged
     arrays["fits"] = fits
-    return judge(data, config, fits, outcomes, arrays)
+    finding = judge(data, config, fits, outcomes, arrays)
+    if discrete:
+        finding = dataclasses.replace(finding, details={**finding.details, "discrete_features_left_out": discrete})
+    return finding
 
 
 def _examples(per_class: dict[Any, Any]) -> str:

@@ -67,12 +67,12 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             f"{len(complete)} complete",
         )
     if quasi:
-        c = quasi[0]
+        first = quasi[0]
         return Finding(
             KEY,
             "warn",
-            f"Class {c['class']} is quasi-completely separated ({c['n_boundary']} rows on the boundary, e.g. "
-            f"{names([str(r) for r in c['boundary_rows']], 3)}): unpenalized logistic regression diverges; use a penalty.",
+            f"Class {first['class']} is quasi-completely separated ({first['n_boundary']} rows on the boundary, e.g. "
+            f"{names([str(r) for r in first['boundary_rows']], 3)}): unpenalized logistic regression diverges; use a penalty.",
             details,
             f"{len(quasi)} quasi-complete",
         )

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from typing import cast
+
 import numpy as np
 import numpy.typing as npt
 
@@ -91,7 +93,7 @@ def whiten(data: FloatMatrix, names: list[str], *, statistic: str, subsampled: b
             f"(smallest/largest singular value {s[-1] / s[0]:.2e}), so the covariance matrix is "
             "singular. Drop one of the columns named."
         )
-    return np.sqrt(n) * U
+    return cast(FloatMatrix, np.sqrt(n) * U)  # numpy's einsum (behind sd) returns Any
 
 
 def _combination(v: npt.NDArray[np.float64], names: list[str]) -> str:

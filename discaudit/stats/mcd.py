@@ -69,6 +69,8 @@ _NULL_EIGENVALUE = 1e-9
 #: largest standard deviation of the fitted rows (in units of the column standard deviations),
 #: or within the largest residual of the rows that revealed the fit.
 _ON_PLANE = 1e-6
+#: Largest magnitude accepted: squares (covariance entries) must stay finite in float64.
+_LARGEST_SQUARABLE = 1e150
 #: Rows per block when distances or moments are computed over all rows (bounds memory).
 _ROW_BLOCK = 1 << 13
 #: Elements of the temporary arrays of one batch of starts.
@@ -93,7 +95,11 @@ class MCDResult:
         requested, ``raw_correction_factor``.
     support : ndarray of bool, shape (n,)
         The raw h-subset (exactly ``h`` rows). In an exact fit it marks the rows on the
-        hyperplane instead (``n_on_hyperplane >= h`` rows).
+        hyperplane instead (``n_on_hyperplane >= h`` rows; all rows when a column is
+        constant).
+    raw_subset : ndarray of bool, shape (n,)
+        The rows the raw estimate was computed from: ``support``, except with constant
+        columns, where it is the h-subset of the fit on the other columns.
     location : ndarray of shape (p,)
         Reweighted location: mean of the rows kept by the reweighting step.
     covariance : ndarray of shape (p, p)
@@ -160,6 +166,7 @@ class MCDResult:
     raw_location: FloatVector
     raw_covariance: FloatMatrix
     support: BoolVector
+    raw_subset: BoolVector
     location: FloatVector
     covariance: FloatMatrix
     distances: FloatVector
@@ -240,8 +247,8 @@ def mcd(
     Raises
     ------
     DataError
-        If ``X`` is not finite numeric two-dimensional data, if n <= p (every subset of the
-        required size is singular), or if ``support_fraction``, ``cutoff_quantile``,
+        If ``X`` is not finite numeric two-dimensional data, has values beyond 1e150 in
+        magnitude, if n <= p (every subset of the required size is singular), or if ``support_fraction``, ``cutoff_quantile``,
         ``n_starts`` or ``random_state`` is out of range.
 
     Warns
@@ -271,11 +278,13 @@ def mcd(
     while n p^2 <= 2e8 each is iterated to convergence, above that each gets two C-steps and
     the best one is iterated to convergence, so that the cost grows about linearly in n. For
     n >= 40,000 an extra level is inserted before that (not in the paper): the 10 merged
-    candidates get two C-steps on a random subsample of min(20,000, n // 3) rows, and the best
-    n_full of them are iterated to convergence there. A candidate has converged when its
+    candidates get two C-steps on a random subsample of min(20,000, n // 3) rows, the best
+    n_full of them are iterated to convergence there, and only the best of those goes on to
+    the C-steps on all rows. A candidate has converged when its
     h-subset no longer changes or its log det decreases by less than 1e-10 (1e-6, a relative
     change of the determinant of 1e-6, in the stages on all rows and on the 20,000-row
-    subsample). The random numbers come from ``numpy.random.default_rng(random_state)``; ties
+    subsample; on all rows the subset before that last small step is kept, since its
+    distances are already computed). The random numbers come from ``numpy.random.default_rng(random_state)``; ties
     in the distances are broken by row order, so the same seed gives the same result.
 
     **Raw estimate.** ``raw_location`` is the mean and the uncorrected raw covariance is the
@@ -305,15 +314,19 @@ def mcd(
     experimental. If f <= 0 (tiny n) no factor is applied and ``corrections`` says so.
 
     **Distances and flags.** ``distances`` are computed with a Cholesky factor and triangular
-    solves in row blocks; ``outliers`` are the rows with ``distances`` above
+    solves in row blocks (during the search, the distances of a batch of starts come from one
+    stacked solve with their Cholesky factors; nothing is inverted); ``outliers`` are the rows with ``distances`` above
     chi2_{p_used}(cutoff_quantile) (Rousseeuw & van Zomeren 1990). For moderate n the
     chi-square cut-off flags too many rows; the Hardin-Rocke cut-off is an alternative.
 
     **Degenerate data.** n <= p raises DataError. Constant columns are set aside: the search
     runs on the other columns, the location gets the constant value, the covariance zero rows
     and columns, ``exact_fit`` is True with the constant column as hyperplane (all n rows on
-    it) and a DegenerateDataWarning names the columns; if every column is constant (all rows
-    identical) all distances are 0. When at least h rows lie on a hyperplane (repeated rows,
+    it, all marked in ``support``; ``raw_subset`` holds the h-subset of the fit on the other
+    columns) and a DegenerateDataWarning names the columns; if every column is constant (all
+    rows identical) all distances are 0. Columns of extreme magnitude (beyond 2^+-256) are
+    divided by powers of two for the search, which is exact; covariance entries of columns
+    near 1e-300 then underflow to 0 in the result, while distances are unaffected. When at least h rows lie on a hyperplane (repeated rows,
     discrete features, an exact linear relation in most rows) the MCD determinant is 0 and
     the search stops (``exact_fit`` True): ``support`` marks the rows on the hyperplane, the
     raw and reweighted location and covariance are the mean and covariance (divisor
@@ -364,6 +377,13 @@ def mcd(
     """
     data, names = as_matrix(X, min_rows=2)
     n, p = data.shape
+    huge = np.abs(data).max(axis=0) > _LARGEST_SQUARABLE
+    if huge.any():
+        cols = [names[j] for j in np.flatnonzero(huge)]
+        raise DataError(
+            f"X has columns {cols[:8]} with values beyond 1e150 in magnitude, whose squares "
+            "overflow float64; rescale them (e.g. divide by a power of ten) first."
+        )
     if n <= p:
         raise DataError(
             f"X has {n} rows and {p} features; the MCD needs more rows than features "
@@ -397,7 +417,12 @@ def mcd(
         return _all_rows_identical(data, common)
     varying = np.flatnonzero(~constant)
     sub = data[:, varying] if constant.any() else data
+    power = _binary_exponents(sub)
+    if power.any():
+        sub = np.ldexp(sub, -power)  # exact: powers of two only change exponents
     fit = _fit(sub, h, rng, starts, finite_sample_correction, quantile)
+    if power.any():
+        fit = _rescale(fit, power)
     if fit["exact_fit"]:
         warnings.warn(
             f"{fit['n_on_hyperplane']} of {n} rows (at least h = {h}) lie on a hyperplane, so "
@@ -522,16 +547,18 @@ def _batch_moments(Y: FloatMatrix, idx: npt.NDArray[np.intp]) -> tuple[FloatMatr
 
 
 def _batch_cholesky(
-    S: npt.NDArray[np.float64], scale: FloatVector
+    S: npt.NDArray[np.float64], scale: FloatVector, floor: FloatVector
 ) -> tuple[npt.NDArray[np.float64], FloatVector, BoolVector]:
     """Lower Cholesky factors, log-determinants and singularity flags of a stack of covariances.
 
     The factorization runs on the covariances rescaled by the column standard deviations
-    ``scale`` of the data and is scaled back, so the singularity test (1 - R^2 of some column
-    on the preceding ones below ``_SINGULAR_R2``) does not depend on the units.
+    ``scale`` of the data and is scaled back. A covariance is singular when some column's
+    residual variance after regressing it on the preceding columns (its squared Cholesky
+    pivot) is below ``_SINGULAR_R2`` times its variance (1 - R^2 < 1e-12), or below
+    ``floor``, the rounding noise of that column in units of its variance (so a column that is
+    constant within the subset up to rounding counts as constant).
     """
-    D = np.outer(scale, scale)
-    Ss = S / D
+    Ss = S / scale[:, None] / scale[None, :]
     B = S.shape[0]
     ok = np.ones(B, dtype=bool)
     try:
@@ -545,11 +572,10 @@ def _batch_cholesky(
                 ok[b] = False
     pivots = np.diagonal(Ls, axis1=1, axis2=2)
     diag = np.diagonal(Ss, axis1=1, axis2=2)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ratio = np.where(diag > 0, pivots**2 / np.where(diag > 0, diag, 1.0), 0.0)
-        singular = ~ok | ~(ratio.min(axis=1) > _SINGULAR_R2)
-        safe = np.where(singular[:, None], 1.0, pivots)
-        logdet = 2.0 * np.log(safe).sum(axis=1) + 2.0 * np.log(scale).sum()
+    limit = np.maximum(_SINGULAR_R2 * diag, floor[None, :])
+    singular = ~ok | ~(pivots**2 > limit).all(axis=1) | ~(diag > floor[None, :]).all(axis=1)
+    safe = np.where(singular[:, None], 1.0, pivots)
+    logdet = 2.0 * np.log(safe).sum(axis=1) + 2.0 * np.log(scale).sum()
     logdet[singular] = -np.inf
     L = Ls * scale[None, :, None]
     return L, logdet, singular
@@ -602,25 +628,26 @@ def _masked_moments(X: FloatMatrix, mask: BoolVector, shift: FloatVector) -> tup
     the one-pass formula accurate.
     """
     total, scatter = _masked_sums(X, mask, shift)
-    count = int(mask.sum())
+    count = max(1, int(mask.sum()))
     delta = total / count
     S = scatter / count - np.outer(delta, delta)
     return shift + delta, (S + S.T) / 2.0
 
 
-def _column_scale(X: FloatMatrix, rng: np.random.Generator) -> FloatVector:
-    """Column standard deviations (of a random sample of rows when n is large).
+def _column_scale(X: FloatMatrix, rng: np.random.Generator) -> tuple[FloatVector, FloatVector]:
+    """Column standard deviations and absolute means (of a random sample of rows when n is large).
 
     They only set the units of the singularity and exact-fit tolerances, so a sample of
-    _MID_ROWS rows suffices; a column that is constant in the sample gets its full-data value.
+    _MID_ROWS rows suffices; a column that is constant in the sample gets its full-data values.
     """
     n = X.shape[0]
-    if n <= _MID_ROWS:
-        return X.std(axis=0)
-    scale = X[np.sort(rng.choice(n, size=_MID_ROWS, replace=False))].std(axis=0)
+    sample = X if n <= _MID_ROWS else X[np.sort(rng.choice(n, size=_MID_ROWS, replace=False))]
+    scale = sample.std(axis=0)
+    magnitude = np.abs(sample.mean(axis=0))
     for j in np.flatnonzero(scale == 0):
         scale[j] = X[:, j].std()
-    return scale
+        magnitude[j] = abs(X[:, j].mean())
+    return scale, magnitude
 
 
 def _masked_mean(X: FloatMatrix, mask: BoolVector) -> FloatVector:
@@ -658,7 +685,10 @@ class _Search:
         self.h = h
         self.rng = rng
         self.n_starts = n_starts
-        self.scale = _column_scale(X, rng)
+        self.scale, magnitude = _column_scale(X, rng)
+        # Rounding noise of a column's variance, in units of that variance: values of size
+        # |x| carry errors of about eps |x|; 64 eps leaves room for the sums.
+        self.floor = (64.0 * np.finfo(np.float64).eps * (magnitude + self.scale) / self.scale) ** 2
         self.plane_checks = 0
         self.checked: set[tuple[float, ...]] = set()
 
@@ -668,7 +698,7 @@ class _Search:
         """Test whether the hyperplane of a singular subset holds at least h of all rows."""
         if self.plane_checks >= _MAX_PLANE_CHECKS:
             return
-        Ss = S / np.outer(self.scale, self.scale)
+        Ss = S / self.scale[:, None] / self.scale[None, :]
         lam, V = np.linalg.eigh((Ss + Ss.T) / 2.0)
         top = max(float(lam[-1]), 0.0)
         null = lam <= _NULL_EIGENVALUE * top
@@ -706,13 +736,13 @@ class _Search:
         k = min(p + 1, h_local)
         order = np.argsort(self.rng.random((count, m)), axis=1)
         mu, S = _batch_moments(Y, order[:, :k])
-        L, _, singular = _batch_cholesky(S, self.scale)
+        L, _, singular = _batch_cholesky(S, self.scale, self.floor)
         first = k
         while singular.any() and k < h_local:
             k = min(h_local, k + 1 + (k - first) // 8)
             which = np.flatnonzero(singular)
             mu_w, S_w = _batch_moments(Y, order[which, :k])
-            L_w, _, sing_w = _batch_cholesky(S_w, self.scale)
+            L_w, _, sing_w = _batch_cholesky(S_w, self.scale, self.floor)
             mu[which], S[which], L[which] = mu_w, S_w, L_w
             singular[which] = sing_w
         for b in np.flatnonzero(singular):
@@ -746,7 +776,7 @@ class _Search:
             d = _batch_distances(Y, mu[active], L[active])
             new_idx = np.sort(np.argpartition(d, h_local - 1, axis=1)[:, :h_local], axis=1)
             mu_new, S_new = _batch_moments(Y, new_idx)
-            L_new, ld_new, singular = _batch_cholesky(S_new, self.scale)
+            L_new, ld_new, singular = _batch_cholesky(S_new, self.scale, self.floor)
             for j in np.flatnonzero(singular):
                 self.check_plane(rows[new_idx[j]], mu_new[j], S_new[j])
             same = (new_idx == idx[active]).all(axis=1)
@@ -764,15 +794,15 @@ class _Search:
 
     # -- drivers ---------------------------------------------------------------------------
 
-    def run(self) -> tuple[BoolVector, FloatVector | None, str]:
-        """Best raw h-subset (mask over all rows), its distances if at hand, and the scheme."""
+    def run(self) -> tuple[BoolVector, FloatVector | None, FloatVector | None, str]:
+        """Best raw h-subset (mask over all rows), its distances and mean if at hand, the scheme."""
         if self.n <= _NESTED_ABOVE:
             rows = np.arange(self.n)
             mu, L = self.starts(rows, self.h, self.n_starts)
             mu, L, ld, idx = self.csteps(rows, self.h, mu, L, 2)
             mu, L, ld, idx = self.best(mu, L, ld, idx, _KEEP)
             mu, L, ld, idx = self.csteps(rows, self.h, mu, L, _MAX_CSTEPS)
-            return self._finish_small(rows, mu, L, ld, idx), None, "all rows"
+            return self._finish_small(rows, mu, L, ld, idx), None, None, "all rows"
 
         m = min(self.n, _MERGED_ROWS)
         sub = np.sort(self.rng.choice(self.n, size=m, replace=False)) if m < self.n else np.arange(self.n)
@@ -795,7 +825,7 @@ class _Search:
             mu, L = self._fallback_start(sub)
         if m == self.n:
             mu, L, ld, idx = self.csteps(sub, self.h, mu, L, _MAX_CSTEPS)
-            return self._finish_small(sub, mu, L, ld, idx), None, "nested subsets"
+            return self._finish_small(sub, mu, L, ld, idx), None, None, "nested subsets"
         n_full = int(max(1, min(_KEEP, _FULL_STAGE_BUDGET // (float(self.n) * self.p * self.p))))
         if self.n >= _MID_FROM:
             mid = np.sort(self.rng.choice(self.n, size=min(_MID_ROWS, self.n // 3), replace=False))
@@ -805,8 +835,11 @@ class _Search:
             mu, L, ld, idx = self.csteps(mid, h_mid, mu, L, _MAX_CSTEPS, tol=_FULL_LOGDET_TOL)
             if mu.shape[0] == 0:
                 mu, L = self._fallback_start(mid)
-        support, d = self._full_stage(mu[:n_full], L[:n_full])
-        return support, d, "nested subsets"
+            else:
+                # The subsample has ranked the candidates; only the best goes on to all rows.
+                mu, L, ld, idx = self.best(mu, L, ld, idx, 1)
+        state = self._full_stage(mu[:n_full], L[:n_full])
+        return state.support, state.distances, state.location, "nested subsets"
 
     def _local_h(self, rows: int) -> int:
         """Subset size on a random part of the data: ceil(rows * h / n), at least p + 1."""
@@ -815,12 +848,12 @@ class _Search:
     def _fallback_start(self, rows: npt.NDArray[np.intp]) -> tuple[FloatMatrix, npt.NDArray[np.float64]]:
         """Classical mean and covariance of ``X[rows]`` when every random start was singular."""
         mu, S = _batch_moments(self.X, rows[None, :])
-        L, _, singular = _batch_cholesky(S, self.scale)
+        L, _, singular = _batch_cholesky(S, self.scale, self.floor)
         if singular[0]:
             self.plane_checks = 0
             self.check_plane(rows, mu[0], S[0])
             mu, S = _batch_moments(self.X, np.arange(self.n)[None, :])
-            L, _, singular = _batch_cholesky(S, self.scale)
+            L, _, singular = _batch_cholesky(S, self.scale, self.floor)
             if singular[0]:
                 self.plane_checks = 0
                 self.checked.clear()
@@ -839,11 +872,11 @@ class _Search:
         support[rows[idx[b]]] = True
         return support
 
-    def _full_stage(self, mu: FloatMatrix, L: npt.NDArray[np.float64]) -> tuple[BoolVector, FloatVector | None]:
+    def _full_stage(self, mu: FloatMatrix, L: npt.NDArray[np.float64]) -> _FullState:
         """C-steps on all rows: two for each candidate, then the best one to convergence.
 
-        Returns the subset and, when the last C-step left it unchanged, the distances of all
-        rows from its mean and covariance (saving one pass over the data).
+        Returns the final state: subset, mean, Cholesky factor and, when at hand, the
+        distances of all rows from that mean and covariance (saving one pass over the data).
         """
         best: _FullState | None = None
         # Every candidate is iterated to convergence when C-steps on all rows are cheap;
@@ -863,7 +896,7 @@ class _Search:
             more = self._converge_full(best.location, best.cholesky, _MAX_CSTEPS)
             if more is not None and more.logdet <= best.logdet:
                 best = more
-        return best.support, best.distances
+        return best
 
     def _converge_full(self, loc: FloatVector, Lc: FloatMatrix, max_steps: int) -> _FullState | None:
         """Up to ``max_steps`` C-steps on all rows from one (mean, Cholesky factor).
@@ -893,16 +926,17 @@ class _Search:
             delta = total / h
             S_new = scatter / h - np.outer(delta, delta)
             S_new = (S_new + S_new.T) / 2.0
-            L_new, ld_new, singular = _batch_cholesky(S_new[None], self.scale)
+            L_new, ld_new, singular = _batch_cholesky(S_new[None], self.scale, self.floor)
             if singular[0]:
                 self.plane_checks = 0
                 self.checked.clear()
                 self.check_plane(np.flatnonzero(new), shift + delta, S_new)
                 return None if support is None else _FullState(logdet, support, loc, Lc, d, True)
-            converged = float(ld_new[0]) >= logdet - _FULL_LOGDET_TOL
+            if support is not None and float(ld_new[0]) >= logdet - _FULL_LOGDET_TOL:
+                # Converged: the step would lower log det by less than the tolerance. Keep
+                # the current subset, whose distances are at hand (saves a pass over the data).
+                return _FullState(logdet, support, loc, Lc, d, True)
             support, loc, Lc, logdet = new, shift + delta, L_new[0], float(ld_new[0])
-            if converged:
-                return _FullState(logdet, support, loc, Lc, None, True)
         assert support is not None
         return _FullState(logdet, support, loc, Lc, None, False)
 
@@ -935,13 +969,15 @@ def _fit(
     n, p = X.shape
     search = _Search(X, h, rng, n_starts)
     try:
-        support, d_unc, scheme = search.run()
+        support, d_unc, near_mean, scheme = search.run()
     except _ExactFitFound as found:
         on = _smallest_exact_fit(X, search.scale, found.on_plane, h, rng, n_starts)
         return _exact_fit_result(X, search.scale, on, quantile, _scheme_of(n))
 
-    raw_loc, S_raw = _masked_moments(X, support, _masked_mean(X, support))
-    L_raw, ld_raw, _ = _batch_cholesky(S_raw[None], search.scale)
+    # Sums about a point near the mean keep the one-pass moments accurate.
+    shift = near_mean if near_mean is not None else _masked_mean(X, support)
+    raw_loc, S_raw = _masked_moments(X, support, shift)
+    L_raw, ld_raw, _ = _batch_cholesky(S_raw[None], search.scale, search.floor)
     raw_log_det = float(ld_raw[0])
     if d_unc is None:
         d_unc = _distances(X, raw_loc, L_raw[0])
@@ -961,7 +997,7 @@ def _fit(
     kept = raw_d <= keep_limit
     n_kept = int(kept.sum())
     loc, S_rw = _masked_moments(X, kept, raw_loc)
-    L_rw, _, singular = _batch_cholesky(S_rw[None], search.scale)
+    L_rw, _, singular = _batch_cholesky(S_rw[None], search.scale, search.floor)
     if singular[0] or n_kept <= p:
         loc, S_rw, L_rw = raw_loc, S_raw, L_raw
         c_rw, f_rw = c_raw, f_raw
@@ -985,6 +1021,7 @@ def _fit(
         "raw_location": raw_loc,
         "raw_covariance": raw_cov,
         "support": support,
+        "raw_subset": support.copy(),
         "location": loc,
         "covariance": S_rw * rw_scale,
         "distances": distances,
@@ -1043,7 +1080,7 @@ def _exact_fit_result(X: FloatMatrix, scale: FloatVector, on: BoolVector, quanti
     n = X.shape[0]
     n_on = int(on.sum())
     loc, S = _masked_moments(X, on, _masked_mean(X, on))
-    Ss = S / np.outer(scale, scale)
+    Ss = S / scale[:, None] / scale[None, :]
     lam, V = np.linalg.eigh((Ss + Ss.T) / 2.0)
     top = max(float(lam[-1]), 0.0)
     null = lam <= _NULL_EIGENVALUE * top
@@ -1076,6 +1113,7 @@ def _exact_fit_result(X: FloatMatrix, scale: FloatVector, on: BoolVector, quanti
         "raw_location": loc,
         "raw_covariance": S,
         "support": on.copy(),
+        "raw_subset": on.copy(),
         "location": loc.copy(),
         "covariance": S.copy(),
         "distances": distances,
@@ -1099,6 +1137,41 @@ def _exact_fit_result(X: FloatMatrix, scale: FloatVector, on: BoolVector, quanti
     }
 
 
+def _binary_exponents(X: FloatMatrix) -> npt.NDArray[np.intp]:
+    """Power-of-two exponents that bring columns of extreme magnitude near 1 (0 for the rest).
+
+    Columns whose largest absolute value is outside [2^-256, 2^256] would underflow or
+    overflow when squared and summed; dividing them by 2^e is exact, so the search runs on the
+    rescaled columns and :func:`_rescale` converts the result back.
+    """
+    magnitude = np.abs(X).max(axis=0)
+    extreme = (magnitude < 2.0**-256) | (magnitude > 2.0**256)
+    return np.where(extreme, np.frexp(magnitude)[1], 0).astype(np.intp)
+
+
+def _rescale(fit: dict[str, Any], power: npt.NDArray[np.intp]) -> dict[str, Any]:
+    """Undo :func:`_binary_exponents` on the estimates (distances are unit-free)."""
+    out = dict(fit)
+    with np.errstate(over="ignore", under="ignore"):
+        for key in ("raw_location", "location"):
+            out[key] = np.ldexp(fit[key], power)
+        for key in ("raw_covariance", "covariance"):
+            out[key] = np.ldexp(fit[key], power[:, None] + power[None, :])
+        out["raw_log_determinant"] = fit["raw_log_determinant"] + 2.0 * math.log(2.0) * float(power.sum())
+        if fit["hyperplane_normal"] is not None:
+            exponent = -power
+            w = np.ldexp(fit["hyperplane_normal"], exponent - exponent.max())
+            w /= np.linalg.norm(w)
+            out["hyperplane_normal"] = w
+            out["hyperplane_offset"] = float(w @ out["raw_location"])
+    note = (
+        "columns of extreme magnitude were divided by powers of two for the search (exact); "
+        "covariance entries beyond the float64 range are 0 or inf"
+    )
+    out["corrections"] = (*fit["corrections"], note)
+    return out
+
+
 def _embed(fit: dict[str, Any], data: FloatMatrix, varying: npt.NDArray[np.intp], constant: BoolVector) -> dict[str, Any]:
     """Put a fit on the non-constant columns back into all p columns."""
     n, p = data.shape
@@ -1117,6 +1190,7 @@ def _embed(fit: dict[str, Any], data: FloatMatrix, varying: npt.NDArray[np.intp]
         out["hyperplane_normal"] = normal
     else:
         j = int(np.flatnonzero(constant)[0])
+        out["support"] = np.ones(n, dtype=bool)
         normal = np.zeros(p)
         normal[j] = 1.0
         out["hyperplane_normal"] = normal
@@ -1143,6 +1217,7 @@ def _all_rows_identical(data: FloatMatrix, common: dict[str, Any]) -> MCDResult:
         raw_location=data[0].copy(),
         raw_covariance=np.zeros((p, p)),
         support=everyone,
+        raw_subset=everyone.copy(),
         location=data[0].copy(),
         covariance=np.zeros((p, p)),
         distances=zeros,

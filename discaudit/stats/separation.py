@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 import numpy.typing as npt
@@ -293,13 +293,19 @@ class _FeatureSpace:
         n = values.shape[0]
         self.names = names
         self.mean = values.mean(axis=0)
-        centred = values - self.mean
-        self.sd = np.sqrt(np.einsum("ij,ij->j", centred, centred) / n)
+        # Sums of squares by blocks of rows: no second full copy of the data besides self.std.
+        sq = np.zeros(values.shape[1])
+        for start in range(0, n, 65536):
+            block = values[start : start + 65536] - self.mean
+            sq += np.einsum("ij,ij->j", block, block)
+        self.sd = np.sqrt(sq / n)
         keep = (np.ptp(values, axis=0) > 0) & (self.sd > 1e-12 * np.abs(self.mean))
         self.keep = np.flatnonzero(keep)
         self.dropped = [names[j] for j in np.flatnonzero(~keep)]
         self.q = self.keep.size
-        self.std = centred[:, self.keep] / self.sd[self.keep]
+        std = values[:, self.keep] - self.mean[self.keep]
+        std /= self.sd[self.keep]
+        self.std = std
 
 
 def _compare(
@@ -427,7 +433,7 @@ def _outside_span(rows: FloatMatrix, complement: FloatMatrix) -> npt.NDArray[np.
     if complement.shape[1] == 0:
         return np.zeros(rows.shape[0], dtype=bool)
     residual = np.linalg.norm(rows @ complement, axis=1)
-    return residual > _MEMBER_TOL * np.linalg.norm(rows, axis=1)
+    return cast(npt.NDArray[np.bool_], residual > _MEMBER_TOL * np.linalg.norm(rows, axis=1))  # norm is typed Any
 
 
 def _grow(work: IntArray, candidates: IntArray, score: npt.NDArray[np.float64], chunk: int) -> IntArray:
@@ -548,7 +554,7 @@ def _min_l1_direction(
 
 def _rough_direction(A: FloatMatrix, rows: IntArray) -> npt.NDArray[np.float64]:
     """Mean of the signed rows: a cheap guess to pick the hardest rows for the first working set."""
-    return A[rows].mean(axis=0)
+    return cast(npt.NDArray[np.float64], A[rows].mean(axis=0))  # numpy types mean(axis=...) as Any
 
 
 def _solve(c: Any, A_ub: Any, b_ub: Any, A_eq: Any, b_eq: Any, bounds: Any) -> Any:
