@@ -139,7 +139,9 @@ def run_case(n: int, p: int, k: int, seed: int, budget: float) -> None:
         total_cpu += cpu
         planted = np.zeros(m, dtype=bool)
         planted[: int(OUTLIER_FRACTION * m)] = True
-        ours.append((elapsed, res.h, res.raw_log_determinant, res.outliers[planted].mean(), res.outliers[~planted].mean()))
+        ours.append(
+            (elapsed, res.h, res.raw_log_determinant, res.outliers[planted].mean(), res.outliers[~planted].mean())
+        )
         print(
             f"  discaudit class {j}: {elapsed:7.2f} s (cpu {cpu:6.2f} s)  h = {res.h}  raw log det = {res.raw_log_determinant:.9f}  "
             f"planted flagged {100 * ours[-1][3]:.1f} %, clean flagged {100 * ours[-1][4]:.2f} %",

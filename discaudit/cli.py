@@ -24,7 +24,7 @@ import re
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
-from typing import Any, NoReturn, TextIO
+from typing import Any, NoReturn, TextIO, cast
 
 import pandas as pd
 
@@ -194,8 +194,11 @@ def run_check(args: argparse.Namespace) -> int:
         if args.output:
             Path(args.output).write_text(report, encoding="utf-8")
             outcome = "failed" if failed else "passed"
-            _write(sys.stdout, f"discaudit: gate {outcome} (status {verdict.status}, fail-on {fail_on}); "
-                               f"{args.format} report written to {args.output}\n")
+            _write(
+                sys.stdout,
+                f"discaudit: gate {outcome} (status {verdict.status}, fail-on {fail_on}); "
+                f"{args.format} report written to {args.output}\n",
+            )
         else:
             _write(sys.stdout, report)
         return 1 if failed else 0
@@ -210,7 +213,7 @@ def run_check(args: argparse.Namespace) -> int:
         return _error(f"{exc.filename or where}: permission denied.")
     except OSError as exc:
         return _error(f"{getattr(exc, 'filename', None) or where}: {exc.strerror or exc} while {stage}.")
-    except Exception as exc:  # noqa: BLE001 - the command line never shows a traceback
+    except Exception as exc:
         if stage == "reading the data":  # pandas and pyarrow parse errors
             return _error(f"{where}: cannot be read as {_kind_name(args.data)}: {_first_line(exc)}")
         return _error(
@@ -238,14 +241,21 @@ def _stream_audit(args: argparse.Namespace, config: Config) -> Verdict:
         raise FileNotFoundError(2, "No such file or directory", str(path))
     if args.batch_rows < 1:
         raise DataError("--batch-rows must be a positive number of rows.")
+    stored_index: list[str]
     if _kind(path) == "csv":
         columns, stored_index = [str(c) for c in pd.read_csv(path, nrows=0).columns], []
     else:
         import pyarrow.parquet as pq
 
         columns, stored_index = _parquet_columns(pq.ParquetFile(path))
-    chosen = _choose(columns, args.target, _names(args.features), _names(args.exclude) or (), args.index_col,
-                     index_names=stored_index)
+    chosen = _choose(
+        columns,
+        args.target,
+        _names(args.features),
+        _names(args.exclude) or (),
+        args.index_col,
+        index_names=stored_index,
+    )
     source = file_chunks(path, batch_rows=args.batch_rows, index_col=args.index_col, columns=[*chosen, args.target])
     with Progress(f"streaming {path.name}", unit="rows") as bar:
         done = [0]
@@ -329,7 +339,8 @@ def read_table(
             frame = frame.set_index(index_col)
         elif frame.index.name != index_col:  # pragma: no cover - guarded by _choose
             raise DataError(f"Index column {index_col!r} not found.")
-    return frame[[*chosen, target]]
+    selected: pd.DataFrame = frame[[*chosen, target]]  # pandas-stubs' Self reads as Any when checked for 3.10
+    return selected
 
 
 def _kind(path: Path) -> str:
@@ -416,8 +427,8 @@ def _read_parquet(parquet: Any, path: Path, needed: list[str], index_col: str | 
     import pyarrow as pa
 
     columns = needed + ([index_col] if index_col and index_col in parquet.schema_arrow.names else [])
-    if not progress:
-        return parquet.read(columns=columns, use_pandas_metadata=True).to_pandas()
+    if not progress:  # pyarrow is untyped: its tables give Any
+        return cast(pd.DataFrame, parquet.read(columns=columns, use_pandas_metadata=True).to_pandas())
     groups = parquet.num_row_groups
     with Progress(f"reading {path.name}", total=groups, unit="row groups", show=True) as bar:
         tables = []
@@ -425,8 +436,8 @@ def _read_parquet(parquet: Any, path: Path, needed: list[str], index_col: str | 
             tables.append(parquet.read_row_group(i, columns=columns, use_pandas_metadata=True))
             bar.update(i + 1)
     if not tables:
-        return parquet.read(columns=columns, use_pandas_metadata=True).to_pandas()
-    return pa.concat_tables(tables).to_pandas()
+        return cast(pd.DataFrame, parquet.read(columns=columns, use_pandas_metadata=True).to_pandas())
+    return cast(pd.DataFrame, pa.concat_tables(tables).to_pandas())
 
 
 def _as_options(message: str) -> str:

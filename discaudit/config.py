@@ -50,7 +50,9 @@ class Config:
     )
     vif_warn: float = _threshold(5.0, "VIF above this is worth a look.", "common practice")
     vif_fail: float = _threshold(
-        10.0, "VIF above this is serious collinearity.", "Kutner, Nachtsheim, Neter & Li, Applied Linear Statistical Models"
+        10.0,
+        "VIF above this is serious collinearity.",
+        "Kutner, Nachtsheim, Neter & Li, Applied Linear Statistical Models",
     )
     condition_index_warn: float = _threshold(
         10.0, "Condition index above this is a moderate near dependency.", "Belsley, Kuh & Welsch (1980)"
@@ -59,7 +61,9 @@ class Config:
         30.0, "Condition index above this is a strong near dependency.", "Belsley, Kuh & Welsch (1980)"
     )
     variance_proportion: float = _threshold(
-        0.5, "A feature belongs to a near dependency when its variance proportion exceeds this.", "Belsley, Kuh & Welsch (1980)"
+        0.5,
+        "A feature belongs to a near dependency when its variance proportion exceeds this.",
+        "Belsley, Kuh & Welsch (1980)",
     )
     scale_ratio_warn: float = _threshold(
         1e3, "Largest over smallest pooled within-class SD above this: standardize.", "common practice"
@@ -73,7 +77,9 @@ class Config:
         "Kass & Raftery (1995, JASA 90:773-795): a BIC difference above 10 is very strong evidence",
     )
     rows_per_feature_warn: float = _threshold(
-        10.0, "Total rows per feature below this: the pooled covariance is poorly estimated.", "common practice (5 to 20 is quoted)"
+        10.0,
+        "Total rows per feature below this: the pooled covariance is poorly estimated.",
+        "common practice (5 to 20 is quoted)",
     )
     qda_rows_per_feature: float = _threshold(
         5.0, "QDA needs at least this many rows per feature in its smallest class.", "common practice"
@@ -110,10 +116,14 @@ class Config:
         "observation's Mahalanobis distance (e.g. Mardia, Kent & Bibby 1979, Multivariate Analysis)",
     )
     outlier_mean_shift_warn: float = _threshold(
-        0.1, "Shift of a class mean when its flagged rows are removed, in pooled-Mahalanobis units: warn.", "design choice"
+        0.1,
+        "Shift of a class mean when its flagged rows are removed, in pooled-Mahalanobis units: warn.",
+        "design choice",
     )
     outlier_mean_shift_fail: float = _threshold(
-        0.25, "Shift of a class mean when its flagged rows are removed, in pooled-Mahalanobis units: fail.", "design choice"
+        0.25,
+        "Shift of a class mean when its flagged rows are removed, in pooled-Mahalanobis units: fail.",
+        "design choice",
     )
     outlier_logdet_warn: float = _threshold(
         0.1,
@@ -125,7 +135,9 @@ class Config:
         "Per-feature log-determinant excess of the classical over the robust pooled covariance: fail.",
         "design choice (0.2 is about 22% variance inflation per dimension)",
     )
-    normality_alpha: float = _threshold(0.001, "Significance level for the multivariate normality tests.", "common practice")
+    normality_alpha: float = _threshold(
+        0.001, "Significance level for the multivariate normality tests.", "common practice"
+    )
     skew_large: float = _threshold(
         2.0, "Absolute per-feature skewness above this is a substantial departure.", "West, Finch & Curran (1995)"
     )

@@ -161,7 +161,7 @@ def _validate(table: Any, path: Path, section: str) -> FileSettings:
             if not isinstance(value, dict):
                 raise DataError(
                     f"{where}key 'severity' must be a table of check = level, e.g. "
-                    f"[tool.discaudit.severity] normality = \"advisory\"; got {value!r}."
+                    f'[tool.discaudit.severity] normality = "advisory"; got {value!r}.'
                 )
             config["severity"] = dict(value)
         elif key in _CONFIG_FIELDS:

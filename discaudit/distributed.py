@@ -12,7 +12,8 @@ from __future__ import annotations
 
 import functools
 import operator
-from typing import Any
+from collections.abc import Callable
+from typing import Any, cast
 
 import numpy as np
 import pandas as pd
@@ -30,7 +31,9 @@ def _rng(random_state: int | None, *key: int) -> np.random.Generator:
     return np.random.default_rng(np.random.SeedSequence(entropy))
 
 
-def _summarize_partition(part: pd.DataFrame, target: str, config: Config, random_state: int | None, i: int) -> ChunkSummary:
+def _summarize_partition(
+    part: pd.DataFrame, target: str, config: Config, random_state: int | None, i: int
+) -> ChunkSummary:
     return summarize(part, target, config, config.sample_rows_per_class, _rng(random_state, 1, i))
 
 
@@ -41,26 +44,31 @@ def _merge_pair(a: ChunkSummary, b: ChunkSummary, random_state: int | None, leve
 def preflight_dask(ddf: Any, *, target: str | None, config: Config, random_state: int | None) -> Verdict:
     """Audit a Dask DataFrame holding the target column (see module docstring)."""
     try:
-        import dask
+        from dask.base import compute as untyped_compute
+        from dask.delayed import delayed as untyped_delayed
     except ImportError as exc:  # pragma: no cover - only without the extra
         raise ImportError("Auditing a Dask DataFrame needs the extra: pip install discaudit[dask]") from exc
+    # dask ships py.typed but leaves compute and delayed unannotated: state the types used here.
+    compute = cast("Callable[..., tuple[Any, ...]]", untyped_compute)
+    delayed = cast("Callable[[Callable[..., Any]], Callable[..., Any]]", untyped_delayed)
     if target is None:
         raise DataError("A Dask DataFrame needs target='<column>' naming the class column.")
     if target not in ddf.columns:
         raise DataError(f"Target column {target!r} not found; the columns are: {', '.join(map(str, ddf.columns[:8]))}.")
     parts = ddf.to_delayed()
-    nodes = [dask.delayed(_summarize_partition)(part, target, config, random_state, i) for i, part in enumerate(parts)]
+    nodes = [delayed(_summarize_partition)(part, target, config, random_state, i) for i, part in enumerate(parts)]
     level = 0
     while len(nodes) > 1:
-        paired = [dask.delayed(_merge_pair)(nodes[j], nodes[j + 1], random_state, level, j)
-                  for j in range(0, len(nodes) - 1, 2)]
+        paired = [
+            delayed(_merge_pair)(nodes[j], nodes[j + 1], random_state, level, j) for j in range(0, len(nodes) - 1, 2)
+        ]
         nodes = paired + ([nodes[-1]] if len(nodes) % 2 else [])
         level += 1
-    (summary,) = dask.compute(nodes[0])
+    (summary,) = compute(nodes[0])
     data = to_audit_data(summary, config, random_state)
     verdict = audit(data, config, random_state)
     if not has_fits(verdict):
         return verdict
     fits = verdict.findings["outliers"].arrays["fits"]
-    tallies = dask.compute(*[dask.delayed(tally_chunk)(part, target, data, fits) for part in parts])
+    tallies = compute(*[delayed(tally_chunk)(part, target, data, fits) for part in parts])
     return rejudge_outliers(verdict, data, functools.reduce(operator.add, tallies), config)

@@ -39,7 +39,9 @@ def build_estimator(model: str, params: dict[str, Any]) -> Any:
         step: Any = LinearDiscriminantAnalysis(solver=params.get("solver", "svd"))
     elif model == "regularized_lda":
         # shrinkage needs the lsqr or eigen solver; svd does not support it.
-        step = LinearDiscriminantAnalysis(solver=params.get("solver", "lsqr"), shrinkage=params.get("shrinkage", "auto"))
+        step = LinearDiscriminantAnalysis(
+            solver=params.get("solver", "lsqr"), shrinkage=params.get("shrinkage", "auto")
+        )
     elif model == "qda":
         step = QuadraticDiscriminantAnalysis(reg_param=float(params.get("reg_param", 0.0)))
     elif model == "logistic_regression":

@@ -18,12 +18,9 @@ from discaudit._plain import label
 from discaudit.config import Config
 from discaudit.errors import DataError
 from discaudit.moments import ClassMoments
-from discaudit.stats._inputs import ordered_unique
+from discaudit.stats._inputs import LARGEST_SQUARABLE, ordered_unique
 
 FloatArray = npt.NDArray[np.float64]
-
-# Squares of values beyond this overflow float64 in a scatter matrix.
-_LARGEST_SQUARABLE = 1e150
 
 
 @dataclass(frozen=True)
@@ -243,7 +240,13 @@ def _handle_missing(
     drop = bad_rows | missing_label
     dropped = labels[bad_rows & ~missing_label].value_counts().to_dict()
     kept = ~drop
-    return values[kept], frame[kept], labels[kept], {label(k): int(v) for k, v in dropped.items()}, int(missing_label.sum())
+    return (
+        values[kept],
+        frame[kept],
+        labels[kept],
+        {label(k): int(v) for k, v in dropped.items()},
+        int(missing_label.sum()),
+    )
 
 
 def encode(labels: pd.Series) -> tuple[npt.NDArray[np.intp], tuple[Any, ...]]:
@@ -270,7 +273,7 @@ def check_classes(classes: list[Any], counts: npt.NDArray[np.int64]) -> None:
 
 def check_magnitude(max_abs: FloatArray, columns: list[Any]) -> None:
     """DataError naming the columns whose largest magnitude would overflow when squared."""
-    huge = max_abs > _LARGEST_SQUARABLE
+    huge = max_abs > LARGEST_SQUARABLE
     if huge.any():
         cols = [str(columns[j]) for j in np.flatnonzero(huge)]
         raise DataError(
@@ -292,7 +295,9 @@ def distinct_counts(values: FloatArray, features: tuple[str, ...], limit: int) -
     return out
 
 
-def _screen_columns(values: FloatArray, names: list[str]) -> tuple[npt.NDArray[np.bool_], list[str], list[tuple[str, str]]]:
+def _screen_columns(
+    values: FloatArray, names: list[str]
+) -> tuple[npt.NDArray[np.bool_], list[str], list[tuple[str, str]]]:
     """Mark constant columns and exact duplicates of an earlier column to set aside."""
     p = values.shape[1]
     keep = np.ones(p, dtype=bool)

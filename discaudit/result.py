@@ -52,7 +52,7 @@ class Recommendation:
         return build_estimator(self.model, self.params)
 
     def to_dict(self) -> dict[str, Any]:
-        return plain(
+        out: dict[str, Any] = plain(  # plain() maps a dict to a dict
             {
                 "model": self.model,
                 "params": self.params,
@@ -61,6 +61,7 @@ class Recommendation:
                 "rules_fired": self.rules_fired,
             }
         )
+        return out
 
 
 @dataclass(frozen=True)

@@ -38,14 +38,23 @@ def _rng(random_state: int | None, *key: int) -> np.random.Generator:
 
 
 def summarize_chunks(
-    chunks: Iterable[pd.DataFrame], target: str, config: Config, random_state: int | None,
+    chunks: Iterable[pd.DataFrame],
+    target: str,
+    config: Config,
+    random_state: int | None,
     progress: Callable[[int], None] | None = None,
 ) -> ChunkSummary:
     """Fold the summaries of all chunks (pass 1)."""
     total: ChunkSummary | None = None
     for i, chunk in enumerate(chunks):
-        part = summarize(chunk, target, config, config.sample_rows_per_class, _rng(random_state, 1, i),
-                         None if total is None else total.features)
+        part = summarize(
+            chunk,
+            target,
+            config,
+            config.sample_rows_per_class,
+            _rng(random_state, 1, i),
+            None if total is None else total.features,
+        )
         total = part if total is None else merge(total, part, _rng(random_state, 2, i))
         if progress is not None:
             progress(len(chunk))
@@ -72,8 +81,12 @@ class OutlierTally:
             for a, b in zip(self.listed, other.listed, strict=True)
         ]
         return OutlierTally(
-            self.n + other.n, self.n_flagged + other.n_flagged, self.masked + other.masked,
-            self.kept_sum + other.kept_sum, self.kept_n + other.kept_n, listed,
+            self.n + other.n,
+            self.n_flagged + other.n_flagged,
+            self.masked + other.masked,
+            self.kept_sum + other.kept_sum,
+            self.kept_n + other.kept_n,
+            listed,
             pd.concat([self.flagged, other.flagged], ignore_index=True),
         )
 
@@ -104,8 +117,17 @@ def tally_chunk(chunk: pd.DataFrame, target: str, data: AuditData, fits: list[ou
         kept_sum[k], kept_n[k] = X[~flags].sum(axis=0), int((~flags).sum())
         listed[k] = out.listed
         if flags.any():
-            parts.append(pd.DataFrame({"row_label": chunk.index[rows][flags], "class": cls, "distance": d[flags],
-                                       "classical_distance": d_classical[flags], "cutoff": fit.cutoff}))
+            parts.append(
+                pd.DataFrame(
+                    {
+                        "row_label": chunk.index[rows][flags],
+                        "class": cls,
+                        "distance": d[flags],
+                        "classical_distance": d_classical[flags],
+                        "cutoff": fit.cutoff,
+                    }
+                )
+            )
     flagged = pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
     return OutlierTally(n, n_flagged, masked, kept_sum, kept_n, listed, flagged)
 
@@ -116,8 +138,13 @@ def rejudge_outliers(verdict: Verdict, data: AuditData, tally: OutlierTally, con
     full = data
     data = outliers.continuous_part(data)
     outcomes = [
-        outliers.ClassOutcome(int(tally.n[k]), int(tally.n_flagged[k]), tally.listed[k],
-                              tally.kept_sum[k] / tally.kept_n[k] if tally.kept_n[k] > 1 else None, int(tally.masked[k]))
+        outliers.ClassOutcome(
+            int(tally.n[k]),
+            int(tally.n_flagged[k]),
+            tally.listed[k],
+            tally.kept_sum[k] / tally.kept_n[k] if tally.kept_n[k] > 1 else None,
+            int(tally.masked[k]),
+        )
         for k in range(len(fits))
     ]
     rows = tally.flagged
@@ -131,7 +158,10 @@ def rejudge_outliers(verdict: Verdict, data: AuditData, tally: OutlierTally, con
         "fits": fits,
     }
     judged = outliers.judge(data, config, fits, outcomes, arrays)
-    details = {**judged.details, "scored_rows": "every row of the input (second pass), against robust fits on the sample"}
+    details = {
+        **judged.details,
+        "scored_rows": "every row of the input (second pass), against robust fits on the sample",
+    }
     discrete = [f for f in full.features if f not in data.features]
     if discrete:
         details["discrete_features_left_out"] = discrete
@@ -198,7 +228,7 @@ def preflight_chunks(
 def file_chunks(
     path: str | Path, batch_rows: int = 200_000, index_col: str | None = None, columns: list[str] | None = None
 ) -> Callable[[], Iterator[pd.DataFrame]]:
-    """A function returning a fresh iterator over batches of a CSV or Parquet file (pyarrow).
+    """A function returning a fresh iterator over batches of a CSV (pandas) or Parquet (pyarrow) file.
 
     Each batch's index is the 0-based row number in the file (or ``index_col``'s values);
     ``columns`` limits what is read (the index column is added when given).
@@ -229,10 +259,7 @@ def _read_batches(path: Path, suffixes: str, batch_rows: int, columns: list[str]
         for batch in pq.ParquetFile(path).iter_batches(batch_size=batch_rows, columns=columns):
             yield batch.to_pandas()
     else:
-        from pyarrow import csv
-
-        # block_size bounds the bytes parsed at a time, so memory stays bounded on any file size.
-        convert = csv.ConvertOptions(include_columns=columns) if columns is not None else None
-        reader = csv.open_csv(path, read_options=csv.ReadOptions(block_size=1 << 24), convert_options=convert)
-        for batch in reader:
-            yield batch.to_pandas()
+        # pandas' chunked reader: bounded memory, and the same column names (and renames of
+        # duplicated or empty headers) as the in-memory reader.
+        with pd.read_csv(path, usecols=columns, chunksize=batch_rows, low_memory=False) as reader:
+            yield from reader

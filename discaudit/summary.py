@@ -44,7 +44,9 @@ class Reservoir:
     seen: int
 
     @classmethod
-    def of(cls, values: FloatArray, labels: npt.NDArray[np.object_], capacity: int, rng: np.random.Generator) -> Reservoir:
+    def of(
+        cls, values: FloatArray, labels: npt.NDArray[np.object_], capacity: int, rng: np.random.Generator
+    ) -> Reservoir:
         n = values.shape[0]
         if n <= capacity:
             return cls(values.copy(), labels, n)
@@ -55,13 +57,17 @@ class Reservoir:
         """Uniform sample of the union: how many come from each side is hypergeometric."""
         size = min(capacity, self.seen + other.seen)
         if self.seen + other.seen <= capacity:
-            return Reservoir(np.vstack([self.values, other.values]), np.concatenate([self.labels, other.labels]),
-                             self.seen + other.seen)
+            return Reservoir(
+                np.vstack([self.values, other.values]),
+                np.concatenate([self.labels, other.labels]),
+                self.seen + other.seen,
+            )
         from_self = int(rng.hypergeometric(self.seen, other.seen, size))
         a = np.sort(rng.choice(len(self.values), from_self, replace=False))
         b = np.sort(rng.choice(len(other.values), size - from_self, replace=False))
         return Reservoir(
-            np.vstack([self.values[a], other.values[b]]), np.concatenate([self.labels[a], other.labels[b]]),
+            np.vstack([self.values[a], other.values[b]]),
+            np.concatenate([self.labels[a], other.labels[b]]),
             self.seen + other.seen,
         )
 
@@ -88,7 +94,11 @@ class ChunkSummary:
 
 
 def summarize(
-    chunk: pd.DataFrame, target: str, config: Config, capacity: int, rng: np.random.Generator,
+    chunk: pd.DataFrame,
+    target: str,
+    config: Config,
+    capacity: int,
+    rng: np.random.Generator,
     features: tuple[str, ...] | None = None,
 ) -> ChunkSummary:
     """Summarize one chunk (a DataFrame holding the target column).
@@ -116,9 +126,13 @@ def summarize(
     classes = ordered_unique(labels.tolist())
     lookup = {c: k for k, c in enumerate(classes)}
     codes = np.fromiter((lookup[v] for v in labels.tolist()), dtype=np.intp, count=len(labels))
+    if values.size:  # before any square is formed, as intake does for in-memory data
+        check_magnitude(np.maximum(-values.min(axis=0), values.max(axis=0)), list(frame.columns))
     moments = ClassMoments.from_arrays(values, codes, tuple(classes))
     row_labels = np.asarray(index, dtype=object)
-    reservoirs = {c: Reservoir.of(values[codes == k], row_labels[codes == k], capacity, rng) for k, c in enumerate(classes)}
+    reservoirs = {
+        c: Reservoir.of(values[codes == k], row_labels[codes == k], capacity, rng) for k, c in enumerate(classes)
+    }
     limit = config.few_distinct_values
     distinct = tuple(_distinct(values[:, j], limit) for j in range(values.shape[1]))
     p = values.shape[1]
@@ -193,13 +207,17 @@ def to_audit_data(summary: ChunkSummary, config: Config, random_state: int | Non
     features = list(summary.features)
     if config.missing == "error":
         if summary.missing_labels:
-            raise DataError(f"The target has {summary.missing_labels} missing labels; label or drop them, "
-                            "or pass Config(missing='drop_rows').")
+            raise DataError(
+                f"The target has {summary.missing_labels} missing labels; label or drop them, "
+                "or pass Config(missing='drop_rows')."
+            )
         counts = summary.missing_per_column
         if counts.any():
             cols = [f"{features[j]} ({int(counts[j])})" for j in np.flatnonzero(counts)]
-            raise DataError(f"NaN or infinite values in columns {', '.join(cols[:8])} (first at row "
-                            f"{summary.first_missing_row}); impute or drop them, or pass Config(missing='drop_rows').")
+            raise DataError(
+                f"NaN or infinite values in columns {', '.join(cols[:8])} (first at row "
+                f"{summary.first_missing_row}); impute or drop them, or pass Config(missing='drop_rows')."
+            )
     classes = ordered_unique(list(summary.moments.classes))
     moments = _reorder(summary.moments, classes)
     check_classes(classes, moments.counts)
@@ -257,8 +275,10 @@ def _duplicates(moments: ClassMoments, constant: npt.NDArray[np.bool_]) -> npt.N
             if constant[i] or out[i] >= 0:
                 continue
             scale = d[i] + d[j]
-            if abs(mean[i] - mean[j]) <= 1e-12 * max(abs(mean[i]), abs(mean[j]), 1e-300) and \
-                    d[i] + d[j] - 2 * T[i, j] <= 1e-12 * scale:
+            if (
+                abs(mean[i] - mean[j]) <= 1e-12 * max(abs(mean[i]), abs(mean[j]), 1e-300)
+                and d[i] + d[j] - 2 * T[i, j] <= 1e-12 * scale
+            ):
                 out[j] = i
                 break
     return out

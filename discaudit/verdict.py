@@ -131,7 +131,9 @@ def _unequal_covariances(f: Findings, c: Config) -> str | None:
 def _influential_outliers(f: Findings, c: Config) -> str | None:
     if _status(f, "outliers") != "fail":
         return None
-    return f"outliers: {f['outliers'].summary} Logistic regression does not rest on class means and a pooled covariance."
+    return (
+        f"outliers: {f['outliers'].summary} Logistic regression does not rest on class means and a pooled covariance."
+    )
 
 
 def _non_gaussian(f: Findings, c: Config) -> str | None:
@@ -145,7 +147,9 @@ def _non_gaussian(f: Findings, c: Config) -> str | None:
 
 
 RULES: tuple[Rule, ...] = (
-    Rule("pooled_covariance_singular", "blocking", ("sample_size", "collinearity"), "regularized_lda", _pooled_singular),
+    Rule(
+        "pooled_covariance_singular", "blocking", ("sample_size", "collinearity"), "regularized_lda", _pooled_singular
+    ),
     Rule("few_rows_per_feature", "dimensionality", ("sample_size",), "regularized_lda", _few_rows),
     Rule("serious_collinearity", "conditioning", ("collinearity",), "regularized_lda", _serious_collinearity),
     # Under a strongly non-Gaussian shape the Gaussian covariance comparison (Box's M, BIC) is
@@ -180,18 +184,25 @@ def decide(findings: Findings, config: Config, rules: tuple[Rule, ...] = RULES) 
     fired = [(rule, reason) for rule in rules if (reason := rule.test(findings, config)) is not None]
     if not fired:
         model = "lda"
-        reasons = ["No rule fired: no check found a singular or unstable pooled covariance, covariance differences "
-                   "worth their parameters, influential outliers or a strongly non-Gaussian shape, so plain LDA is "
-                   "the most efficient choice."]
+        reasons = [
+            "No rule fired: no check found a singular or unstable pooled covariance, covariance differences "
+            "worth their parameters, influential outliers or a strongly non-Gaussian shape, so plain LDA is "
+            "the most efficient choice."
+        ]
     else:
         model = fired[0][0].model
         reasons = [reason for rule, reason in fired if rule.model == model]
         reasons += [f"Also noted: {reason}" for rule, reason in fired if rule.model != model]
     ranked: list[dict[str, str]] = []
-    for rule, reason in fired:
+    for rule, _reason in fired:
         if rule.model != model and rule.model not in [a["model"] for a in ranked]:
-            ranked.append({"model": rule.model, "reason": f"addresses {rule.name.replace('_', ' ')}, but ranks below "
-                           f"the first rule that fired ({fired[0][0].name.replace('_', ' ')})"})
+            ranked.append(
+                {
+                    "model": rule.model,
+                    "reason": f"addresses {rule.name.replace('_', ' ')}, but ranks below "
+                    f"the first rule that fired ({fired[0][0].name.replace('_', ' ')})",
+                }
+            )
     for candidate in _DEFAULT_ORDER:
         if candidate != model and candidate not in [a["model"] for a in ranked]:
             ranked.append({"model": candidate, "reason": _WHY_NOT[candidate]})
@@ -219,9 +230,9 @@ def suggested_params(model: str, findings: Findings, config: Config) -> dict[str
             "reg_param_rule": "1 / (rows per feature in the smallest class), capped at 0.5 (heuristic)",
             "standardize": True,
         }
-    needs_penalty = bool(_detail(findings, "separation", "any_complete") or _detail(findings, "separation", "any_quasi_complete")) or (
-        (_detail(findings, "sample_size", "rows_per_feature") or 0) < config.rows_per_feature_warn
-    )
+    needs_penalty = bool(
+        _detail(findings, "separation", "any_complete") or _detail(findings, "separation", "any_quasi_complete")
+    ) or ((_detail(findings, "sample_size", "rows_per_feature") or 0) < config.rows_per_feature_warn)
     return {
         "standardize": True,
         "penalty": "l2",

@@ -32,8 +32,15 @@ def render_page(html_path: Path, png_path: Path) -> str:
         browser = next((b for b in map(shutil.which, _BROWSERS) if b), None)
         if browser is None:
             return "no HTML renderer (wkhtmltoimage, Chromium) on PATH: page screenshot skipped"
-        command = [browser, "--headless", "--disable-gpu", "--no-sandbox", f"--screenshot={png_path}",
-                   "--window-size=1200,4000", html_path.resolve().as_uri()]
+        command = [
+            browser,
+            "--headless",
+            "--disable-gpu",
+            "--no-sandbox",
+            f"--screenshot={png_path}",
+            "--window-size=1200,4000",
+            html_path.resolve().as_uri(),
+        ]
     try:
         subprocess.run(command, check=True, timeout=120, capture_output=True)
     except (OSError, subprocess.SubprocessError) as exc:

@@ -43,7 +43,7 @@ def flakes() -> tuple[pd.DataFrame, dict]:
 def gaussian_classes() -> tuple[pd.DataFrame, np.ndarray]:
     """Invented, seeded: three Gaussian classes with a shared covariance (property tests only)."""
     rng = np.random.default_rng(7)
-    n, p = 120, 4
+    n = 120
     cov = np.array([[1.0, 0.3, 0.0, 0.1], [0.3, 1.0, 0.2, 0.0], [0.0, 0.2, 1.0, 0.4], [0.1, 0.0, 0.4, 1.0]])
     means = np.array([[0, 0, 0, 0], [1.5, 0.5, 0, 0], [0, 1.5, 1.0, 0.5]], dtype=float)
     X = np.vstack([rng.multivariate_normal(m, cov, n) for m in means])

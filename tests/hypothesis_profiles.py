@@ -158,9 +158,11 @@ class Case:
     def has_tiny(self) -> bool:
         """A column at scale 1e-300 (or a subnormal value planted)."""
         d = self.description
-        return "tiny" in d["kinds"] or any(
-            0 < abs(v) < 1e-150 for _, _, v in d["specials"] if np.isfinite(v)
-        ) or (d["exponent"] < -150 and "scaled" in d["kinds"])
+        return (
+            "tiny" in d["kinds"]
+            or any(0 < abs(v) < 1e-150 for _, _, v in d["specials"] if np.isfinite(v))
+            or (d["exponent"] < -150 and "scaled" in d["kinds"])
+        )
 
     @property
     def max_abs(self) -> float:
@@ -199,7 +201,9 @@ class Case:
         )
 
 
-def _column(kind: str, rng: np.random.Generator, n: int, codes: np.ndarray, done: list[np.ndarray], exponent: int) -> Any:
+def _column(
+    kind: str, rng: np.random.Generator, n: int, codes: np.ndarray, done: list[np.ndarray], exponent: int
+) -> Any:
     """Values of one column of the given kind (numpy array, or a pandas array for extension dtypes)."""
     if kind == "normal":
         return rng.normal(size=n) * rng.uniform(0.5, 3.0) + rng.normal() * 2
@@ -314,8 +318,14 @@ def _label_values(kind: str, K: int) -> list[Any]:
 
 
 @st.composite
-def cases(draw: Any, *, hostile: bool = True, min_classes: int = 1, max_class_rows: int | None = None,
-          max_features: int | None = None) -> Case:
+def cases(
+    draw: Any,
+    *,
+    hostile: bool = True,
+    min_classes: int = 1,
+    max_class_rows: int | None = None,
+    max_features: int | None = None,
+) -> Case:
     """An audit input: features, labels, index; hostile ones may plant problems.
 
     ``hostile=False`` draws only inputs that must give a Verdict under the default Config

@@ -234,8 +234,17 @@ def test_output_file_and_the_formats_match_the_library(files, tmp_path, capsys) 
 
 
 def test_unwritable_output_is_a_one_line_error(files, tmp_path, capsys) -> None:
-    code, _, err = _run(capsys, "check", files["pass"], "--target", "label", "--index-col", "row_id",
-                        "--output", tmp_path / "no" / "such" / "dir" / "r.txt")
+    code, _, err = _run(
+        capsys,
+        "check",
+        files["pass"],
+        "--target",
+        "label",
+        "--index-col",
+        "row_id",
+        "--output",
+        tmp_path / "no" / "such" / "dir" / "r.txt",
+    )
     assert code == 2 and err.count("\n") == 1 and "r.txt" in err and "Traceback" not in err
 
 
@@ -283,11 +292,31 @@ def test_console_script_gates_and_matches_in_process_output(files, capsys) -> No
 
 
 def test_python_m_discaudit_errors_are_one_line_without_traceback(files) -> None:
-    done = _subprocess(sys.executable, "-m", "discaudit", "check", files["pass"].parent / "absent.parquet",
-                       "--target", "label", cwd=files["pass"].parent)
+    done = _subprocess(
+        sys.executable,
+        "-m",
+        "discaudit",
+        "check",
+        files["pass"].parent / "absent.parquet",
+        "--target",
+        "label",
+        cwd=files["pass"].parent,
+    )
     assert done.returncode == 2
     assert done.stderr.count("\n") == 1 and "absent.parquet: no such file" in done.stderr
     assert "Traceback" not in done.stderr
-    ok = _subprocess(sys.executable, "-m", "discaudit", "check", files["parquet"], "--target", "label",
-                     "--index-col", "row_id", "--format", "junit", cwd=files["pass"].parent)
+    ok = _subprocess(
+        sys.executable,
+        "-m",
+        "discaudit",
+        "check",
+        files["parquet"],
+        "--target",
+        "label",
+        "--index-col",
+        "row_id",
+        "--format",
+        "junit",
+        cwd=files["pass"].parent,
+    )
     assert ok.returncode == 0 and ok.stdout.startswith("<?xml") and "Traceback" not in ok.stderr

@@ -51,7 +51,9 @@ def test_every_config_field_round_trips_through_a_file(tmp_path) -> None:
 
 
 def test_pyproject_table_and_fail_on(tmp_path) -> None:
-    path = _write(tmp_path / "pyproject.toml", """
+    path = _write(
+        tmp_path / "pyproject.toml",
+        """
 [project]
 name = "x"
 [tool.discaudit]
@@ -59,7 +61,8 @@ fail_on = "warn"
 vif_fail = 20
 [tool.discaudit.severity]
 normality = "advisory"
-""")
+""",
+    )
     settings = load(path)
     assert settings.fail_on == "warn" and settings.path == path
     config = make_config(settings)
@@ -162,8 +165,10 @@ def test_file_severity_from_a_nested_cwd_and_fail_on_precedence(tmp_path, capsys
     monkeypatch.chdir(nested)
     code, doc, _ = _check(capsys, data)
     assert code == 1 and doc["findings"]["data_hygiene"]["status"] == "fail"  # no settings: the failure gates
-    _write(tmp_path / "project" / "pyproject.toml",
-           '[tool.discaudit]\nfail_on = "warn"\n[tool.discaudit.severity]\ndata_hygiene = "advisory"\n')
+    _write(
+        tmp_path / "project" / "pyproject.toml",
+        '[tool.discaudit]\nfail_on = "warn"\n[tool.discaudit.severity]\ndata_hygiene = "advisory"\n',
+    )
     code, doc, _ = _check(capsys, data, "--fail-on", "fail")
     assert doc["meta"]["severity"]["data_hygiene"] == "advisory"
     assert doc["status"] in ("pass", "warn")  # the advisory failure does not count

@@ -47,35 +47,7 @@ from discaudit.errors import DegenerateDataWarning, DiscauditWarning
 #: A generated example that shows a known symptom (and satisfies the predicate) is rejected,
 #: so the search goes on for other bugs. Remove an entry when its bug is fixed, together
 #: with the xfail marker of its regression test.
-KNOWN_BUGS: list[tuple[str, str, str, Callable[[Case], bool]]] = [
-    ("test_regression_box_m_accepts_rank_deficient_class", "box_m", "class with n_k <= p gave a result", lambda c: True),
-    (
-        "test_regression_duplicated_column_names_crash_as_matrix",
-        "*",
-        "AttributeError: 'DataFrame' object has no attribute 'dtype'",
-        lambda c: c.duplicate_names,
-    ),
-    ("test_regression_huge_values_overflow_in_stats", "*", "RuntimeWarning", lambda c: bool(c.huge_columns)),
-    ("test_regression_shrinkage_intensity_overflows_below_1e150", "*", "RuntimeWarning: overflow", lambda c: c.max_abs > 1e60),
-    (
-        "test_regression_mcd_hyperplane_normal_nan_with_tiny_column",
-        "mcd",
-        "RuntimeWarning",
-        lambda c: c.has_tiny,
-    ),
-    (
-        "test_regression_condition_indices_zero_over_zero",
-        "condition_indices",
-        "RuntimeWarning: invalid value encountered in divide",
-        lambda c: True,
-    ),
-    (
-        "test_regression_separation_lp_fails_on_near_duplicate_feature",
-        "detect_separation",
-        "the separation linear program failed",
-        lambda c: "near_duplicate" in c.description["kinds"],
-    ),
-]
+KNOWN_BUGS: list[tuple[str, str, str, Callable[[Case], bool]]] = []
 
 TOL = 1e-9
 
@@ -325,6 +297,74 @@ def test_detect_separation(case: Case, form: str, yform: str, seed: int) -> None
 
 
 # ----------------------------------------------------------------------------------------
+# invariance to the units of one feature
+
+
+def _numbers(res: Any) -> list[float]:
+    """The unit-free numbers of a result of a scale-invariant statistic."""
+    if isinstance(res, pd.Series):  # vif
+        return res.to_list()
+    names = {
+        "BoxMResult": ("statistic", "p_value", "f", "p_value_f"),
+        "WilksLambdaResult": ("statistic", "f", "p_value"),
+        "ConditionIndicesResult": ("condition_number",),
+        "MardiaResult": ("skewness", "kurtosis", "skew_p_value", "kurt_p_value"),
+        "HenzeZirklerResult": ("statistic", "p_value"),
+    }[type(res).__name__]
+    out = [float(getattr(res, a)) for a in names]
+    if type(res).__name__ == "WilksLambdaResult":
+        out += list(np.asarray(res.canonical_correlations, dtype=float))
+    if type(res).__name__ == "ConditionIndicesResult":
+        out += list(np.asarray(res.indices, dtype=float))
+    return out
+
+
+@given(case=cases(hostile=False), column=st.integers(0, 10**6), power=st.sampled_from([-990, -600, -200, 200]))
+def test_scale_invariant_statistics_ignore_the_units_of_a_feature(case: Case, column: int, power: int) -> None:
+    """Multiplying one feature by 2**power (exact in float64) changes none of these numbers.
+
+    Box's M, Wilks' Lambda and VIF are invariant to rescaling a feature (METHODS.md), the
+    condition indices are those of the correlation matrix (Belsley, Kuh & Welsch 1980), and
+    Mardia's and Henze-Zirkler's statistics are affine invariant (Mardia 1970; Henze &
+    Zirkler 1990). A feature in tiny or large units is not constant and not degenerate.
+    """
+    X = case.frame.to_numpy(dtype=float)
+    j = column % X.shape[1]
+    if np.abs(X).max() * 2.0**power > 1e100 or np.ptp(X[:, j]) == 0:
+        reject()
+    scaled = X.copy()
+    scaled[:, j] = np.ldexp(X[:, j], power)
+    y = case.labels
+    for fn, args in (
+        (stats.vif, ()),
+        (stats.condition_indices, ()),
+        (stats.mardia, ()),
+        (stats.henze_zirkler, ()),
+        (stats.box_m, (y,)),
+        (stats.wilks_lambda, (y,)),
+    ):
+        base = call(fn, X, *args, case=case)
+        other = call(fn, scaled, *args, case=case)
+        name = fn.__name__
+        if isinstance(base, DataError) or isinstance(other, DataError):
+            if not (isinstance(base, DataError) and isinstance(other, DataError)):
+                known(name, f"scaling: {other if isinstance(other, DataError) else base}", case)
+            assert isinstance(base, DataError) and isinstance(other, DataError), (
+                f"{name}: column {j} times 2**{power}: {base!r} versus {other!r}"
+            )
+            continue
+        a, b = np.array(_numbers(base)), np.array(_numbers(other))
+        both_inf = np.isinf(a) & np.isinf(b)
+        np.testing.assert_allclose(
+            np.where(both_inf, 0, b),
+            np.where(both_inf, 0, a),
+            rtol=1e-6,
+            atol=1e-9,
+            err_msg=f"{name}, column {j} x 2**{power}",
+        )
+
+
+# ----------------------------------------------------------------------------------------
 # regressions found by the properties above
 
 
@@ -342,7 +382,6 @@ def test_regression_mcd_tied_column_gives_nan_distances() -> None:
     assert res.exact_fit and res.n_on_hyperplane >= 7
 
 
-@pytest.mark.xfail(strict=True, reason="box_m: a class with n_k <= p can pass logdet_spd (no rank tolerance)")
 def test_regression_box_m_accepts_rank_deficient_class() -> None:
     # Two rows per class and p = 3: each class covariance has rank 1, Box's M is undefined.
     X = np.random.default_rng(28).normal(size=(4, 3))
@@ -350,14 +389,12 @@ def test_regression_box_m_accepts_rank_deficient_class() -> None:
         stats.box_m(X, [0, 0, 1, 1])
 
 
-@pytest.mark.xfail(strict=True, reason="as_matrix: duplicated DataFrame column names raise AttributeError, not DataError")
 def test_regression_duplicated_column_names_crash_as_matrix() -> None:
     X = pd.DataFrame([[0.0, 1.0], [1.0, 0.0], [2.0, 2.0], [3.0, 1.0]], columns=["a", "a"])
     with pytest.raises(DataError, match="'?a'?"):
         stats.vif(X)
 
 
-@pytest.mark.xfail(strict=True, reason="stats: values beyond ~1e154 overflow when squared (RuntimeWarning, inf/NaN)")
 def test_regression_huge_values_overflow_in_stats() -> None:
     # intake rejects |x| > 1e150 with a DataError naming the column; the public statistics do not.
     X = pd.DataFrame({"big": [1e300, 2e300, 3e300, 5e300], "small": [1.0, 0.0, 2.0, 1.0]})
@@ -379,7 +416,6 @@ def test_regression_mcd_tiny_scale_column() -> None:
     np.testing.assert_allclose(res.distances, reference.distances, rtol=1e-8)
 
 
-@pytest.mark.xfail(strict=True, reason="shrinkage_intensity: fourth powers overflow for values around 1e80 (intake allows 1e150)")
 def test_regression_shrinkage_intensity_overflows_below_1e150() -> None:
     # The Ledoit-Wolf intensity is invariant to one common rescaling of all features
     # (numerator and denominator both scale by c^4; Ledoit & Wolf 2004), so data at 1e100
@@ -394,7 +430,6 @@ def test_regression_shrinkage_intensity_overflows_below_1e150() -> None:
     assert scaled == pytest.approx(reference, rel=1e-9)
 
 
-@pytest.mark.xfail(strict=True, reason="detect_separation: HiGHS fails (status 4) with a near-duplicate feature; raised as DataError")
 def test_regression_separation_lp_fails_on_near_duplicate_feature() -> None:
     # Invented, seeded: one row of class 0, 54 of class 1; the third feature is the first
     # plus noise at 1e-12 of its scale (what collinearity reports as an exact dependency).
@@ -410,7 +445,6 @@ def test_regression_separation_lp_fails_on_near_duplicate_feature() -> None:
     assert len(res.comparisons) == 1
 
 
-@pytest.mark.xfail(strict=True, reason="condition_indices: 0/0 in vectors**2 / eigenvalue when n - 1 < p (invalid-value warning)")
 def test_regression_condition_indices_zero_over_zero() -> None:
     # 4 rows, 26 columns: the correlation matrix has rank 3, 23 zero eigenvalues; some
     # eigenvector entries are exactly 0, and 0 / 0 is computed (errstate only silences divide).
@@ -421,7 +455,6 @@ def test_regression_condition_indices_zero_over_zero() -> None:
     assert np.isfinite(res.variance_proportions.to_numpy()).all()
 
 
-@pytest.mark.xfail(strict=True, reason="mcd._rescale: hyperplane normal underflows to 0 and is divided by its norm (NaN, inf)")
 def test_regression_mcd_hyperplane_normal_nan_with_tiny_column() -> None:
     # 29 of 30 rows have x2 = 0 (an exact fit with normal (0, 0, 1)); x1 is at 1e-300, so the
     # search runs on columns rescaled by powers of two, and undoing that loses the normal.
@@ -434,3 +467,14 @@ def test_regression_mcd_hyperplane_normal_nan_with_tiny_column() -> None:
             res = stats.mcd(X, random_state=0)
     assert res.exact_fit
     np.testing.assert_allclose(np.abs(res.hyperplane_normal), [0.0, 0.0, 1.0], atol=1e-12)
+
+
+@pytest.mark.parametrize("name", ["mardia", "henze_zirkler", "vif", "condition_indices", "box_m", "wilks_lambda"])
+def test_regression_tiny_feature_called_constant(name: str) -> None:
+    # These statistics do not depend on the units of a feature; 2**-600 is about 2.4e-181.
+    rng = np.random.default_rng(0)
+    X = rng.normal(size=(40, 2))
+    args = (np.repeat([0, 1], 20),) if name in ("box_m", "wilks_lambda") else ()
+    fn = getattr(stats, name)
+    reference = _numbers(fn(X, *args))
+    np.testing.assert_allclose(_numbers(fn(X * np.array([1.0, 2.0**-600]), *args)), reference, rtol=1e-6)

@@ -20,15 +20,15 @@ import matplotlib
 
 matplotlib.use("Agg")
 
-import numpy as np  # noqa: E402
-import pandas as pd  # noqa: E402
-import pytest  # noqa: E402
+import numpy as np
+import pandas as pd
+import pytest
 
-import discaudit  # noqa: E402
-from discaudit.cli import main  # noqa: E402
-from discaudit.config import Config  # noqa: E402
-from discaudit.plot import plottable  # noqa: E402
-from discaudit.result import CAUTION  # noqa: E402
+import discaudit
+from discaudit.cli import main
+from discaudit.config import Config
+from discaudit.plot import plottable
+from discaudit.result import CAUTION
 
 HOSTILE_COLUMN = "<script>alert(1)</script>"
 HOSTILE_CLASS = "<b onmouseover=alert(2)>x</b>"

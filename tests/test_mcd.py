@@ -189,9 +189,7 @@ class TestConsistency:
         np.testing.assert_allclose(res.covariance, Sigma, atol=0.04 * Sigma.max())
         np.testing.assert_allclose(res.raw_covariance, Sigma, atol=0.08 * Sigma.max())
         np.testing.assert_allclose(res.location, [1.0, -2.0, 0.5], atol=0.03)
-        assert res.reweighted_consistency_factor == pytest.approx(
-            mcd_consistency_factor(res.n_reweighted / res.n, 3)
-        )
+        assert res.reweighted_consistency_factor == pytest.approx(mcd_consistency_factor(res.n_reweighted / res.n, 3))
         # About 97.5 % of normal rows are kept and about 2.5 % flagged.
         assert 0.965 < res.n_reweighted / res.n < 0.985
         assert 0.015 < res.outliers.mean() < 0.035

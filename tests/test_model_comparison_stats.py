@@ -22,7 +22,9 @@ def test_log_likelihoods_match_scipy_multivariate_normal(iris) -> None:
     X, y = iris[0].to_numpy(), iris[1].to_numpy()
     res = covariance_bic(_moments(X, y))
     shared_cov = sum(np.cov(X[y == c], rowvar=False, bias=True) * (y == c).sum() for c in np.unique(y)) / len(y)
-    ll_shared = sum(sps.multivariate_normal(X[y == c].mean(0), shared_cov).logpdf(X[y == c]).sum() for c in np.unique(y))
+    ll_shared = sum(
+        sps.multivariate_normal(X[y == c].mean(0), shared_cov).logpdf(X[y == c]).sum() for c in np.unique(y)
+    )
     ll_sep = sum(
         sps.multivariate_normal(X[y == c].mean(0), np.cov(X[y == c], rowvar=False, bias=True)).logpdf(X[y == c]).sum()
         for c in np.unique(y)

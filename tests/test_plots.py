@@ -18,18 +18,22 @@ import matplotlib
 
 matplotlib.use("Agg")
 
-import numpy as np  # noqa: E402
-import pandas as pd  # noqa: E402
-import pytest  # noqa: E402
-from matplotlib.figure import Figure  # noqa: E402
-from matplotlib.patches import Ellipse  # noqa: E402
-from scipy import stats as sps  # noqa: E402
-from scipy.spatial.distance import cdist  # noqa: E402
+import numpy as np
+import pandas as pd
+import pytest
+from matplotlib.figure import Figure
+from matplotlib.patches import Ellipse
+from scipy import stats as sps
+from scipy.spatial.distance import cdist
 
-import discaudit  # noqa: E402
-from discaudit.plot import PLOTTED_CHECKS, plot_verdict, plottable  # noqa: E402
-from discaudit.plot import _common  # noqa: E402
-from discaudit.plot import outliers as outlier_plot  # noqa: E402
+import discaudit
+from discaudit.plot import (
+    PLOTTED_CHECKS,
+    _common,
+    plot_verdict,
+    plottable,
+)
+from discaudit.plot import outliers as outlier_plot
 
 TARGET = "family"
 
@@ -138,7 +142,9 @@ def test_one_panel_version_labels_at_most_the_combined_cap(demo):
 
 def test_planted_contaminated_flakes_are_labelled(demo, flakes, outlier_figure):
     _, planted = flakes
-    shown = {t.get_text() for ax in outlier_figure.axes for t in ax.texts if (t.get_gid() or "").startswith("flag-label")}
+    shown = {
+        t.get_text() for ax in outlier_figure.axes for t in ax.texts if (t.get_gid() or "").startswith("flag-label")
+    }
     assert set(planted["contaminated"]) <= shown
 
 
@@ -174,7 +180,11 @@ def test_normality_qq_uses_classical_mahalanobis_distances(demo, flakes):
         d = cdist(Xk, Xk.mean(axis=0)[None, :], "mahalanobis", VI=np.linalg.inv(np.cov(Xk, rowvar=False)))[:, 0] ** 2
         np.testing.assert_allclose(xy[:, 1], np.sort(d), rtol=1e-6)
         np.testing.assert_allclose(xy[:, 0], sps.chi2.ppf((np.arange(1, len(d) + 1) - 0.5) / len(d), p), rtol=1e-12)
-        assert "FAIL" in ax.get_title(loc="left") or "WARN" in ax.get_title(loc="left") or "PASS" in ax.get_title(loc="left")
+        assert (
+            "FAIL" in ax.get_title(loc="left")
+            or "WARN" in ax.get_title(loc="left")
+            or "PASS" in ax.get_title(loc="left")
+        )
 
 
 # --- covariance ellipses -------------------------------------------------------------------------
@@ -219,7 +229,9 @@ def test_discriminant_plane_matches_sklearn_and_ellipses_match_projected_covaria
         assert ellipse.width == pytest.approx(2 * np.sqrt(q * values[1]), rel=1e-8)
         assert ellipse.height == pytest.approx(2 * np.sqrt(q * values[0]), rel=1e-8)
     # the planted wide family has the largest ellipse
-    areas = {n: np.prod(np.linalg.eigvalsh(np.cov(X[y == n].to_numpy() @ A, rowvar=False))) for n in demo.meta["classes"]}
+    areas = {
+        n: np.prod(np.linalg.eigvalsh(np.cov(X[y == n].to_numpy() @ A, rowvar=False))) for n in demo.meta["classes"]
+    }
     assert max(areas, key=areas.__getitem__) == flakes[1]["different_covariance_family"]
 
 

@@ -11,8 +11,14 @@ import pytest
 import discaudit
 from discaudit.config import CHECK_KEYS
 
-CLOSED_FORM = ("data_hygiene", "sample_size", "scale_disparity", "collinearity", "covariance_homogeneity",
-               "discriminant_signal")
+CLOSED_FORM = (
+    "data_hygiene",
+    "sample_size",
+    "scale_disparity",
+    "collinearity",
+    "covariance_homogeneity",
+    "discriminant_signal",
+)
 
 
 def _numbers(verdict: discaudit.Verdict) -> dict:
@@ -28,7 +34,11 @@ def test_contract_shape(gaussian_classes) -> None:
     assert v.status in {"pass", "warn", "fail"}
     assert all(isinstance(r, str) for r in v.recommendation.reasons)
     assert {a["model"] for a in v.recommendation.alternatives} | {v.recommendation.model} == {
-        "lda", "regularized_lda", "qda", "logistic_regression"}
+        "lda",
+        "regularized_lda",
+        "qda",
+        "logistic_regression",
+    }
     doc = json.loads(v.to_json())
     assert doc["schema_version"] == 1 and set(doc["findings"]) == set(CHECK_KEYS)
     assert not any(f.details.get("check_error") for f in v.findings.values())
@@ -71,9 +81,11 @@ def test_rescaling_features_changes_only_scale_dependent_figures(gaussian_classe
     b = discaudit.preflight(scaled, y)
     assert b.findings["scale_disparity"].status == "warn"
     assert a.findings["collinearity"].details["vif_within"] == pytest.approx(
-        b.findings["collinearity"].details["vif_within"], rel=1e-8)
+        b.findings["collinearity"].details["vif_within"], rel=1e-8
+    )
     assert a.findings["discriminant_signal"].details["wilks_lambda"] == pytest.approx(
-        b.findings["discriminant_signal"].details["wilks_lambda"], rel=1e-8)
+        b.findings["discriminant_signal"].details["wilks_lambda"], rel=1e-8
+    )
 
 
 def test_demo_data_shows_the_planted_problems(flakes) -> None:
@@ -84,7 +96,9 @@ def test_demo_data_shows_the_planted_problems(flakes) -> None:
     assert v.findings["scale_disparity"].status == "warn"
     assert v.findings["scale_disparity"].details["largest_sd_feature"] == planted["large_scale_column"]
     assert v.findings["covariance_homogeneity"].status == "fail"
-    assert v.findings["covariance_homogeneity"].details["most_different_class"] == planted["different_covariance_family"]
+    assert (
+        v.findings["covariance_homogeneity"].details["most_different_class"] == planted["different_covariance_family"]
+    )
     assert v.recommendation.model != "lda"
 
 

@@ -74,8 +74,15 @@ def test_json_round_trip_and_schema_keys(name, request) -> None:
     assert document == verdict.to_dict()
     assert json.loads(json.dumps(document, allow_nan=False)) == document
     assert _plain_types(document)
-    assert set(document) == {"schema_version", "discaudit_version", "status", "recommendation", "findings", "meta",
-                             "caution"}
+    assert set(document) == {
+        "schema_version",
+        "discaudit_version",
+        "status",
+        "recommendation",
+        "findings",
+        "meta",
+        "caution",
+    }
     assert document["schema_version"] == 1
     assert {"model", "params", "reasons", "alternatives", "rules_fired"} <= set(document["recommendation"])
     assert list(document["findings"]) == list(CHECK_KEYS)

@@ -98,8 +98,10 @@ def test_dask_on_a_local_cluster_equals_in_memory(flakes) -> None:
     distributed = pytest.importorskip("distributed", reason="the dask extra is not installed")
     frame, _ = flakes
     whole = discaudit.preflight(frame, target="family", random_state=0)
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster, \
-            distributed.Client(cluster):
+    with (
+        distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None) as cluster,
+        distributed.Client(cluster),
+    ):
         v = discaudit.preflight(dd.from_pandas(frame, npartitions=6), target="family", random_state=0)
     for key in MOMENT_CHECKS:
         _close(v.findings[key].details, whole.findings[key].details, rel=1e-6)

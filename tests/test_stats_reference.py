@@ -134,8 +134,17 @@ def box_m_by_hand(X: pd.DataFrame, y: pd.Series) -> dict[str, float]:
     F, F_other = (f_upper, f_lower) if c2 > c1**2 else (f_lower, f_upper)
     chi2 = (1 - c1) * M
     return {
-        "M": M, "c1": c1, "c2": c2, "chi2": chi2, "df": a1, "p_chi2": stats.chi2.sf(chi2, a1),
-        "F": F, "df1": a1, "df2": a2, "p_F": stats.f.sf(F, a1, a2), "F_other_branch": F_other,
+        "M": M,
+        "c1": c1,
+        "c2": c2,
+        "chi2": chi2,
+        "df": a1,
+        "p_chi2": stats.chi2.sf(chi2, a1),
+        "F": F,
+        "df1": a1,
+        "df2": a2,
+        "p_F": stats.f.sf(F, a1, a2),
+        "F_other_branch": F_other,
     }
 
 
@@ -307,24 +316,36 @@ class TestBoxMReference:
             # c2 > c1^2: the usual case (p = 4, K = 3).
             pytest.param(IRIS_COLUMNS, {"setosa": 50, "versicolor": 50, "virginica": 50}, "c2>c1^2", id="iris-p4"),
             pytest.param(
-                ["sepal_length", "petal_length"], {"versicolor": 10, "virginica": 50}, "c2>c1^2",
+                ["sepal_length", "petal_length"],
+                {"versicolor": 10, "virginica": 50},
+                "c2>c1^2",
                 id="iris-p2-unequal",
             ),
             # c2 < c1^2 needs p = 1 (c2 = 0) or p = 2, K = 2 with near-equal small classes.
             pytest.param(
-                ["sepal_length", "sepal_width"], {"versicolor": 21, "virginica": 24}, "c2<c1^2",
+                ["sepal_length", "sepal_width"],
+                {"versicolor": 21, "virginica": 24},
+                "c2<c1^2",
                 id="iris-p2-K2-small-unequal",
             ),
             pytest.param(
-                ["sepal_length", "sepal_width"], {"versicolor": 50, "virginica": 50}, "c2<c1^2",
+                ["sepal_length", "sepal_width"],
+                {"versicolor": 50, "virginica": 50},
+                "c2<c1^2",
                 id="iris-p2-K2-equal",
             ),
             pytest.param(
-                ["sepal_width"], {"setosa": 50, "versicolor": 30, "virginica": 20}, "c2<c1^2", id="iris-p1",
+                ["sepal_width"],
+                {"setosa": 50, "versicolor": 30, "virginica": 20},
+                "c2<c1^2",
+                id="iris-p1",
             ),
             # Small classes: the two branch formulas differ by 1.7 % here, the clearest discriminator.
             pytest.param(
-                ["sepal_width"], {"setosa": 5, "versicolor": 6, "virginica": 4}, "c2<c1^2", id="iris-p1-small",
+                ["sepal_width"],
+                {"setosa": 5, "versicolor": 6, "virginica": 4},
+                "c2<c1^2",
+                id="iris-p1-small",
             ),
         ],
     )

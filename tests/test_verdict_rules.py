@@ -19,10 +19,19 @@ CFG = Config()
 def findings(**overrides: tuple[str, dict]) -> dict[str, Finding]:
     """All checks passing with neutral details, except the (status, details) overrides."""
     base = {
-        "sample_size": ("pass", {"error_df": 300, "n_features": 5, "rows_per_feature": 60.0,
-                                 "smallest_class_rows_per_feature": 20.0}),
-        "collinearity": ("pass", {"max_vif": 1.5, "condition_number": 2.0, "rank_deficient": False,
-                                  "shrinkage": {"retained_separation": 0.99, "ledoit_wolf_standardized": 0.05}}),
+        "sample_size": (
+            "pass",
+            {"error_df": 300, "n_features": 5, "rows_per_feature": 60.0, "smallest_class_rows_per_feature": 20.0},
+        ),
+        "collinearity": (
+            "pass",
+            {
+                "max_vif": 1.5,
+                "condition_number": 2.0,
+                "rank_deficient": False,
+                "shrinkage": {"retained_separation": 0.99, "ledoit_wolf_standardized": 0.05},
+            },
+        ),
         "covariance_homogeneity": ("pass", {"bic": {"delta_bic": -20.0}, "most_different_class": "a"}),
         "normality": ("pass", {"discrete_features": []}),
         "separation": ("pass", {"any_complete": False, "any_quasi_complete": False}),
@@ -47,25 +56,51 @@ def test_nothing_fires_on_clean_findings_and_lda_wins() -> None:
 
 
 def test_pooled_covariance_singular() -> None:
-    f = findings(sample_size=("fail", {"error_df": 10, "n_features": 12, "rows_per_feature": 1.0,
-                                       "smallest_class_rows_per_feature": 0.5}))
+    f = findings(
+        sample_size=(
+            "fail",
+            {"error_df": 10, "n_features": 12, "rows_per_feature": 1.0, "smallest_class_rows_per_feature": 0.5},
+        )
+    )
     assert RULE["pooled_covariance_singular"].test(f, CFG) is not None
     d = decide(f, CFG)
     assert d.model == "regularized_lda" and "N - K = 10" in d.reasons[0]
 
 
 def test_few_rows_per_feature_fires_below_the_threshold_only() -> None:
-    low = findings(sample_size=("warn", {"error_df": 40, "n_features": 8, "rows_per_feature": 5.0,
-                                         "smallest_class_rows_per_feature": 2.5}))
+    low = findings(
+        sample_size=(
+            "warn",
+            {"error_df": 40, "n_features": 8, "rows_per_feature": 5.0, "smallest_class_rows_per_feature": 2.5},
+        )
+    )
     assert RULE["few_rows_per_feature"].test(low, CFG) is not None
     assert RULE["few_rows_per_feature"].test(findings(), CFG) is None
 
 
 def test_collinearity_goes_to_shrinkage_only_when_shrinkage_keeps_the_separation() -> None:
-    cheap = findings(collinearity=("fail", {"max_vif": 80.0, "condition_number": 40.0, "rank_deficient": False,
-                                            "shrinkage": {"retained_separation": 0.97}}))
-    costly = findings(collinearity=("fail", {"max_vif": 80.0, "condition_number": 40.0, "rank_deficient": False,
-                                             "shrinkage": {"retained_separation": 0.4}}))
+    cheap = findings(
+        collinearity=(
+            "fail",
+            {
+                "max_vif": 80.0,
+                "condition_number": 40.0,
+                "rank_deficient": False,
+                "shrinkage": {"retained_separation": 0.97},
+            },
+        )
+    )
+    costly = findings(
+        collinearity=(
+            "fail",
+            {
+                "max_vif": 80.0,
+                "condition_number": 40.0,
+                "rank_deficient": False,
+                "shrinkage": {"retained_separation": 0.4},
+            },
+        )
+    )
     assert fired(cheap) == ["serious_collinearity"] and decide(cheap, CFG).model == "regularized_lda"
     assert fired(costly) == ["costly_shrinkage"] and decide(costly, CFG).model == "lda"
     assert "40%" in decide(costly, CFG).reasons[0]
@@ -74,17 +109,22 @@ def test_collinearity_goes_to_shrinkage_only_when_shrinkage_keeps_the_separation
 def test_unequal_covariances_need_rows_per_feature_for_qda() -> None:
     cov_fail = ("fail", {"bic": {"delta_bic": 300.0}, "most_different_class": "b"})
     enough = findings(covariance_homogeneity=cov_fail)
-    few = findings(covariance_homogeneity=cov_fail,
-                   sample_size=("pass", {"error_df": 300, "n_features": 5, "rows_per_feature": 60.0,
-                                         "smallest_class_rows_per_feature": 3.0}))
+    few = findings(
+        covariance_homogeneity=cov_fail,
+        sample_size=(
+            "pass",
+            {"error_df": 300, "n_features": 5, "rows_per_feature": 60.0, "smallest_class_rows_per_feature": 3.0},
+        ),
+    )
     assert decide(enough, CFG).model == "qda"
     assert RULE["unequal_covariances"].test(few, CFG) is None
 
 
 def test_non_gaussian_shape_beats_covariance_evidence_but_not_separation() -> None:
     shape = ("fail", {"discrete_features": ["flag"]})
-    f = findings(normality=shape, covariance_homogeneity=("fail", {"bic": {"delta_bic": 300.0},
-                                                                     "most_different_class": "b"}))
+    f = findings(
+        normality=shape, covariance_homogeneity=("fail", {"bic": {"delta_bic": 300.0}, "most_different_class": "b"})
+    )
     d = decide(f, CFG)
     assert d.model == "logistic_regression" and "flag" in d.reasons[0]
     assert d.alternatives[0]["model"] == "qda"

@@ -87,7 +87,10 @@ def test_no_warning_escapes_preflight_on_bundled_data(name: str) -> None:
 
 @pytest.mark.parametrize(
     "name",
-    [pytest.param(n, marks=pytest.mark.xfail(strict=True, reason=OPEN_BUGS[n])) if n in OPEN_BUGS else n for n in DATASETS],
+    [
+        pytest.param(n, marks=pytest.mark.xfail(strict=True, reason=OPEN_BUGS[n])) if n in OPEN_BUGS else n
+        for n in DATASETS
+    ],
 )
 def test_no_numpy_warning_is_recorded_on_bundled_data(name: str) -> None:
     verdict = _verdict(name)

@@ -71,7 +71,9 @@ def _unequal(rng):
     base = _correlation(rng, p, 0.5)
     Q, R = np.linalg.qr(rng.standard_normal((p, p)))
     Q *= np.sign(np.diag(R))
-    other = 4.0 * Q @ np.diag(np.exp(rng.uniform(-0.7, 0.7, p))) @ base @ np.diag(np.exp(rng.uniform(-0.7, 0.7, p))) @ Q.T
+    other = (
+        4.0 * Q @ np.diag(np.exp(rng.uniform(-0.7, 0.7, p))) @ base @ np.diag(np.exp(rng.uniform(-0.7, 0.7, p))) @ Q.T
+    )
     other = (other + other.T) / 2
     means = np.vstack([np.zeros(p), 0.3 * rng.standard_normal(p)])
     return means, [base, other], 1500

@@ -67,7 +67,9 @@ class Population:
     def n_features(self) -> int:
         return self.classes[0][0].mean.shape[0]
 
-    def sample(self, rng: np.random.Generator, counts: Sequence[int], contaminate: bool) -> tuple[np.ndarray, np.ndarray]:
+    def sample(
+        self, rng: np.random.Generator, counts: Sequence[int], contaminate: bool
+    ) -> tuple[np.ndarray, np.ndarray]:
         p = self.n_features
         blocks, labels = [], []
         for k, (comps, n_k) in enumerate(zip(self.classes, counts)):
@@ -143,7 +145,9 @@ def spread_means(rng: np.random.Generator, cov: np.ndarray, K: int, delta: float
     return Z @ L.T
 
 
-def perturbed_covariances(rng: np.random.Generator, base: np.ndarray, K: int, spread: float, turn: float) -> list[np.ndarray]:
+def perturbed_covariances(
+    rng: np.random.Generator, base: np.ndarray, K: int, spread: float, turn: float
+) -> list[np.ndarray]:
     """K covariances around ``base``: log-scales with SD ``spread``, a random rotation of size ``turn``."""
     p = base.shape[0]
     L = np.linalg.cholesky(base)
@@ -157,7 +161,9 @@ def perturbed_covariances(rng: np.random.Generator, base: np.ndarray, K: int, sp
     return out
 
 
-def gaussian_classes(means: np.ndarray, covs: Sequence[np.ndarray], df: float = np.inf) -> tuple[tuple[Component, ...], ...]:
+def gaussian_classes(
+    means: np.ndarray, covs: Sequence[np.ndarray], df: float = np.inf
+) -> tuple[tuple[Component, ...], ...]:
     return tuple((Component(np.asarray(m, float), np.linalg.cholesky(c), 1.0, df),) for m, c in zip(means, covs))
 
 
@@ -316,7 +322,7 @@ def _binary(rng):
     cov = random_correlation(rng, p, 1.0)
     means = spread_means(rng, cov, 2, 1.5)
     cuts = rng.normal(0.0, 0.6, p)
-    return Population(gaussian_classes(means, [cov, cov]), transform=lambda X, r: (X > cuts).astype(float))
+    return Population(gaussian_classes(means, [cov, cov]), transform=lambda X, r: (cuts < X).astype(float))
 
 
 def _likert(rng):
@@ -407,47 +413,123 @@ _LIST = [
     # equal covariances, Gaussian
     Scenario("tidy_pair_small", "equal covariances, K=2, p=4, 40 per class", _shared(4, 2, 2.0), (40, 40)),
     Scenario("tidy_trio", "equal covariances, K=3, p=8, 150 per class", _shared(8, 3, 2.5), (150,) * 3),
-    Scenario("tidy_pair_huge", "equal covariances, K=2, p=8, 20k per class", _shared(8, 2, 1.5), (20_000,) * 2, tags=("large",)),
+    Scenario(
+        "tidy_pair_huge",
+        "equal covariances, K=2, p=8, 20k per class",
+        _shared(8, 2, 1.5),
+        (20_000,) * 2,
+        tags=("large",),
+    ),
     Scenario("tidy_six", "equal covariances, K=6, p=10, 60 per class", _shared(10, 6, 3.0), (60,) * 6),
     Scenario("faint_signal", "equal covariances, weak signal, K=2, p=10", _shared(10, 2, 0.6), (100, 100)),
     # unequal covariances
-    Scenario("spread_pair_large", "unequal covariances, K=2, p=6, 5000 per class", _spread(6, 2, 1.0, 0.5, 0.6), (5000,) * 2),
-    Scenario("spread_trio_huge", "unequal covariances, K=3, p=5, 10k per class", _spread(5, 3, 1.5, 0.6, 0.8), (10_000,) * 3, tags=("large",)),
-    Scenario("spread_pair_few", "unequal covariances, few rows: K=2, p=12, 30 per class", _spread(12, 2, 2.0, 0.3, 0.3), (30, 30)),
-    Scenario("spread_pair_medium", "moderately unequal covariances, K=2, p=6, 300 per class", _spread(6, 2, 1.5, 0.35, 0.3), (300, 300)),
+    Scenario(
+        "spread_pair_large", "unequal covariances, K=2, p=6, 5000 per class", _spread(6, 2, 1.0, 0.5, 0.6), (5000,) * 2
+    ),
+    Scenario(
+        "spread_trio_huge",
+        "unequal covariances, K=3, p=5, 10k per class",
+        _spread(5, 3, 1.5, 0.6, 0.8),
+        (10_000,) * 3,
+        tags=("large",),
+    ),
+    Scenario(
+        "spread_pair_few",
+        "unequal covariances, few rows: K=2, p=12, 30 per class",
+        _spread(12, 2, 2.0, 0.3, 0.3),
+        (30, 30),
+    ),
+    Scenario(
+        "spread_pair_medium",
+        "moderately unequal covariances, K=2, p=6, 300 per class",
+        _spread(6, 2, 1.5, 0.35, 0.3),
+        (300, 300),
+    ),
     Scenario("same_centre_spread", "equal means, covariances differ only, K=2, p=4", _same_centre, (400, 400)),
     Scenario("spread_five", "unequal covariances, K=5, p=4, 800 per class", _spread(4, 5, 2.0, 0.5, 0.8), (800,) * 5),
     # dimensionality
     Scenario("crowded_pair", "p near N-K: K=2, p=45, 25 per class", _crowded(45, 2, 3.0), (25, 25), TEST_ROWS_WIDE),
-    Scenario("crowded_trio_wide", "p > N-K: K=3, p=100, 30 per class", _crowded(100, 3, 4.0), (30,) * 3, TEST_ROWS_WIDE),
+    Scenario(
+        "crowded_trio_wide", "p > N-K: K=3, p=100, 30 per class", _crowded(100, 3, 4.0), (30,) * 3, TEST_ROWS_WIDE
+    ),
     Scenario("wide_moderate", "p=100 with 250 per class, K=2", _crowded(100, 2, 3.0), (250, 250), TEST_ROWS_WIDE),
     # collinearity
-    Scenario("factor_signal_loud", "collinear, class difference along high-variance directions, p=20", _factor_signal(True), (50, 50)),
-    Scenario("factor_signal_quiet", "collinear, class difference along low-variance directions, p=20", _factor_signal(False), (100, 100)),
+    Scenario(
+        "factor_signal_loud",
+        "collinear, class difference along high-variance directions, p=20",
+        _factor_signal(True),
+        (50, 50),
+    ),
+    Scenario(
+        "factor_signal_quiet",
+        "collinear, class difference along low-variance directions, p=20",
+        _factor_signal(False),
+        (100, 100),
+    ),
     Scenario("chain_correlated", "AR(1) correlation 0.97, K=2, p=15, 200 per class", _chain, (200, 200)),
     # shape
     Scenario("heavy_tails_mild", "multivariate t, df=4, K=2, p=6", _shared(6, 2, 2.0, df=4.0), (200, 200)),
     Scenario("heavy_tails_wild", "multivariate t, df=1.5, K=3, p=5", _shared(5, 3, 2.5, df=1.5), (300,) * 3),
     Scenario("skewed_lognormal", "log-normal features, K=2, p=5", _lognormal(2, 5, 1.5, 1.0), (300, 300)),
-    Scenario("skewed_lognormal_trio", "log-normal features, unequal spreads, K=3, p=4", _lognormal(3, 4, 2.0, 0.8), (500,) * 3),
+    Scenario(
+        "skewed_lognormal_trio",
+        "log-normal features, unequal spreads, K=3, p=4",
+        _lognormal(3, 4, 2.0, 0.8),
+        (500,) * 3,
+    ),
     Scenario("binary_answers", "15 binary features, K=2", _binary, (150, 150)),
     Scenario("likert_scores", "8 five-level ordinal features, K=3", _likert, (200,) * 3),
     Scenario("count_features", "6 Poisson count features, K=2", _counts, (250, 250)),
-    Scenario("mixed_types_huge", "continuous + binary + counts, K=2, 15k per class", _mixed_types, (15_000,) * 2, tags=("large",)),
+    Scenario(
+        "mixed_types_huge",
+        "continuous + binary + counts, K=2, 15k per class",
+        _mixed_types,
+        (15_000,) * 2,
+        tags=("large",),
+    ),
     Scenario("split_class", "one class is two clusters either side of the other, p=4", _split_class, (400, 400)),
     Scenario("lopsided_mixture", "one class is an 80/20 mix of two clusters, K=3, p=6", _lopsided_mixture, (250,) * 3),
     # outliers
-    Scenario("scattered_outliers", "4% gross outliers in each class, scattered, K=2, p=6", _outlying(2, 6, 0.04, 8.0, "scattered", (0, 1)), (150, 150)),
-    Scenario("clustered_outliers", "5% of one class replaced by a far cluster, K=3, p=8", _outlying(3, 8, 0.05, 6.0, "clustered", (0,)), (200,) * 3),
+    Scenario(
+        "scattered_outliers",
+        "4% gross outliers in each class, scattered, K=2, p=6",
+        _outlying(2, 6, 0.04, 8.0, "scattered", (0, 1)),
+        (150, 150),
+    ),
+    Scenario(
+        "clustered_outliers",
+        "5% of one class replaced by a far cluster, K=3, p=8",
+        _outlying(3, 8, 0.05, 6.0, "clustered", (0,)),
+        (200,) * 3,
+    ),
     # separation
-    Scenario("near_separable", "classes 7 Mahalanobis units apart, K=2, p=5, 60 per class", _shared(5, 2, 7.0), (60, 60)),
-    Scenario("separable_wide", "completely separable training set, K=2, p=20, 40 per class", _shared(20, 2, 6.0), (40, 40)),
+    Scenario(
+        "near_separable", "classes 7 Mahalanobis units apart, K=2, p=5, 60 per class", _shared(5, 2, 7.0), (60, 60)
+    ),
+    Scenario(
+        "separable_wide", "completely separable training set, K=2, p=20, 40 per class", _shared(20, 2, 6.0), (40, 40)
+    ),
     # scales
-    Scenario("wild_scales", "feature scales from 1e-4 to 1e4, equal covariances, K=3, p=6", _wild_scales(3, 6, 0.0, 0.0), (200,) * 3),
-    Scenario("wild_scales_spread", "feature scales from 1e-4 to 1e4, unequal covariances, K=2, p=5", _wild_scales(2, 5, 0.6, 0.8), (2000, 2000)),
+    Scenario(
+        "wild_scales",
+        "feature scales from 1e-4 to 1e4, equal covariances, K=3, p=6",
+        _wild_scales(3, 6, 0.0, 0.0),
+        (200,) * 3,
+    ),
+    Scenario(
+        "wild_scales_spread",
+        "feature scales from 1e-4 to 1e4, unequal covariances, K=2, p=5",
+        _wild_scales(2, 5, 0.6, 0.8),
+        (2000, 2000),
+    ),
     # imbalance
     Scenario("lopsided_pair", "imbalanced 1500 vs 60, equal covariances, p=6", _shared(6, 2, 2.5), (1500, 60)),
-    Scenario("lopsided_spread", "imbalanced 2000/400/80, unequal covariances, p=5", _spread(5, 3, 2.0, 0.5, 0.6), (2000, 400, 80)),
+    Scenario(
+        "lopsided_spread",
+        "imbalanced 2000/400/80, unequal covariances, p=5",
+        _spread(5, 3, 2.0, 0.5, 0.6),
+        (2000, 400, 80),
+    ),
 ]
 
 SCENARIOS: dict[str, Scenario] = {s.name: s for s in _LIST}

@@ -64,7 +64,9 @@ def digest(*arrays: Any) -> str:
         a = np.asarray(a)
         h.update(str(a.shape).encode())
         head = a[:200]
-        h.update(np.asarray(head, np.float32).tobytes() if head.dtype.kind == "f" else np.asarray(head).astype(str).tobytes())
+        h.update(
+            np.asarray(head, np.float32).tobytes() if head.dtype.kind == "f" else np.asarray(head).astype(str).tobytes()
+        )
     return h.hexdigest()[:16]
 
 
@@ -120,8 +122,10 @@ class TruthCache:
         head = {k: v for k, v in self.data.items() if k != "entries"}
         lines = ["{"] + [f"{json.dumps(k)}: {json.dumps(v)}," for k, v in sorted(head.items())] + ['"entries": {']
         entries = sorted(self.data["entries"].items())
-        lines += [f"{json.dumps(k)}: {json.dumps(v, sort_keys=True, allow_nan=False)}" + ("," if i < len(entries) - 1 else "")
-                  for i, (k, v) in enumerate(entries)]
+        lines += [
+            f"{json.dumps(k)}: {json.dumps(v, sort_keys=True, allow_nan=False)}" + ("," if i < len(entries) - 1 else "")
+            for i, (k, v) in enumerate(entries)
+        ]
         lines += ["}", "}"]
         tmp = self.path.with_suffix(".json.tmp")
         tmp.write_text("\n".join(lines) + "\n")
@@ -154,7 +158,7 @@ def run_audit(X, y) -> AuditRun:
         warnings.simplefilter("always")
         try:
             v = discaudit.preflight(X, y, random_state=0)
-        except Exception as exc:  # noqa: BLE001 - a crash is a result to report
+        except Exception as exc:
             return AuditRun("error", time.perf_counter() - start, error=f"{type(exc).__name__}: {exc}")
     seconds = time.perf_counter() - start
     rec = v.recommendation
@@ -185,10 +189,16 @@ def check_estimator(run: AuditRun, X, y, X_test=None, y_test=None) -> dict[str, 
             with np.errstate(all="ignore"):
                 est.fit(X, y)
                 acc = float(np.mean(est.predict(X_test) == y_test)) if X_test is not None else None
-        except Exception as exc:  # noqa: BLE001
+        except Exception as exc:
             return {"status": "error", "message": f"{type(exc).__name__}: {str(exc)[:160]}"}
     conv = [str(w.message)[:120] for w in caught if issubclass(w.category, ConvergenceWarning)]
-    other = sorted({f"{w.category.__name__}: {str(w.message)[:100]}" for w in caught if not issubclass(w.category, ConvergenceWarning)})
+    other = sorted(
+        {
+            f"{w.category.__name__}: {str(w.message)[:100]}"
+            for w in caught
+            if not issubclass(w.category, ConvergenceWarning)
+        }
+    )
     return {
         "status": "convergence warning" if conv else "ok",
         "message": conv[0] if conv else "",
@@ -263,20 +273,27 @@ def simulated_records(cache: TruthCache, names: list[str], log) -> list[Record]:
         for seed in SEEDS:
             X, y, Xt, yt = scen.make(seed)
             t0 = time.perf_counter()
-            entry = cache.get(f"sim/{name}/seed{seed}/draw0", digest(X, y, Xt, yt),
-                              lambda: {**truth.evaluate(X, y, Xt, yt), "cv": truth.four_model_cv(X, y)})
+            entry = cache.get(
+                f"sim/{name}/seed{seed}/draw0",
+                digest(X, y, Xt, yt),
+                lambda: {**truth.evaluate(X, y, Xt, yt), "cv": truth.four_model_cv(X, y)},
+            )
             draws = [entry["acceptable"]]
             for j in REDRAWS:
                 Xr, yr, Xt2, yt2 = scen.make(seed, train_seed=j)
-                e = cache.get(f"sim/{name}/seed{seed}/draw{j}", digest(Xr, yr, Xt2, yt2), lambda: truth.evaluate(Xr, yr, Xt2, yt2))
+                e = cache.get(
+                    f"sim/{name}/seed{seed}/draw{j}", digest(Xr, yr, Xt2, yt2), lambda: truth.evaluate(Xr, yr, Xt2, yt2)
+                )
                 draws.append(e["acceptable"])
             run = run_audit(X, y)
             est = check_estimator(run, X, y, Xt, yt)
             group = "tuning" if seed % 2 == 0 else "held-out"
             rec = Record(group, name, seed, _shape(X, y), entry, run, draws, est, scen.territory)
             records.append(rec)
-            log(f"{name:24s} seed {seed}  audit {SHORT.get(run.model, run.model):5s} acceptable {_set(entry['acceptable']):18s} "
-                f"regret {rec.regret(run.model):5.2f} pp  ({time.perf_counter() - t0:5.1f} s)")
+            log(
+                f"{name:24s} seed {seed}  audit {SHORT.get(run.model, run.model):5s} acceptable {_set(entry['acceptable']):18s} "
+                f"regret {rec.regret(run.model):5.2f} pp  ({time.perf_counter() - t0:5.1f} s)"
+            )
     return records
 
 
@@ -287,14 +304,17 @@ def open_records(cache: TruthCache, names: list[str], log) -> list[Record]:
         X, y = load()
         t0 = time.perf_counter()
         Xa, ya = X.to_numpy(float), y.to_numpy()
-        entry = cache.get(f"open/{name}", digest(Xa, ya),
-                          lambda: {**truth.evaluate_cv(Xa, ya), "cv": truth.four_model_cv(Xa, ya)})
+        entry = cache.get(
+            f"open/{name}", digest(Xa, ya), lambda: {**truth.evaluate_cv(Xa, ya), "cv": truth.four_model_cv(Xa, ya)}
+        )
         run = run_audit(X, y)
         est = check_estimator(run, X, y)
         rec = Record("open data", name, None, _shape(Xa, ya), entry, run, entry["per_repeat_acceptable"], est, source)
         records.append(rec)
-        log(f"{name:24s} open     audit {SHORT.get(run.model, run.model):5s} acceptable {_set(entry['acceptable']):18s} "
-            f"regret {rec.regret(run.model):5.2f} pp  ({time.perf_counter() - t0:5.1f} s)")
+        log(
+            f"{name:24s} open     audit {SHORT.get(run.model, run.model):5s} acceptable {_set(entry['acceptable']):18s} "
+            f"regret {rec.regret(run.model):5.2f} pp  ({time.perf_counter() - t0:5.1f} s)"
+        )
     return records
 
 
@@ -305,11 +325,18 @@ def quick_records(cache: TruthCache) -> list[dict[str, Any]]:
         acc = {m: entry["models"][m]["accuracy"] for m in truth.MODELS}
         others = np.mean([a for m, a in acc.items() if m != expected])
         run = run_audit(X, y)
-        out.append({
-            "name": name, "expected": expected, "accuracy": acc, "acceptable": entry["acceptable"],
-            "gap_to_others_mean": acc[expected] - others, "in_acceptable": expected in entry["acceptable"],
-            "audit": run.model, "shape": _shape(X, y),
-        })
+        out.append(
+            {
+                "name": name,
+                "expected": expected,
+                "accuracy": acc,
+                "acceptable": entry["acceptable"],
+                "gap_to_others_mean": acc[expected] - others,
+                "in_acceptable": expected in entry["acceptable"],
+                "audit": run.model,
+                "shape": _shape(X, y),
+            }
+        )
     return out
 
 
@@ -356,13 +383,21 @@ def summarize(records: list[Record]) -> dict[str, dict[str, dict[str, float]]]:
                 if not scored:
                     continue
                 reg = [100.0 * (r.best_accuracy - r.estimator["accuracy"]) for r in scored]
-                ok = [r.best_accuracy - r.estimator["accuracy"] <= r.truth["margin"].get(r.audit.model, truth.MIN_MARGIN) + 1e-12
-                      for r in scored]
+                ok = [
+                    r.best_accuracy - r.estimator["accuracy"]
+                    <= r.truth["margin"].get(r.audit.model, truth.MIN_MARGIN) + 1e-12
+                    for r in scored
+                ]
             else:
                 ok = [r.acceptable(_choice(r, s)) for r in rs]
                 reg = [r.regret(_choice(r, s)) for r in rs]
-            out[group][s] = {"n": len(ok), "acceptable": float(np.mean(ok)), "n_ok": int(np.sum(ok)),
-                             "mean_regret": float(np.mean(reg)), "max_regret": float(np.max(reg))}
+            out[group][s] = {
+                "n": len(ok),
+                "acceptable": float(np.mean(ok)),
+                "n_ok": int(np.sum(ok)),
+                "mean_regret": float(np.mean(reg)),
+                "max_regret": float(np.max(reg)),
+            }
     return out
 
 
@@ -385,7 +420,9 @@ def _fmt_s(x: float | None) -> str:
 def _findings_line(run: AuditRun) -> str:
     if run.error:
         return f"audit raised {run.error}"
-    notes = [f"{k} {st}" + (f" ({fig})" if fig else "") for k, (st, fig, _) in run.findings.items() if st in ("warn", "fail")]
+    notes = [
+        f"{k} {st}" + (f" ({fig})" if fig else "") for k, (st, fig, _) in run.findings.items() if st in ("warn", "fail")
+    ]
     rules = ", ".join(run.rules) or "none"
     return f"rules fired: {rules}; warn/fail findings: " + ("; ".join(notes) if notes else "none")
 
@@ -400,16 +437,24 @@ def target_lines(summary) -> list[str]:
     gap = 0.90 - share
     lines.append(
         f"- Held-out acceptable share: {100 * share:.1f}% ({a['n_ok']}/{a['n']}); target 90%: "
-        + ("**met**." if gap <= 1e-12 else f"**missed by {100 * gap:.1f} percentage points** "
-           f"({int(np.ceil(0.9 * a['n'] - a['n_ok']))} more acceptable choices needed).")
+        + (
+            "**met**."
+            if gap <= 1e-12
+            else f"**missed by {100 * gap:.1f} percentage points** "
+            f"({int(np.ceil(0.9 * a['n'] - a['n_ok']))} more acceptable choices needed)."
+        )
     )
     fixed = {s: held[s]["mean_regret"] for s in ("lda", "regularized_lda", "qda", "logistic_regression")}
     best_fixed = min(fixed, key=fixed.get)
     beat = a["mean_regret"] < fixed[best_fixed]
     lines.append(
         f"- Held-out mean regret: audit {a['mean_regret']:.2f} pp; best fixed choice {STRATEGY_LABEL[best_fixed]} "
-        f"{fixed[best_fixed]:.2f} pp: " + ("**met** (below every fixed choice)." if beat else
-                                          f"**missed** by {a['mean_regret'] - fixed[best_fixed]:.2f} pp.")
+        f"{fixed[best_fixed]:.2f} pp: "
+        + (
+            "**met** (below every fixed choice)."
+            if beat
+            else f"**missed** by {a['mean_regret'] - fixed[best_fixed]:.2f} pp."
+        )
     )
     return lines
 
@@ -421,30 +466,37 @@ def _summary_table(summary) -> list[str]:
             if s not in block:
                 continue
             b = block[s]
-            lines.append(f"| {group} (n={b['n']}) | {STRATEGY_LABEL[s]} | {100 * b['acceptable']:.1f}% ({b['n_ok']}/{b['n']}) | "
-                         f"{b['mean_regret']:.2f} | {b['max_regret']:.2f} |")
+            lines.append(
+                f"| {group} (n={b['n']}) | {STRATEGY_LABEL[s]} | {100 * b['acceptable']:.1f}% ({b['n_ok']}/{b['n']}) | "
+                f"{b['mean_regret']:.2f} | {b['max_regret']:.2f} |"
+            )
     return lines
 
 
 def write_report(records, quick_rows, summary, cache: TruthCache, elapsed: float, path: Path) -> str:
-    import discaudit
     import sklearn
+
+    import discaudit
 
     sims = [r for r in records if r.group != "open data"]
     opens = [r for r in records if r.group == "open data"]
     est_available = any(r.estimator.get("status") != "n/a" for r in records)
     L: list[str] = []
     L.append("# Validation study results\n")
-    L.append(f"Written by `benchmarks/validation/study.py` (`make validate`) on {time.strftime('%Y-%m-%d %H:%M')} "
-             f"with discaudit {discaudit.__version__}, scikit-learn {sklearn.__version__}, numpy {np.__version__}, "
-             f"Python {platform.python_version()}. Truth cache: scikit-learn {cache.data.get('sklearn_version')}"
-             + (" (**differs from the installed version: run with `--refresh`**)" if cache.stale_version else "")
-             + f"; {cache.computed} entries computed in this run ({cache.seconds:.0f} s). Study wall time {elapsed:.0f} s.\n")
-    L.append(f"{len(scenarios.SCENARIOS)} simulated scenarios x {len(SEEDS)} seeds (even seeds = tuning, odd = held out), "
-             f"{len(opens)} open data sets. Regret = best test accuracy minus the chosen model's, in percentage points. "
-             "Acceptable = within max(1 pp, 2 SE of the paired accuracy difference) of the best (see README.md). "
-             "The `estimator()` row scores the audit's configured estimator on the test set against the best CV-tuned "
-             "candidate, with the margin of the model type it implements (approximate: no paired SE for it).\n")
+    L.append(
+        f"Written by `benchmarks/validation/study.py` (`make validate`) on {time.strftime('%Y-%m-%d %H:%M')} "
+        f"with discaudit {discaudit.__version__}, scikit-learn {sklearn.__version__}, numpy {np.__version__}, "
+        f"Python {platform.python_version()}. Truth cache: scikit-learn {cache.data.get('sklearn_version')}"
+        + (" (**differs from the installed version: run with `--refresh`**)" if cache.stale_version else "")
+        + f"; {cache.computed} entries computed in this run ({cache.seconds:.0f} s). Study wall time {elapsed:.0f} s.\n"
+    )
+    L.append(
+        f"{len(scenarios.SCENARIOS)} simulated scenarios x {len(SEEDS)} seeds (even seeds = tuning, odd = held out), "
+        f"{len(opens)} open data sets. Regret = best test accuracy minus the chosen model's, in percentage points. "
+        "Acceptable = within max(1 pp, 2 SE of the paired accuracy difference) of the best (see README.md). "
+        "The `estimator()` row scores the audit's configured estimator on the test set against the best CV-tuned "
+        "candidate, with the margin of the model type it implements (approximate: no paired SE for it).\n"
+    )
     L.append("## Summary\n")
     L += _summary_table(summary)
     L.append("")
@@ -455,40 +507,62 @@ def write_report(records, quick_rows, summary, cache: TruthCache, elapsed: float
     L.append(f"## Where the audit's choice is not acceptable ({len(wrong)} of {len(records)})\n")
     for r in wrong:
         where = f"{r.name} seed {r.seed}" if r.seed is not None else f"{r.name} (open)"
-        L.append(f"- **{where}** [{r.group}]: chose {SHORT.get(r.audit.model, r.audit.model)}, acceptable "
-                 f"{_set(r.truth['acceptable'])}, regret {r.regret(r.audit.model):.2f} pp. {_findings_line(r.audit)}")
+        L.append(
+            f"- **{where}** [{r.group}]: chose {SHORT.get(r.audit.model, r.audit.model)}, acceptable "
+            f"{_set(r.truth['acceptable'])}, regret {r.regret(r.audit.model):.2f} pp. {_findings_line(r.audit)}"
+        )
     L.append("")
     L += _why_section(wrong)
     L += _settings_section(sims)
     L.append("## Simulated scenarios, per seed\n")
-    L.append("Accuracies are on the independent test set. Draws: the acceptable set over the primary training draw and "
-             f"{len(REDRAWS)} re-draws (same population and test set); a model acceptable in some draws but not all makes "
-             "the scenario draw-sensitive. Times: the audit's wall time vs. a 5-fold CV of the four candidates "
-             "(each with its inner tuning), both single-threaded.\n")
-    L.append("| scenario | seed | shape | audit | acceptable | acc LDA / rLDA / QDA / LR | regret pp | audit s | 4-model CV s | CV pick | draws |"
-             + (" estimator() |" if est_available else ""))
+    L.append(
+        "Accuracies are on the independent test set. Draws: the acceptable set over the primary training draw and "
+        f"{len(REDRAWS)} re-draws (same population and test set); a model acceptable in some draws but not all makes "
+        "the scenario draw-sensitive. Times: the audit's wall time vs. a 5-fold CV of the four candidates "
+        "(each with its inner tuning), both single-threaded.\n"
+    )
+    L.append(
+        "| scenario | seed | shape | audit | acceptable | acc LDA / rLDA / QDA / LR | regret pp | audit s | 4-model CV s | CV pick | draws |"
+        + (" estimator() |" if est_available else "")
+    )
     L.append("|---|---|---|---|---|---|---|---|---|---|---|" + ("---|" if est_available else ""))
     for r in sims:
-        acc = " / ".join(f"{100 * r.accuracy[m]:.1f}" + ("*" if r.truth["models"][m]["failed"] else "") for m in truth.MODELS)
+        acc = " / ".join(
+            f"{100 * r.accuracy[m]:.1f}" + ("*" if r.truth["models"][m]["failed"] else "") for m in truth.MODELS
+        )
         mark = "" if r.acceptable(r.audit.model) else " **x**"
-        L.append(f"| {r.name} | {r.seed} | {r.shape} | {SHORT.get(r.audit.model, r.audit.model)}{mark} | {_set(r.truth['acceptable'])} | "
-                 f"{acc} | {r.regret(r.audit.model):.2f} | {_fmt_s(r.audit.seconds)} | {_fmt_s(r.cv_seconds)} | "
-                 f"{SHORT.get(r.cv_pick, '-')} | {_draw_text(r)} |" + (f" {_est_text(r.estimator)} |" if est_available else ""))
-    L.append("\n`*` = the model could not be fit (scikit-learn's QDA refuses a class with no more rows than features); "
-             "it is scored as the trivial rule (largest training class) and is never acceptable.\n")
+        L.append(
+            f"| {r.name} | {r.seed} | {r.shape} | {SHORT.get(r.audit.model, r.audit.model)}{mark} | {_set(r.truth['acceptable'])} | "
+            f"{acc} | {r.regret(r.audit.model):.2f} | {_fmt_s(r.audit.seconds)} | {_fmt_s(r.cv_seconds)} | "
+            f"{SHORT.get(r.cv_pick, '-')} | {_draw_text(r)} |"
+            + (f" {_est_text(r.estimator)} |" if est_available else "")
+        )
+    L.append(
+        "\n`*` = the model could not be fit (scikit-learn's QDA refuses a class with no more rows than features); "
+        "it is scored as the trivial rule (largest training class) and is never acceptable.\n"
+    )
     L.append("## Open data sets (repeated stratified cross-validation)\n")
-    L.append("| data set | source | shape | audit | acceptable | acc LDA / rLDA / QDA / LR | regret pp | audit s | 4-model CV s | CV pick | repeats |"
-             + (" estimator() |" if est_available else ""))
+    L.append(
+        "| data set | source | shape | audit | acceptable | acc LDA / rLDA / QDA / LR | regret pp | audit s | 4-model CV s | CV pick | repeats |"
+        + (" estimator() |" if est_available else "")
+    )
     L.append("|---|---|---|---|---|---|---|---|---|---|---|" + ("---|" if est_available else ""))
     for r in opens:
-        acc = " / ".join(f"{100 * r.accuracy[m]:.1f}" + ("*" if r.truth["models"][m]["failed"] else "") for m in truth.MODELS)
+        acc = " / ".join(
+            f"{100 * r.accuracy[m]:.1f}" + ("*" if r.truth["models"][m]["failed"] else "") for m in truth.MODELS
+        )
         mark = "" if r.acceptable(r.audit.model) else " **x**"
-        L.append(f"| {r.name} | {r.territory} | {r.shape} | {SHORT.get(r.audit.model, r.audit.model)}{mark} | {_set(r.truth['acceptable'])} | "
-                 f"{acc} | {r.regret(r.audit.model):.2f} | {_fmt_s(r.audit.seconds)} | {_fmt_s(r.cv_seconds)} | "
-                 f"{SHORT.get(r.cv_pick, '-')} | {_draw_text(r)} |" + (f" {_est_text(r.estimator)} |" if est_available else ""))
+        L.append(
+            f"| {r.name} | {r.territory} | {r.shape} | {SHORT.get(r.audit.model, r.audit.model)}{mark} | {_set(r.truth['acceptable'])} | "
+            f"{acc} | {r.regret(r.audit.model):.2f} | {_fmt_s(r.audit.seconds)} | {_fmt_s(r.cv_seconds)} | "
+            f"{SHORT.get(r.cv_pick, '-')} | {_draw_text(r)} |"
+            + (f" {_est_text(r.estimator)} |" if est_available else "")
+        )
     scheme = opens[0].truth.get("scheme", "") if opens else ""
-    L.append(f"\nScheme: {scheme}, per-row correctness averaged over repeats; 'repeats' compares the acceptable set of each "
-             "repeat alone. The audit sees the whole data set; the 4-model CV time is one 5-fold CV on the whole data set.\n")
+    L.append(
+        f"\nScheme: {scheme}, per-row correctness averaged over repeats; 'repeats' compares the acceptable set of each "
+        "repeat alone. The audit sees the whole data set; the 4-model CV time is one 5-fold CV on the whole data set.\n"
+    )
     sens = sorted({r.name for r in records if r.draw_sensitive})
     L.append(f"## Draw-sensitive scenarios ({len(sens)})\n")
     L.append(", ".join(sens) if sens else "none")
@@ -498,18 +572,24 @@ def write_report(records, quick_rows, summary, cache: TruthCache, elapsed: float
         L.append("Skipped: this version's `Recommendation` has no `estimator()` method yet.\n")
     else:
         bad = [r for r in records if r.estimator.get("status") not in ("ok", "n/a")]
-        L.append(f"Fitted on the training rows of every scenario+seed and on every open data set: {len(records) - len(bad)} ok, "
-                 f"{len(bad)} with an error or a ConvergenceWarning.\n")
+        L.append(
+            f"Fitted on the training rows of every scenario+seed and on every open data set: {len(records) - len(bad)} ok, "
+            f"{len(bad)} with an error or a ConvergenceWarning.\n"
+        )
         for r in bad:
             L.append(f"- {r.name} seed {r.seed}: {r.estimator['status']}: {r.estimator.get('message', '')}")
         L.append("")
     L.append("## Quick scenarios (`quick.py`, for the end-to-end test)\n")
-    L.append("| case | shape | expected | acc LDA / rLDA / QDA / LR | acceptable | expected minus mean of others (pp) | audit today |")
+    L.append(
+        "| case | shape | expected | acc LDA / rLDA / QDA / LR | acceptable | expected minus mean of others (pp) | audit today |"
+    )
     L.append("|---|---|---|---|---|---|---|")
     for q in quick_rows:
         acc = " / ".join(f"{100 * q['accuracy'][m]:.1f}" for m in truth.MODELS)
-        L.append(f"| {q['name']} | {q['shape']} | {SHORT[q['expected']]} | {acc} | {_set(q['acceptable'])} | "
-                 f"{100 * q['gap_to_others_mean']:.1f} | {SHORT.get(q['audit'], q['audit'])} |")
+        L.append(
+            f"| {q['name']} | {q['shape']} | {SHORT[q['expected']]} | {acc} | {_set(q['acceptable'])} | "
+            f"{100 * q['gap_to_others_mean']:.1f} | {SHORT.get(q['audit'], q['audit'])} |"
+        )
     L.append("")
     L.append("## Scenario catalogue\n")
     L.append("| scenario | territory | training rows per class | test rows |")
@@ -522,7 +602,14 @@ def write_report(records, quick_rows, summary, cache: TruthCache, elapsed: float
         L.append("## Warnings that escaped `preflight`\n")
         L += [f"- {w}" for w in escaped]
         L.append("")
-    conv = sorted({f"{r.name}: {m}: {w}" for r in records for m, v in r.truth["models"].items() for w in v.get("convergence_warnings", [])})
+    conv = sorted(
+        {
+            f"{r.name}: {m}: {w}"
+            for r in records
+            for m, v in r.truth["models"].items()
+            for w in v.get("convergence_warnings", [])
+        }
+    )
     L.append("## Truth fits: convergence\n")
     L.append("No ConvergenceWarning in any truth fit." if not conv else "\n".join(f"- {c}" for c in conv))
     L.append("")
@@ -538,9 +625,11 @@ def _why_section(wrong: list[Record]) -> list[str]:
         groups.setdefault((r.audit.model, r.audit.rules[0] if r.audit.rules else "no rule fired"), []).append(r)
     if not groups:
         return []
-    L = ["### Why: misses by the rule that chose the model\n",
-         "| chosen | deciding rule | misses (tuning / held-out / open) | total regret pp | truth preferred | scenarios |",
-         "|---|---|---|---|---|---|"]
+    L = [
+        "### Why: misses by the rule that chose the model\n",
+        "| chosen | deciding rule | misses (tuning / held-out / open) | total regret pp | truth preferred | scenarios |",
+        "|---|---|---|---|---|---|",
+    ]
     for (model, rule), rs in sorted(groups.items(), key=lambda kv: -sum(r.regret(r.audit.model) for r in kv[1])):
         counts = " / ".join(str(sum(r.group == g for r in rs)) for g in GROUPS)
         preferred = {}
@@ -548,8 +637,10 @@ def _why_section(wrong: list[Record]) -> list[str]:
             preferred[r.truth["best"]] = preferred.get(r.truth["best"], 0) + 1
         pref = ", ".join(f"{SHORT[m]} {c}" for m, c in sorted(preferred.items(), key=lambda kv: -kv[1]))
         names = ", ".join(sorted({r.name for r in rs}))
-        L.append(f"| {SHORT.get(model, model)} | {rule} | {counts} | {sum(r.regret(r.audit.model) for r in rs):.1f} | "
-                 f"best: {pref} | {names} |")
+        L.append(
+            f"| {SHORT.get(model, model)} | {rule} | {counts} | {sum(r.regret(r.audit.model) for r in rs):.1f} | "
+            f"best: {pref} | {names} |"
+        )
     L.append("")
     return L
 
@@ -564,17 +655,22 @@ def _settings_section(sims: list[Record]) -> list[str]:
         rows.setdefault(r.audit.model, []).append((100.0 * (r.accuracy[r.audit.model] - acc), r))
     if not rows:
         return []
-    L = ["### Suggested settings vs. CV-tuned settings\n",
-         "Test accuracy of the CV-tuned candidate minus that of `recommendation.estimator()` (same model type, the "
-         "audit's own settings), simulated scenarios; positive = the suggested settings lose accuracy.\n",
-         "| model | n | mean pp | worst pp (scenario seed) |", "|---|---|---|---|"]
+    L = [
+        "### Suggested settings vs. CV-tuned settings\n",
+        "Test accuracy of the CV-tuned candidate minus that of `recommendation.estimator()` (same model type, the "
+        "audit's own settings), simulated scenarios; positive = the suggested settings lose accuracy.\n",
+        "| model | n | mean pp | worst pp (scenario seed) |",
+        "|---|---|---|---|",
+    ]
     for model in truth.MODELS:
         if model not in rows:
             continue
         diffs = rows[model]
         worst = max(diffs, key=lambda t: t[0])
-        L.append(f"| {SHORT[model]} | {len(diffs)} | {np.mean([d for d, _ in diffs]):.2f} | "
-                 f"{worst[0]:.2f} ({worst[1].name} {worst[1].seed}) |")
+        L.append(
+            f"| {SHORT[model]} | {len(diffs)} | {np.mean([d for d, _ in diffs]):.2f} | "
+            f"{worst[0]:.2f} ({worst[1].name} {worst[1].seed}) |"
+        )
     L.append("")
     return L
 
@@ -597,7 +693,9 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--write", action="store_true", help="write RESULTS.md even with --only")
     parser.add_argument("--quiet", action="store_true", help="no per-scenario progress lines")
     parser.add_argument("--results", type=Path, default=RESULTS_PATH, help="report file (default: RESULTS.md here)")
-    parser.add_argument("--cache", type=Path, default=CACHE_PATH, help="truth cache file (default: truth_cache.json here)")
+    parser.add_argument(
+        "--cache", type=Path, default=CACHE_PATH, help="truth cache file (default: truth_cache.json here)"
+    )
     args = parser.parse_args(argv)
 
     from threadpoolctl import threadpool_limits
@@ -626,11 +724,15 @@ def main(argv: list[str] | None = None) -> int:
     print(f"\nNot acceptable: {len(wrong)} of {len(records)}")
     for r in wrong:
         where = f"seed {r.seed}" if r.seed is not None else "(open)"
-        print(f"  {r.name} {where} [{r.group}]: {SHORT.get(r.audit.model, r.audit.model)} vs {_set(r.truth['acceptable'])} "
-              f"({r.regret(r.audit.model):.2f} pp)")
+        print(
+            f"  {r.name} {where} [{r.group}]: {SHORT.get(r.audit.model, r.audit.model)} vs {_set(r.truth['acceptable'])} "
+            f"({r.regret(r.audit.model):.2f} pp)"
+        )
     for q in quick_rows:
-        print(f"quick {q['name']}: expected {q['expected']} acceptable={q['in_acceptable']} "
-              f"lead over others' mean {100 * q['gap_to_others_mean']:.1f} pp; audit {q['audit']}")
+        print(
+            f"quick {q['name']}: expected {q['expected']} acceptable={q['in_acceptable']} "
+            f"lead over others' mean {100 * q['gap_to_others_mean']:.1f} pp; audit {q['audit']}"
+        )
     print(f"\n{cache.computed} truth entries computed ({cache.seconds:.0f} s); wall time {elapsed:.0f} s")
     return 0
 

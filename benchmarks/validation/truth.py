@@ -79,7 +79,11 @@ class TunedQDA(ClassifierMixin, BaseEstimator):
                     with warnings.catch_warnings():
                         warnings.simplefilter("ignore")
                         with np.errstate(all="ignore"):
-                            proba = QuadraticDiscriminantAnalysis(reg_param=reg).fit(X[train], y[train]).predict_proba(X[test])
+                            proba = (
+                                QuadraticDiscriminantAnalysis(reg_param=reg)
+                                .fit(X[train], y[train])
+                                .predict_proba(X[test])
+                            )
                     if not np.all(np.isfinite(proba)):
                         raise FloatingPointError("non-finite probabilities")
                     losses[i] += log_loss(y[test], proba, labels=labels)
@@ -114,7 +118,9 @@ def candidates(y: np.ndarray, random_state: int = 0) -> dict[str, Any]:
     front = (VarianceThreshold(), StandardScaler())
     return {
         "lda": make_pipeline(*map(clone, front), LinearDiscriminantAnalysis()),
-        "regularized_lda": make_pipeline(*map(clone, front), LinearDiscriminantAnalysis(solver="lsqr", shrinkage="auto")),
+        "regularized_lda": make_pipeline(
+            *map(clone, front), LinearDiscriminantAnalysis(solver="lsqr", shrinkage="auto")
+        ),
         "qda": make_pipeline(*map(clone, front), TunedQDA(n_splits=k, random_state=random_state)),
         "logistic_regression": make_pipeline(*map(clone, front), lr),
     }
@@ -254,8 +260,13 @@ def evaluate_cv(X, y, n_repeats: int = 3, n_splits: int = 5, random_state: int =
     pooled = acceptable_set({m: hits[m].mean(axis=0) for m in MODELS}, failed)
     per_repeat = [acceptable_set({m: hits[m][r] for m in MODELS}, failed)["acceptable"] for r in range(n_repeats)]
     trivial = float(np.max(np.unique(y, return_counts=True)[1]) / n)
-    return {"models": models, **pooled, "per_repeat_acceptable": per_repeat, "trivial_accuracy": trivial,
-            "scheme": f"{n_repeats}x{n_splits} stratified CV"}
+    return {
+        "models": models,
+        **pooled,
+        "per_repeat_acceptable": per_repeat,
+        "trivial_accuracy": trivial,
+        "scheme": f"{n_repeats}x{n_splits} stratified CV",
+    }
 
 
 def _summarize_chosen(items: list[dict[str, float]]) -> dict[str, Any]:
@@ -279,7 +290,9 @@ def four_model_cv(X, y, n_splits: int = 5, random_state: int = 0) -> dict[str, A
             est = candidates(y[train], random_state)[name]
             res = fit_and_predict(name, est, X[train], y[train], X[test])
             scores.append(np.nan if res["failed"] else float(np.mean(res["pred"] == y[test])))
-        acc[name] = float(np.nanmean(scores)) if np.isfinite(scores).any() and not np.isnan(scores).any() else float("nan")
+        acc[name] = (
+            float(np.nanmean(scores)) if np.isfinite(scores).any() and not np.isnan(scores).any() else float("nan")
+        )
     seconds = time.perf_counter() - start
     usable = {m: a for m, a in acc.items() if np.isfinite(a)}
     pick = max(MODELS, key=lambda m: usable.get(m, -1.0))

@@ -10,7 +10,7 @@ from discaudit.config import Config
 from discaudit.findings import Finding, fmt, names
 from discaudit.intake import AuditData
 from discaudit.stats.condition_indices import ConditionIndicesResult, condition_indices_from_covariance
-from discaudit.stats.shrinkage import class_centred_fourth_sum, ledoit_wolf_intensity
+from discaudit.stats.shrinkage import pooled_ledoit_wolf
 from discaudit.stats.shrinkage_retention import shrinkage_retention
 from discaudit.stats.vif import vif_from_covariance
 
@@ -50,7 +50,7 @@ def _dependencies(ci: ConditionIndicesResult, features: list[str], config: Confi
                     "condition_index": float(ci.indices[high[0]]),
                     "features": [features[j] for j in involved],
                     "proportions": {features[j]: float(combined[j]) for j in involved},
-                    "dimensions": int(len(high)),
+                    "dimensions": len(high),
                 }
             )
     return out
@@ -81,12 +81,8 @@ def _combination_text(terms: dict[str, float]) -> str:
 def _shrinkage(data: AuditData) -> dict[str, Any]:
     """Ledoit-Wolf intensities of the pooled within-class covariance, raw and standardized."""
     m = data.moments
-    W, N = m.within_scatter, m.n_total
-    scale = np.sqrt(np.diag(W) / N)
-    raw = ledoit_wolf_intensity(W, N, class_centred_fourth_sum(data.values, data.codes, m.means))
-    standardized = ledoit_wolf_intensity(
-        W / np.outer(scale, scale), N, class_centred_fourth_sum(data.values, data.codes, m.means, scale)
-    )
+    raw = pooled_ledoit_wolf(data.values, data.codes, m, standardize=False)
+    standardized = pooled_ledoit_wolf(data.values, data.codes, m, standardize=True)
     retention = shrinkage_retention(m, standardized)
     return {
         "retained_separation": None if retention is None else retention.retained,
@@ -188,4 +184,6 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             details,
             figure,
         )
-    return Finding(KEY, "pass", f"No collinearity of note: max VIF {fmt(max_vif)}, condition number {fmt(cond)}.", details, figure)
+    return Finding(
+        KEY, "pass", f"No collinearity of note: max VIF {fmt(max_vif)}, condition number {fmt(cond)}.", details, figure
+    )

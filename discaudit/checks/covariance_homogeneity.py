@@ -66,7 +66,10 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     """
     m = data.moments
     arrays = _plane_arrays(m)
-    logdets = [logdet_spd(S) for S in m.class_covariances()]
+    logdets = [
+        logdet_spd(S) if n > m.n_features else float("-inf")
+        for n, S in zip(m.counts, m.class_covariances(), strict=True)
+    ]
     ok = np.array([np.isfinite(v) for v in logdets])
     excluded = [label(c) for c, good in zip(m.classes, ok, strict=True) if not good]
     details: dict[str, Any] = {
@@ -86,7 +89,9 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             arrays,
         )
     if not np.isfinite(logdet_spd(m.pooled_covariance)):
-        return Finding(KEY, "skip", "The pooled covariance is singular (see collinearity); Box's M is undefined.", details, "-")
+        return Finding(
+            KEY, "skip", "The pooled covariance is singular (see collinearity); Box's M is undefined.", details, "-"
+        )
     sub = ClassMoments(
         tuple(c for c, good in zip(m.classes, ok, strict=True) if good), m.counts[ok], m.means[ok], m.scatter[ok]
     )
@@ -131,16 +136,32 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         return Finding(
             KEY,
             "fail",
-            f"Class covariances differ, most in class {sub.classes[worst]}, by more than their extra parameters cost" + tail + ".",
+            f"Class covariances differ, most in class {sub.classes[worst]}, by more than their extra parameters cost"
+            + tail
+            + ".",
             details,
             figure,
             arrays,
         )
     if rejects:
         return Finding(
-            KEY, "warn", "Box's M detects unequal covariances, but separate covariances do not pay for their parameters" + tail + ".", details, figure, arrays
+            KEY,
+            "warn",
+            "Box's M detects unequal covariances, but separate covariances do not pay for their parameters"
+            + tail
+            + ".",
+            details,
+            figure,
+            arrays,
         )
     if favours_separate:
-        return Finding(KEY, "warn", "BIC favours separate covariances though Box's M does not reject" + tail + ".", details, figure, arrays)
+        return Finding(
+            KEY,
+            "warn",
+            "BIC favours separate covariances though Box's M does not reject" + tail + ".",
+            details,
+            figure,
+            arrays,
+        )
     status = "warn" if excluded else "pass"
     return Finding(KEY, status, "No evidence that class covariances differ" + tail + ".", details, figure, arrays)

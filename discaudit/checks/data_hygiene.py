@@ -64,4 +64,6 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         notes.append(f"class {first[0]} has constant {names(first[1])}, so its covariance is singular")
     if notes:
         return Finding(KEY, "warn", sentence(notes), details, figure=f"{len(notes)} note(s)")
-    return Finding(KEY, "pass", f"All {data.p} features are numeric, finite and vary; no rows dropped.", details, "clean")
+    return Finding(
+        KEY, "pass", f"All {data.p} features are numeric, finite and vary; no rows dropped.", details, "clean"
+    )

@@ -25,8 +25,13 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     try:
         w = wilks_lambda_from_moments(data.moments)
     except DataError as exc:
-        return Finding(KEY, "skip", "The pooled covariance is singular (see collinearity); Wilks' Lambda is undefined.",
-                       {"reason": str(exc)}, "-")
+        return Finding(
+            KEY,
+            "skip",
+            "The pooled covariance is singular (see collinearity); Wilks' Lambda is undefined.",
+            {"reason": str(exc)},
+            "-",
+        )
     share = w.eigenvalues / w.eigenvalues.sum() if w.eigenvalues.sum() > 0 else np.zeros_like(w.eigenvalues)
     details: dict[str, Any] = {
         "wilks_lambda": w.statistic,

@@ -229,7 +229,8 @@ def judge(
             "mean_shift_beyond_noise": excess_shift,
             "masked_by_classical": out.masked,
             "excess_flagged_p_value": float(sps.binom.sf(out.n_flagged - 1, out.n, 1.0 - config.outlier_quantile))
-            if out.n else 1.0,
+            if out.n
+            else 1.0,
         }
     ld_classical = logdet_spd(pooled)
     ld_robust = logdet_spd(robust_scatter / (m.n_total - m.n_classes))
@@ -270,8 +271,14 @@ def judge(
     flagged_text = _examples(per_class)
     big_excess = bool(np.isfinite(excess) and excess > config.outlier_logdet_fail)
     if max_shift > config.outlier_mean_shift_fail or big_excess:
-        return Finding(KEY, "fail", f"{total} rows lie far from their class ({flagged_text}) and distort LDA's estimates: "
-                       f"{influence}.", details, figure, arrays)
+        return Finding(
+            KEY,
+            "fail",
+            f"{total} rows lie far from their class ({flagged_text}) and distort LDA's estimates: {influence}.",
+            details,
+            figure,
+            arrays,
+        )
     wide = any(
         v["fraction_flagged"] > config.outlier_fraction_warn and v["excess_flagged_p_value"] < 0.001
         for v in per_class.values()
@@ -279,9 +286,17 @@ def judge(
     some_excess = bool(np.isfinite(excess) and excess > config.outlier_logdet_warn)
     if max_shift > config.outlier_mean_shift_warn or some_excess or wide:
         share = f"{fmt(100 * fractions[worst_class], 2)}% of class {worst_class} flagged; " if wide else ""
-        return Finding(KEY, "warn", f"{total} rows flagged ({flagged_text}); {share}{influence}.", details, figure, arrays)
-    return Finding(KEY, "pass", f"{total} rows beyond the cut-off, about what a Gaussian tail gives, with little "
-                   f"influence ({influence}).", details, figure, arrays)
+        return Finding(
+            KEY, "warn", f"{total} rows flagged ({flagged_text}); {share}{influence}.", details, figure, arrays
+        )
+    return Finding(
+        KEY,
+        "pass",
+        f"{total} rows beyond the cut-off, about what a Gaussian tail gives, with little influence ({influence}).",
+        details,
+        figure,
+        arrays,
+    )
 
 
 def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
@@ -300,8 +315,13 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     discrete = [f for f in data.features if f in data.distinct_counts]
     data = continuous_part(data)
     if discrete and len(discrete) == len(data.features):
-        return Finding(KEY, "skip", "Every feature is discrete, so distances from a class centre say nothing about "
-                       "outlying rows.", {"discrete_features_left_out": discrete}, "-")
+        return Finding(
+            KEY,
+            "skip",
+            "Every feature is discrete, so distances from a class centre say nothing about outlying rows.",
+            {"discrete_features_left_out": discrete},
+            "-",
+        )
     fits, distances = fit_classes(data, config, random_state)
     n = data.n
     arrays: dict[str, Any] = {
@@ -330,6 +350,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
 
 def _examples(per_class: dict[Any, Any]) -> str:
     rows = sorted(
-        ((r["distance"], str(r["row"]), c) for c, v in per_class.items() for r in v.get("flagged_rows", [])), reverse=True
+        ((r["distance"], str(r["row"]), c) for c, v in per_class.items() for r in v.get("flagged_rows", [])),
+        reverse=True,
     )
     return "farthest " + names([f"{row} ({c})" for _, row, c in rows], 3) if rows else "none"

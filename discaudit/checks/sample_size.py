@@ -48,7 +48,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         },
     }
     figure = f"N/p = {fmt(rows_per_feature)}"
-    if N - K <= p:
+    if p >= N - K:
         return Finding(
             KEY,
             "fail",

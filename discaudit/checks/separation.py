@@ -4,7 +4,6 @@ from __future__ import annotations
 
 from typing import Any
 
-import numpy as np
 import pandas as pd
 
 from discaudit._plain import label
@@ -76,5 +75,10 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             details,
             f"{len(quasi)} quasi-complete",
         )
-    return Finding(KEY, "pass", "No class is linearly separable from the others; logistic regression's estimate exists.",
-                   details, "overlap")
+    return Finding(
+        KEY,
+        "pass",
+        "No class is linearly separable from the others; logistic regression's estimate exists.",
+        details,
+        "overlap",
+    )

@@ -54,7 +54,7 @@ _INSTALL_HINT = (
 def require_matplotlib() -> None:
     """Raise ImportError with an install hint when matplotlib is missing."""
     try:
-        import matplotlib  # noqa: F401
+        import matplotlib
         import matplotlib.figure  # noqa: F401
     except ImportError as exc:
         raise ImportError(_INSTALL_HINT) from exc
@@ -121,7 +121,9 @@ def plot_verdict(verdict: Verdict, check: str | None = None, ax: Axes | None = N
     if check is not None and check not in PLOTTED_CHECKS:
         raise ValueError(f"No plot for check {check!r}; plots exist for: {', '.join(PLOTTED_CHECKS)}.")
     if check is None and ax is not None:
-        raise ValueError("The overview (check=None) draws several panels and cannot use one axes; pass check=... with ax.")
+        raise ValueError(
+            "The overview (check=None) draws several panels and cannot use one axes; pass check=... with ax."
+        )
     require_matplotlib()
     from discaudit.plot import _common
 

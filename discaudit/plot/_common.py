@@ -68,7 +68,13 @@ def note(ax: Axes, body: str, loc: str = "lower right") -> None:
     x, ha = (0.98, "right") if "right" in loc else (0.02, "left")
     y, va = (0.02, "bottom") if "lower" in loc else (0.98, "top")
     ax.text(
-        x, y, body, transform=ax.transAxes, ha=ha, va=va, fontsize=7,
+        x,
+        y,
+        body,
+        transform=ax.transAxes,
+        ha=ha,
+        va=va,
+        fontsize=7,
         bbox={"boxstyle": "round,pad=0.3", "facecolor": "white", "edgecolor": "#BBBBBB", "alpha": 0.9},
     )
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
+from matplotlib.artist import Artist
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
@@ -50,15 +51,21 @@ def draw(verdict: Any, ax: Axes) -> None:
     pos = np.arange(len(names))[::-1]
     for y, name, v, s in zip(pos, names, values, shown, strict=True):
         colour, hatch, _ = c.LEVELS[_level(v, warn, fail)]
-        ax.barh(y, s, color=colour, hatch=hatch, edgecolor="black", linewidth=0.5,
-                height=0.7, gid=f"vif-bar:{name}")
+        ax.barh(y, s, color=colour, hatch=hatch, edgecolor="black", linewidth=0.5, height=0.7, gid=f"vif-bar:{name}")
         if not np.isfinite(v):
             ax.text(s, y, " inf", va="center", fontsize=7)
     ax.set_xscale("log")
     totals = [(y, float(total[n])) for y, n in zip(pos, names, strict=True) if total.get(n) is not None]
     if totals:
-        ax.plot([t for _, t in totals], [y for y, _ in totals], marker="|", markersize=9, color="black", linestyle="none",
-                gid="vif-total")
+        ax.plot(
+            [t for _, t in totals],
+            [y for y, _ in totals],
+            marker="|",
+            markersize=9,
+            color="black",
+            linestyle="none",
+            gid="vif-total",
+        )
     ax.axvline(warn, color=c.GREY, linestyle="--", linewidth=1.0, gid="vif-warn")
     ax.axvline(fail, color=c.GREY, linestyle="-", linewidth=1.2, gid="vif-fail")
     ax.set_yticks(pos, labels=[c.short(n, 22) for n in names], fontsize=7)
@@ -70,32 +77,49 @@ def draw(verdict: Any, ax: Axes) -> None:
     for i, dep in enumerate(deps[:MAX_DEPENDENCIES], start=1):
         for feature in dep.get("features", []):
             tags.setdefault(str(feature), []).append(str(i))
-        lines.append(f"[{i}] index {fmt(dep.get('condition_index'))}: "
-                     + ", ".join(c.short(f, 16) for f in dep.get("features", [])[:6])
-                     + (" ..." if len(dep.get("features", [])) > 6 else ""))
+        lines.append(
+            f"[{i}] index {fmt(dep.get('condition_index'))}: "
+            + ", ".join(c.short(f, 16) for f in dep.get("features", [])[:6])
+            + (" ..." if len(dep.get("features", [])) > 6 else "")
+        )
     for y, name, s in zip(pos, names, shown, strict=True):
         if name in tags:
-            ax.annotate("[" + ",".join(tags[name]) + "]", (s, y), xytext=(3, -3), textcoords="offset points", fontsize=7,
-                        gid=f"dependency-tag:{name}")
+            ax.annotate(
+                "[" + ",".join(tags[name]) + "]",
+                (s, y),
+                xytext=(3, -3),
+                textcoords="offset points",
+                fontsize=7,
+                gid=f"dependency-tag:{name}",
+            )
     ci_warn = th.get("condition_index_warn", 10)
     prop = th.get("variance_proportion", 0.5)
     if lines:
         head = f"near dependencies (condition index > {fmt(ci_warn)}, variance proportion > {fmt(prop)}):"
         body = "\n".join([head, *lines])
     else:
-        body = (f"no near dependency joins two or more features\n(condition index > {fmt(ci_warn)}, "
-                f"variance proportion > {fmt(prop)})")
+        body = (
+            f"no near dependency joins two or more features\n(condition index > {fmt(ci_warn)}, "
+            f"variance proportion > {fmt(prop)})"
+        )
     body += f"\ncondition number {fmt(details.get('condition_number'))}"
     for combo in (details.get("vanishing_combinations") or [])[:2]:
         body += "\nexact dependency: " + ", ".join(c.short(k, 14) for k in list(combo)[:5])
     if hidden:
         body += f"\n{hidden} features with smaller VIF not shown"
     c.note(ax, body, loc="lower right")
-    handles = [Patch(facecolor=c.LEVELS[lv][0], hatch=c.LEVELS[lv][1], edgecolor="black", label=label)
-               for lv, label in (("pass", f"VIF <= {fmt(warn)}"), ("warn", f"{fmt(warn)} < VIF <= {fmt(fail)} (worth a look)"),
-                                 ("fail", f"VIF > {fmt(fail)} (serious)"))]
-    handles += [Line2D([], [], color=c.GREY, linestyle="--", label=f"{fmt(warn)}: worth a look"),
-                Line2D([], [], color=c.GREY, linestyle="-", label=f"{fmt(fail)}: serious")]
+    handles: list[Artist] = [
+        Patch(facecolor=c.LEVELS[lv][0], hatch=c.LEVELS[lv][1], edgecolor="black", label=label)
+        for lv, label in (
+            ("pass", f"VIF <= {fmt(warn)}"),
+            ("warn", f"{fmt(warn)} < VIF <= {fmt(fail)} (worth a look)"),
+            ("fail", f"VIF > {fmt(fail)} (serious)"),
+        )
+    ]
+    handles += [
+        Line2D([], [], color=c.GREY, linestyle="--", label=f"{fmt(warn)}: worth a look"),
+        Line2D([], [], color=c.GREY, linestyle="-", label=f"{fmt(fail)}: serious"),
+    ]
     if totals:
         handles.append(Line2D([], [], marker="|", color="black", linestyle="none", label="VIF ignoring classes"))
     ax.legend(handles=handles, fontsize=6.5, loc="upper right")

@@ -89,21 +89,58 @@ def draw(verdict: Any, ax: Axes, centred: bool = False) -> None:
         colour = c.class_color(k)
         if np.all(np.isfinite(covs[k])):
             w, h, angle = ellipse_geometry(covs[k])
-            ax.add_patch(Ellipse(means[k], w, h, angle=angle, fill=False, edgecolor=colour, linewidth=1.6,
-                                 linestyle="-", gid=f"ellipse:classical:{k}"))
+            ax.add_patch(
+                Ellipse(
+                    means[k],
+                    w,
+                    h,
+                    angle=angle,
+                    fill=False,
+                    edgecolor=colour,
+                    linewidth=1.6,
+                    linestyle="-",
+                    gid=f"ellipse:classical:{k}",
+                )
+            )
         if k in robust:
             centre, cov = robust[k]
             w, h, angle = ellipse_geometry(cov)
-            ax.add_patch(Ellipse(centre, w, h, angle=angle, fill=False, edgecolor=colour, linewidth=1.2,
-                                 linestyle="--", gid=f"ellipse:robust:{k}"))
-        ax.plot(*means[k], marker=c.class_marker(k), color=colour, markeredgecolor="black", markersize=7,
-                linestyle="none", label=c.short(name), gid=f"centre:{k}")
+            ax.add_patch(
+                Ellipse(
+                    (float(centre[0]), float(centre[1])),
+                    w,
+                    h,
+                    angle=angle,
+                    fill=False,
+                    edgecolor=colour,
+                    linewidth=1.2,
+                    linestyle="--",
+                    gid=f"ellipse:robust:{k}",
+                )
+            )
+        ax.plot(
+            *means[k],
+            marker=c.class_marker(k),
+            color=colour,
+            markeredgecolor="black",
+            markersize=7,
+            linestyle="none",
+            label=c.short(name),
+            gid=f"centre:{k}",
+        )
         if np.all(np.isfinite(covs[k])):
             # name each ellipse on its outline too, at a different angle per class
             t = 2.0 * np.pi * k / max(len(classes), 1) + np.pi / 4.0
-            ax.annotate(c.short(name, 16), means[k] + boundary_point(covs[k], t), fontsize=7, color="black",
-                        ha="center", va="center", gid=f"ellipse-label:{k}",
-                        bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": colour, "linewidth": 0.6})
+            ax.annotate(
+                c.short(name, 16),
+                means[k] + boundary_point(covs[k], t),
+                fontsize=7,
+                color="black",
+                ha="center",
+                va="center",
+                gid=f"ellipse-label:{k}",
+                bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": colour, "linewidth": 0.6},
+            )
     ax.autoscale_view()
     ax.set_aspect("equal", adjustable="datalim")
     labels = arrays.get("plane_axis_labels", ("axis 1", "axis 2"))

@@ -42,8 +42,17 @@ def _series(verdict: Any) -> list[tuple[int, str, np.ndarray]]:
 
 def _qq(ax: Axes, k: int, name: str, d: np.ndarray, p: int) -> float:
     q = qq_quantiles(d.size, p)
-    ax.scatter(q, d, s=10, marker=c.class_marker(k), facecolors="none", edgecolors=c.class_color(k), linewidths=0.7,
-               label=c.short(name), gid=f"normal-qq:{k}")
+    ax.scatter(
+        q,
+        d,
+        s=10,
+        marker=c.class_marker(k),
+        facecolors="none",
+        edgecolors=c.class_color(k),
+        linewidths=0.7,
+        label=c.short(name),
+        gid=f"normal-qq:{k}",
+    )
     return float(q.max()) if q.size else 0.0
 
 
@@ -53,8 +62,13 @@ def _finish(ax: Axes, p: int, top: float, verdict: Any) -> None:
     ax.set_ylabel("classical squared distance, sorted")
     discrete = verdict.findings[KEY].details.get("discrete_features") or []
     if discrete:
-        c.note(ax, "distances include the discrete features " + ", ".join(c.short(f, 16) for f in discrete[:4])
-               + (" ..." if len(discrete) > 4 else ""), loc="lower right")
+        c.note(
+            ax,
+            "distances include the discrete features "
+            + ", ".join(c.short(f, 16) for f in discrete[:4])
+            + (" ..." if len(discrete) > 4 else ""),
+            loc="lower right",
+        )
 
 
 def draw(verdict: Any, ax: Axes) -> None:
@@ -81,11 +95,18 @@ def draw_figure(verdict: Any) -> Figure:
         _finish(ax, p, top, verdict)
         info = per_class.get(name, {})
         if "status" in info:
-            ax.set_title(f"Normality, class {c.short(name, 20)} [{status_label(info['status'])}: {info.get('grade', '')}]",
-                         loc="left", fontsize=10)
-            c.note(ax, f"Mardia kurtosis {fmt(info.get('mardia_kurtosis_ratio'))} x normal\n"
-                       f"|skewness| up to {fmt(info.get('max_abs_skewness'))} ({c.short(info.get('max_abs_skewness_feature', ''), 16)})\n"
-                       f"Henze-Zirkler p = {fmt(info.get('henze_zirkler_p_value'), 2)}", loc="upper left")
+            ax.set_title(
+                f"Normality, class {c.short(name, 20)} [{status_label(info['status'])}: {info.get('grade', '')}]",
+                loc="left",
+                fontsize=10,
+            )
+            c.note(
+                ax,
+                f"Mardia kurtosis {fmt(info.get('mardia_kurtosis_ratio'))} x normal\n"
+                f"|skewness| up to {fmt(info.get('max_abs_skewness'))} ({c.short(info.get('max_abs_skewness_feature', ''), 16)})\n"
+                f"Henze-Zirkler p = {fmt(info.get('henze_zirkler_p_value'), 2)}",
+                loc="upper left",
+            )
         else:
             ax.set_title(f"Normality, class {c.short(name, 20)} [tests not run]", loc="left", fontsize=10)
             if info.get("skipped"):

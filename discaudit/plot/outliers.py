@@ -31,6 +31,8 @@ QQ_OFFSET = 0.5
 #: Distance plots switch to log axes when the largest distance exceeds this many cut-offs.
 LOG_FACTOR = 5.0
 _FLOOR = 1e-3
+#: A label to place: (x, y, text, gid).
+_Label = tuple[float, float, str, str]
 
 
 def _arrays(verdict: Any) -> dict[str, Any]:
@@ -41,7 +43,7 @@ def _per_class(verdict: Any, name: str) -> dict[str, Any]:
     return verdict.findings[KEY].details.get("per_class", {}).get(name, {})  # type: ignore[no-any-return]
 
 
-def _draw_class(ax: Axes, verdict: Any, k: int, name: str, rows: np.ndarray, cap: int, log: bool) -> list[tuple]:
+def _draw_class(ax: Axes, verdict: Any, k: int, name: str, rows: np.ndarray, cap: int, log: bool) -> list[_Label]:
     """Scatter and cut-off line of one class on ``ax``; returns the labels to place.
 
     Each label is ``(x, y, text, gid)`` for one of the ``cap`` farthest flagged rows.
@@ -56,10 +58,27 @@ def _draw_class(ax: Axes, verdict: Any, k: int, name: str, rows: np.ndarray, cap
     ok = np.isfinite(x) & np.isfinite(y)
     if log:
         x, y = np.clip(x, _FLOOR, None), np.clip(y, _FLOOR, None)
-    ax.scatter(x[ok & ~flagged], y[ok & ~flagged], s=14, marker=marker, facecolors="none", edgecolors=colour,
-               linewidths=0.8, label=c.short(name), gid=f"rows:{k}")
-    ax.scatter(x[ok & flagged], y[ok & flagged], s=22, marker=marker, color=colour, edgecolors="black",
-               linewidths=0.6, gid=f"flagged:{k}")
+    ax.scatter(
+        x[ok & ~flagged],
+        y[ok & ~flagged],
+        s=14,
+        marker=marker,
+        facecolors="none",
+        edgecolors=colour,
+        linewidths=0.8,
+        label=c.short(name),
+        gid=f"rows:{k}",
+    )
+    ax.scatter(
+        x[ok & flagged],
+        y[ok & flagged],
+        s=22,
+        marker=marker,
+        color=colour,
+        edgecolors="black",
+        linewidths=0.6,
+        gid=f"flagged:{k}",
+    )
     ax.axhline(cut, color=colour, linestyle="--", linewidth=1.0, gid=f"cutoff:{k}")
     chosen = np.flatnonzero(ok & flagged)
     chosen = chosen[np.argsort(-y[chosen], kind="stable")][:cap]
@@ -69,11 +88,17 @@ def _draw_class(ax: Axes, verdict: Any, k: int, name: str, rows: np.ndarray, cap
 def _unlabelled_note(ax: Axes, verdict: Any, n_labelled: int, cap: int) -> None:
     total = int(np.asarray(_arrays(verdict)["flagged"], dtype=bool).sum())
     if total > n_labelled:
-        ax.annotate(f"labelled: the {cap} farthest flagged rows per class; {total - n_labelled} more flagged "
-                    "(verdict.outlier_rows() lists all)", (0.02, 0.98), xycoords="axes fraction", va="top", fontsize=7)
+        ax.annotate(
+            f"labelled: the {cap} farthest flagged rows per class; {total - n_labelled} more flagged "
+            "(verdict.outlier_rows() lists all)",
+            (0.02, 0.98),
+            xycoords="axes fraction",
+            va="top",
+            fontsize=7,
+        )
 
 
-def place_labels(ax: Axes, requests: list[tuple], gap: float = 9.0, layout: bool = True) -> None:
+def place_labels(ax: Axes, requests: list[_Label], gap: float = 9.0, layout: bool = True) -> None:
     """Annotate points with labels placed so that they do not overprint each other.
 
     Farthest points first, each label tries positions right then left of its point, at
@@ -83,6 +108,8 @@ def place_labels(ax: Axes, requests: list[tuple], gap: float = 9.0, layout: bool
     if not requests:
         return
     fig = ax.figure
+    if not isinstance(fig, Figure):  # a SubFigure: size and layout belong to its top-level figure
+        fig = fig.figure
     engine = fig.get_layout_engine() if hasattr(fig, "get_layout_engine") else None
     if layout and engine is not None:
         engine.execute(fig)  # final axes positions, so distances in points are right
@@ -111,8 +138,17 @@ def place_labels(ax: Axes, requests: list[tuple], gap: float = 9.0, layout: bool
         dx, dy, ha, x0, y0 = best
         placed.append((x0, y0, x0 + w, y0 + gap))
         arrow = {"arrowstyle": "-", "color": c.GREY, "linewidth": 0.5} if abs(dy) > 6.0 else None
-        ax.annotate(label, (x, y), xytext=(dx, dy), textcoords="offset points", fontsize=7, ha=ha, va="bottom",
-                    arrowprops=arrow, gid=gid)
+        ax.annotate(
+            label,
+            (x, y),
+            xytext=(dx, dy),
+            textcoords="offset points",
+            fontsize=7,
+            ha=ha,
+            va="bottom",
+            arrowprops=arrow,
+            gid=gid,
+        )
 
 
 def _finish_distance_axes(ax: Axes, log: bool, robust: bool) -> None:
@@ -123,7 +159,9 @@ def _finish_distance_axes(ax: Axes, log: bool, robust: bool) -> None:
     hi = max(ax.get_xlim()[1], ax.get_ylim()[1])
     ax.plot([lo, hi], [lo, hi], color=c.GREY, linestyle=":", linewidth=0.8, gid="diagonal")
     ax.set_xlabel("classical squared Mahalanobis distance")
-    ax.set_ylabel("robust squared distance (MCD)" if robust else "squared distance (classical: class too small for MCD)")
+    ax.set_ylabel(
+        "robust squared distance (MCD)" if robust else "squared distance (classical: class too small for MCD)"
+    )
 
 
 def _log_for(verdict: Any, rows: np.ndarray) -> bool:
@@ -148,8 +186,10 @@ def draw(verdict: Any, ax: Axes) -> None:
     place_labels(ax, requests)
     _unlabelled_note(ax, verdict, len(requests), COMBINED_LABEL_CAP)
     handles, _ = ax.get_legend_handles_labels()
-    handles += [Line2D([], [], color=c.GREY, linestyle="--", label="cut-off (per class)"),
-                Line2D([], [], marker="o", color="black", linestyle="none", label="flagged (filled, labelled)")]
+    handles += [
+        Line2D([], [], color=c.GREY, linestyle="--", label="cut-off (per class)"),
+        Line2D([], [], marker="o", color="black", linestyle="none", label="flagged (filled, labelled)"),
+    ]
     ax.legend(handles=handles, fontsize=7, loc="lower right")
     c.status_title(ax, "Outliers: robust vs classical distance", verdict, KEY)
 
@@ -172,8 +212,17 @@ def draw_qq(verdict: Any, ax: Axes) -> None:
             continue
         d = np.sort(distance[rows][np.isfinite(distance[rows])])
         q = qq_quantiles(d.size, p)
-        ax.scatter(q, d, s=10, marker=c.class_marker(k), facecolors="none", edgecolors=c.class_color(k), linewidths=0.7,
-                   label=c.short(name), gid=f"qq:{k}")
+        ax.scatter(
+            q,
+            d,
+            s=10,
+            marker=c.class_marker(k),
+            facecolors="none",
+            edgecolors=c.class_color(k),
+            linewidths=0.7,
+            label=c.short(name),
+            gid=f"qq:{k}",
+        )
         top = max(top, float(q.max()) if q.size else 0.0)
     cuts = sorted({float(v) for v in np.asarray(a["cutoff"], dtype=float) if v > 0})
     for cut in cuts:
@@ -211,16 +260,27 @@ def draw_figure(verdict: Any) -> Figure:
         pending.append((ax, requests))
         n_flagged = int(np.asarray(_arrays(verdict)["flagged"], dtype=bool)[rows].sum())
         if n_flagged > len(requests):
-            ax.annotate(f"labelled: the {LABEL_CAP} farthest; {n_flagged - len(requests)} more flagged", (0.02, 0.98),
-                        xycoords="axes fraction", va="top", fontsize=7)
+            ax.annotate(
+                f"labelled: the {LABEL_CAP} farthest; {n_flagged - len(requests)} more flagged",
+                (0.02, 0.98),
+                xycoords="axes fraction",
+                va="top",
+                fontsize=7,
+            )
         info = _per_class(verdict, name)
         cut = float(np.asarray(_arrays(verdict)["cutoff"], dtype=float)[rows][0])
-        c.note(ax, f"cut-off {fmt(cut)}: {info.get('cutoff_rule', '')}\n"
-                   f"{info.get('n_flagged', 0)} of {len(rows)} rows flagged (filled, labelled)", loc="lower right")
+        c.note(
+            ax,
+            f"cut-off {fmt(cut)}: {info.get('cutoff_rule', '')}\n"
+            f"{info.get('n_flagged', 0)} of {len(rows)} rows flagged (filled, labelled)",
+            loc="lower right",
+        )
         c.status_title(ax, f"Outliers in class {c.short(name, 20)}", verdict, KEY)
     draw_qq(verdict, axes[len(groups)])
     c.figure_title(fig, "Outliers: robust distances per class", verdict, KEY)
-    fig.get_layout_engine().execute(fig)  # once, so that label spacing uses the final panel sizes
+    engine = fig.get_layout_engine()
+    if engine is not None:
+        engine.execute(fig)  # once, so that label spacing uses the final panel sizes
     for ax, requests in pending:
         place_labels(ax, requests, layout=False)
     return fig

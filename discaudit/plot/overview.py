@@ -50,6 +50,8 @@ def draw_overview(verdict: Any) -> Figure:
         f"discaudit overview: {meta.get('n_rows', '?')} rows, {meta.get('n_features', '?')} features, "
         f"{meta.get('n_classes', '?')} classes. Gate status: {status_label(verdict.status)}. "
         f"Recommendation: {MODEL_NAMES.get(rec.model, rec.model)}.",
-        x=0.01, ha="left", fontsize=11,
+        x=0.01,
+        ha="left",
+        fontsize=11,
     )
     return fig

@@ -52,8 +52,10 @@ def draw(verdict: Any, ax: Axes) -> None:
     ax.set_xlabel("pooled within-class standard deviation (log scale, feature units)")
     lines = [f"largest / smallest SD = {fmt(details.get('sd_ratio'))} (warn above {fmt(threshold)})"]
     if details.get("condition_number_raw") is not None:
-        lines.append(f"condition number: {fmt(details.get('condition_number_raw'))} raw, "
-                     f"{fmt(details.get('condition_number_standardized'))} standardized")
+        lines.append(
+            f"condition number: {fmt(details.get('condition_number_raw'))} raw, "
+            f"{fmt(details.get('condition_number_standardized'))} standardized"
+        )
     if zero:
         lines.append("no within-class variation: " + ", ".join(c.short(z, 16) for z in zero[:5]))
     if hidden:
@@ -61,8 +63,12 @@ def draw(verdict: Any, ax: Axes) -> None:
     c.note(ax, "\n".join(lines), loc="lower right")
     handles = [
         Patch(facecolor=c.LEVELS["pass"][0], edgecolor="black", label=f"within {fmt(threshold)} x smallest"),
-        Patch(facecolor=c.LEVELS["warn"][0], hatch=c.LEVELS["warn"][1], edgecolor="black",
-              label=f"beyond {fmt(threshold)} x smallest"),
+        Patch(
+            facecolor=c.LEVELS["warn"][0],
+            hatch=c.LEVELS["warn"][1],
+            edgecolor="black",
+            label=f"beyond {fmt(threshold)} x smallest",
+        ),
         Line2D([], [], color=c.GREY, linestyle=":", label="smallest SD"),
         Line2D([], [], color=c.GREY, linestyle="--", label=f"{fmt(threshold)} x smallest SD"),
     ]

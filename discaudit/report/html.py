@@ -166,7 +166,9 @@ def _finding_section(key: str, finding: Any, severity: str, figure: tuple[str, s
             f"<figcaption>{_e(_CAPTIONS.get(key, ''))}</figcaption></figure>"
         )
     if finding.details:
-        parts.append(f"<details open><summary>Details of <code>{_e(key)}</code></summary>{_value(finding.details, 0)}</details>")
+        parts.append(
+            f"<details open><summary>Details of <code>{_e(key)}</code></summary>{_value(finding.details, 0)}</details>"
+        )
     parts.append("</section>")
     return "\n".join(parts)
 
@@ -186,6 +188,7 @@ _CAPTIONS = {
 
 
 # -- details as tables ---------------------------------------------------------------------------
+
 
 def _is_scalar(value: Any) -> bool:
     return value is None or isinstance(value, (str, int, float, bool))
@@ -251,13 +254,16 @@ def _wide_table(value: dict[str, dict[str, Any]]) -> str:
     keys = list(dict.fromkeys(k for v in value.values() for k in v))
     head = "<th></th>" + "".join(f"<th>{_e(c)}</th>" for c in columns)
     body = "".join(
-        f"<tr><th>{_e(k)}</th>" + "".join(_cell(value[c].get(k), 0) if k in value[c] else "<td></td>" for c in columns) + "</tr>"
+        f"<tr><th>{_e(k)}</th>"
+        + "".join(_cell(value[c].get(k), 0) if k in value[c] else "<td></td>" for c in columns)
+        + "</tr>"
         for k in keys
     )
     return _fold(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>", len(keys))
 
 
 # -- data and settings -----------------------------------------------------------------------
+
 
 def _data_section(verdict: Verdict) -> str:
     meta = verdict.meta
@@ -275,9 +281,11 @@ def _data_section(verdict: Verdict) -> str:
         parts.append(f"<tr><th>class labels</th><td>{_value(meta.get('classes', []), 1)}</td></tr>")
     parts.append(f"<tr><th>feature names</th><td>{_value(meta.get('features', []), 1)}</td></tr>")
     if fingerprint:
-        parts.append(f"<tr><th>SHA-256 fingerprint</th><td><code>{_e(fingerprint.get('sha256', ''))}</code><br>"
-                     f"<small>{_e(fingerprint.get('rows', ''))} rows x {_e(fingerprint.get('columns', ''))} columns hashed; "
-                     f"{_e(fingerprint.get('covers', ''))}</small></td></tr>")
+        parts.append(
+            f"<tr><th>SHA-256 fingerprint</th><td><code>{_e(fingerprint.get('sha256', ''))}</code><br>"
+            f"<small>{_e(fingerprint.get('rows', ''))} rows x {_e(fingerprint.get('columns', ''))} columns hashed; "
+            f"{_e(fingerprint.get('covers', ''))}</small></td></tr>"
+        )
     else:
         parts.append("<tr><th>SHA-256 fingerprint</th><td>not recorded by this version</td></tr>")
     if meta.get("sample"):

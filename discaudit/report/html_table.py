@@ -31,7 +31,8 @@ def format_table(table: VerdictTable) -> str:
         '<div class="discaudit-verdict">',
         f"<p><strong>{e(table.title)}</strong><br>Gate status: <strong>{e(status_label(table.status))}</strong></p>",
         "<table>",
-        "<thead><tr>" + "".join(f"<th {_CELL}>{h}</th>" for h in ("check", "status", "key figure", "summary"))
+        "<thead><tr>"
+        + "".join(f"<th {_CELL}>{h}</th>" for h in ("check", "status", "key figure", "summary"))
         + "</tr></thead>",
         "<tbody>",
     ]

@@ -65,8 +65,14 @@ def render(verdict: Verdict, fail_on: str = "fail") -> str:
             out.text = _clean(f"{row.status.upper()}{advisory} ({row.figure}): {row.summary}")
         cases.append(case)
     total = _seconds(sum(v for v in seconds.values() if isinstance(v, (int, float))))
-    counts = {"name": "discaudit", "tests": str(len(cases)), "failures": str(failures), "errors": "0",
-              "skipped": str(skipped), "time": total}
+    counts = {
+        "name": "discaudit",
+        "tests": str(len(cases)),
+        "failures": str(failures),
+        "errors": "0",
+        "skipped": str(skipped),
+        "time": total,
+    }
     root = ET.Element("testsuites", counts)
     suite = ET.SubElement(root, "testsuite", counts)
     properties = ET.SubElement(suite, "properties")
@@ -78,8 +84,12 @@ def render(verdict: Verdict, fail_on: str = "fail") -> str:
     ):
         ET.SubElement(properties, "property", name=name, value=_clean(value))
     suite.extend(cases)
-    lines = [table.title, f"Recommendation: {MODEL_NAMES[table.model]} ({table.model})",
-             f"Suggested settings: {format_params(table.params)}", "Why:"]
+    lines = [
+        table.title,
+        f"Recommendation: {MODEL_NAMES[table.model]} ({table.model})",
+        f"Suggested settings: {format_params(table.params)}",
+        "Why:",
+    ]
     lines += [f"  - {reason}" for reason in table.reasons]
     lines += table.notes
     ET.SubElement(suite, "system-out").text = _clean("\n".join(lines))

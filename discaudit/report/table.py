@@ -34,7 +34,9 @@ class VerdictTable:
 def build(verdict: Verdict) -> VerdictTable:
     meta = verdict.meta
     severity = meta.get("severity", {})
-    rows = [TableRow(key, f.status, f.figure, f.summary, severity.get(key, "gate")) for key, f in verdict.findings.items()]
+    rows = [
+        TableRow(key, f.status, f.figure, f.summary, severity.get(key, "gate")) for key, f in verdict.findings.items()
+    ]
     title = (
         f"discaudit pre-flight audit: {meta.get('n_rows', '?')} rows, {meta.get('n_features', '?')} features, "
         f"{meta.get('n_classes', '?')} classes"

@@ -33,8 +33,9 @@ def render(verdict: Verdict, width: int = WIDTH) -> str:
         lines += textwrap.wrap(reason, width, initial_indent="  - ", subsequent_indent="    ")
     lines.append("Alternatives, best first:")
     for i, alt in enumerate(table.alternatives, 1):
-        lines += textwrap.wrap(f"{MODEL_NAMES[alt['model']]}: {alt['reason']}", width, initial_indent=f"  {i}. ",
-                               subsequent_indent="     ")
+        lines += textwrap.wrap(
+            f"{MODEL_NAMES[alt['model']]}: {alt['reason']}", width, initial_indent=f"  {i}. ", subsequent_indent="     "
+        )
     lines.append("")
     for note in table.notes:
         lines += textwrap.wrap(note, width)

@@ -18,6 +18,21 @@ from discaudit.errors import DataError
 
 FloatMatrix = npt.NDArray[np.float64]
 
+#: Squares of values beyond this overflow float64 in a scatter matrix.
+LARGEST_SQUARABLE = 1e150
+
+
+def power_of_two_scaled(values: FloatMatrix) -> FloatMatrix:
+    """Each column multiplied by a power of two that brings its range near 1 (exact in float64).
+
+    For statistics that do not depend on the units of a feature (VIF, condition indices,
+    Box's M, Wilks' Lambda): squares of features in tiny or huge units then neither underflow
+    nor overflow, and no rounding is added.
+    """
+    spread = np.ptp(values, axis=0)
+    _, exponent = np.frexp(np.where(spread > 0, spread, 1.0))
+    return np.ldexp(values, -exponent[None, :])
+
 
 def feature_names(X: Any, p: int) -> list[str]:
     """Column names of ``X`` if it is a DataFrame, else ``x0 .. x{p-1}``."""
@@ -38,11 +53,13 @@ def as_matrix(X: Any, *, min_rows: int = 2, name: str = "X") -> tuple[FloatMatri
     if isinstance(X, pd.Series):
         X = X.to_frame()
     if isinstance(X, pd.DataFrame):
+        if X.columns.duplicated().any():
+            dup = sorted({str(c) for c in X.columns[X.columns.duplicated()]})
+            raise DataError(f"{name} has duplicated column names {_short(dup)}; rename them so results can name them.")
         bad = [str(c) for c in X.columns if not _is_numeric_dtype(X[c])]
         if bad:
             raise DataError(
-                f"{name} has non-numeric columns {_short(bad)}; pass numeric columns only "
-                "(encode or drop the others)."
+                f"{name} has non-numeric columns {_short(bad)}; pass numeric columns only (encode or drop the others)."
             )
         values = X.to_numpy(dtype=np.float64, copy=False)
     else:
@@ -66,6 +83,13 @@ def as_matrix(X: Any, *, min_rows: int = 2, name: str = "X") -> tuple[FloatMatri
         cols = [f"{names[j]} ({int(counts[j])})" for j in np.flatnonzero(counts)]
         raise DataError(
             f"{name} has NaN or infinite values in columns {_short(cols)}; drop or impute those rows first."
+        )
+    huge = np.maximum(-values.min(axis=0), values.max(axis=0)) > LARGEST_SQUARABLE
+    if huge.any():
+        cols = [names[j] for j in np.flatnonzero(huge)]
+        raise DataError(
+            f"{name} columns {_short(cols)} hold values beyond 1e150 in magnitude, whose squares overflow float64; "
+            "rescale them (e.g. change units or take logs)."
         )
     return np.ascontiguousarray(values), names
 

@@ -17,7 +17,6 @@ _BLOCK_ELEMENTS = 1 << 20
 _RANK_RATIO = 1e-10
 
 
-
 def row_blocks(n: int) -> list[tuple[int, int]]:
     """Consecutive row ranges such that one block times all rows stays near 8 MiB."""
     size = max(1, min(n, _BLOCK_ELEMENTS // max(n, 1)))
@@ -76,8 +75,13 @@ def whiten(data: FloatMatrix, names: list[str], *, statistic: str, subsampled: b
         )
     mean = data.mean(axis=0)
     centred = data - mean
+    # Divide by each column's range first (exact for the statistics, which are scale free),
+    # so squares of tiny or huge values neither underflow nor overflow.
+    spread = np.ptp(data, axis=0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        centred = np.where(spread > 0, centred / np.where(spread > 0, spread, 1.0), 0.0)
     sd = np.sqrt(np.einsum("ij,ij->j", centred, centred) / n)
-    constant = (np.ptp(data, axis=0) == 0) | (sd <= 1e-12 * np.abs(mean))
+    constant = (spread == 0) | (sd * spread <= 1e-12 * np.abs(mean))
     if constant.any():
         cols = [names[j] for j in np.flatnonzero(constant)]
         raise DataError(

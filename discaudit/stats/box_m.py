@@ -10,7 +10,7 @@ from scipy import stats as sps
 
 from discaudit.errors import DataError
 from discaudit.moments import ClassMoments
-from discaudit.stats._inputs import as_labels, as_matrix
+from discaudit.stats._inputs import as_labels, as_matrix, power_of_two_scaled
 from discaudit.stats._linalg import logdet_spd
 
 
@@ -61,7 +61,10 @@ def box_m_from_moments(moments: ClassMoments) -> BoxMResult:
     """
     counts = moments.counts.astype(np.float64)
     K, p, N = moments.n_classes, moments.n_features, float(moments.n_total)
-    logdets = [logdet_spd(S) for S in moments.class_covariances()]
+    # n_k <= p rows give a rank-deficient covariance even when rounding lets Cholesky pass.
+    logdets = [
+        logdet_spd(S) if n > p else float("-inf") for n, S in zip(counts, moments.class_covariances(), strict=True)
+    ]
     singular = [str(c) for c, ld in zip(moments.classes, logdets, strict=True) if not np.isfinite(ld)]
     if singular:
         raise DataError(
@@ -161,6 +164,7 @@ def box_m(X: Any, y: Any) -> BoxMResult:
     The species clearly differ in covariance (p far below 0.001).
     """
     values, _ = as_matrix(X)
+    values = power_of_two_scaled(values)  # M is invariant to rescaling a feature
     codes, classes = as_labels(y, values.shape[0])
     if len(classes) < 2:
         raise DataError(f"Box's M needs at least two classes; y has {len(classes)}.")

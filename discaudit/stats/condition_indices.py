@@ -10,7 +10,7 @@ import numpy.typing as npt
 import pandas as pd
 
 from discaudit.errors import DataError
-from discaudit.stats._inputs import as_matrix
+from discaudit.stats._inputs import as_matrix, power_of_two_scaled
 from discaudit.stats._linalg import correlation_from_covariance, symmetric_eigh
 
 FloatArray = npt.NDArray[np.float64]
@@ -51,9 +51,10 @@ def condition_indices_from_covariance(S: FloatArray, names: list[str]) -> Condit
     values, vectors = symmetric_eigh(R)
     floor = np.finfo(np.float64).eps * R.shape[0] * values[0]
     clipped = np.where(values > floor, values, 0.0)
-    with np.errstate(divide="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore"):
         indices = np.sqrt(values[0] / clipped)
-        phi = vectors**2 / clipped[None, :]
+        squares = vectors**2
+        phi = np.where(squares > 0, squares / clipped[None, :], 0.0)
     # A zero eigenvalue carries all of the (unbounded) variance of every coefficient it touches.
     unbounded = ~np.isfinite(phi)
     if unbounded.any():
@@ -115,6 +116,7 @@ def condition_indices(X: Any) -> ConditionIndicesResult:
     The serum measurements s1, s2 (and s3, s5) share a strong near dependency.
     """
     values, names = as_matrix(X)
+    values = power_of_two_scaled(values)  # the decomposition of the correlation matrix is unit free
     centred = values - values.mean(axis=0)
     S = centred.T @ centred / (values.shape[0] - 1)
     constant = [names[j] for j in np.flatnonzero(np.diag(S) <= 0)]

@@ -163,9 +163,7 @@ def henze_zirkler(X: Any, *, max_rows: int = 5000, random_state: int | None = No
     sq_dist = np.einsum("ij,ij->i", Z, Z)
     pair_sum = _sum_pair_kernel(Z, sq_dist, b2)
     centre_sum = float(np.sum(np.exp(-b2 / (2.0 * (1.0 + b2)) * sq_dist)))
-    statistic = (
-        pair_sum / n - 2.0 * (1.0 + b2) ** (-p / 2.0) * centre_sum + n * (1.0 + 2.0 * b2) ** (-p / 2.0)
-    )
+    statistic = pair_sum / n - 2.0 * (1.0 + b2) ** (-p / 2.0) * centre_sum + n * (1.0 + 2.0 * b2) ** (-p / 2.0)
 
     a = 1.0 + 2.0 * b2
     w = (1.0 + b2) * (1.0 + 3.0 * b2)

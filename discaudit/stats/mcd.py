@@ -724,7 +724,9 @@ class _Search:
 
     # -- batched stages --------------------------------------------------------------------
 
-    def starts(self, rows: npt.NDArray[np.intp], h_local: int, count: int) -> tuple[FloatMatrix, npt.NDArray[np.float64]]:
+    def starts(
+        self, rows: npt.NDArray[np.intp], h_local: int, count: int
+    ) -> tuple[FloatMatrix, npt.NDArray[np.float64]]:
         """Means and Cholesky factors of ``count`` random (p+1)-subsets of ``X[rows]``.
 
         Subsets with a singular covariance are enlarged by further random rows of the group
@@ -788,7 +790,9 @@ class _Search:
         keep = alive & np.isfinite(logdet)
         return mu[keep], L[keep], logdet[keep], idx[keep]
 
-    def best(self, mu: FloatMatrix, L: npt.NDArray[np.float64], logdet: FloatVector, idx: Any, keep: int) -> tuple[Any, ...]:
+    def best(
+        self, mu: FloatMatrix, L: npt.NDArray[np.float64], logdet: FloatVector, idx: Any, keep: int
+    ) -> tuple[Any, ...]:
         order = np.argsort(logdet, kind="stable")[:keep]
         return mu[order], L[order], logdet[order], idx[order]
 
@@ -843,7 +847,7 @@ class _Search:
 
     def _local_h(self, rows: int) -> int:
         """Subset size on a random part of the data: ceil(rows * h / n), at least p + 1."""
-        return min(rows, max(self.p + 1, math.ceil(rows * self.h / self.n)))
+        return int(min(rows, max(self.p + 1, math.ceil(rows * self.h / self.n))))
 
     def _fallback_start(self, rows: npt.NDArray[np.intp]) -> tuple[FloatMatrix, npt.NDArray[np.float64]]:
         """Classical mean and covariance of ``X[rows]`` when every random start was singular."""
@@ -860,7 +864,9 @@ class _Search:
                 self.check_plane(np.arange(self.n), mu[0], S[0])
         return mu, L
 
-    def _finish_small(self, rows: npt.NDArray[np.intp], mu: FloatMatrix, L: Any, ld: FloatVector, idx: Any) -> BoolVector:
+    def _finish_small(
+        self, rows: npt.NDArray[np.intp], mu: FloatMatrix, L: Any, ld: FloatVector, idx: Any
+    ) -> BoolVector:
         if mu.shape[0] == 0:
             mu0, L0 = self._fallback_start(np.arange(self.n))
             mu, _, ld, idx = self.csteps(np.arange(self.n), self.h, mu0, L0, _MAX_CSTEPS)
@@ -1075,7 +1081,9 @@ def _smallest_exact_fit(
     return on
 
 
-def _exact_fit_result(X: FloatMatrix, scale: FloatVector, on: BoolVector, quantile: float, scheme: str) -> dict[str, Any]:
+def _exact_fit_result(
+    X: FloatMatrix, scale: FloatVector, on: BoolVector, quantile: float, scheme: str
+) -> dict[str, Any]:
     """Estimates and finite distances when at least h rows lie on a hyperplane (see mcd Notes)."""
     n = X.shape[0]
     n_on = int(on.sum())
@@ -1159,8 +1167,14 @@ def _rescale(fit: dict[str, Any], power: npt.NDArray[np.intp]) -> dict[str, Any]
             out[key] = np.ldexp(fit[key], power[:, None] + power[None, :])
         out["raw_log_determinant"] = fit["raw_log_determinant"] + 2.0 * math.log(2.0) * float(power.sum())
         if fit["hyperplane_normal"] is not None:
-            exponent = -power
-            w = np.ldexp(fit["hyperplane_normal"], exponent - exponent.max())
+            # w_j = v_j 2^-power_j, formed in mantissa/exponent pairs so nothing over- or
+            # underflows; components at rounding level (1e-12 of the largest) are exact zeros.
+            v = np.asarray(fit["hyperplane_normal"], dtype=np.float64)
+            v = np.where(np.abs(v) > 1e-12 * np.max(np.abs(v)), v, 0.0)
+            mantissa, exponent = np.frexp(v)
+            exponent = exponent - power
+            nonzero = v != 0
+            w = np.where(nonzero, np.ldexp(mantissa, exponent - exponent[nonzero].max()), 0.0)
             w /= np.linalg.norm(w)
             out["hyperplane_normal"] = w
             out["hyperplane_offset"] = float(w @ out["raw_location"])
@@ -1172,7 +1186,9 @@ def _rescale(fit: dict[str, Any], power: npt.NDArray[np.intp]) -> dict[str, Any]
     return out
 
 
-def _embed(fit: dict[str, Any], data: FloatMatrix, varying: npt.NDArray[np.intp], constant: BoolVector) -> dict[str, Any]:
+def _embed(
+    fit: dict[str, Any], data: FloatMatrix, varying: npt.NDArray[np.intp], constant: BoolVector
+) -> dict[str, Any]:
     """Put a fit on the non-constant columns back into all p columns."""
     n, p = data.shape
     out = dict(fit)
@@ -1271,7 +1287,7 @@ def _pison_f(stage: str, p: int, n: int, level: int) -> float:
     """f(p, n) at a = 0.5 (level 0) or a = 0.875 (level 1)."""
     if p <= 2:
         g0, g1 = _PISON_SMALL_P[(stage, p)][level]
-        return 1.0 - math.exp(g0) / n**g1
+        return 1.0 - math.exp(g0) / math.pow(n, g1)
     (gam2, del2), (gam3, del3) = _PISON_LARGE_P[stage][level]
     # log(1 - f) is linear in log n through the two points n = 2 p^2 and n = 3 p^2.
     y2, y3 = math.log(-gam2 / p**del2), math.log(-gam3 / p**del3)

@@ -129,9 +129,7 @@ class SeparationResult:
         return self.any_complete or self.any_quasi_complete
 
 
-def detect_separation(
-    X: Any, y: Any, *, max_rows: int = 2000, random_state: int | None = None
-) -> SeparationResult:
+def detect_separation(X: Any, y: Any, *, max_rows: int = 2000, random_state: int | None = None) -> SeparationResult:
     """Detect complete and quasi-complete separation of the classes by linear programming.
 
     Under complete or quasi-complete separation the maximum likelihood estimate of a logistic
@@ -251,8 +249,7 @@ def detect_separation(
     codes, classes = as_labels(y, n)
     if len(classes) < 2:
         raise DataError(
-            f"y has a single class ({classes[0]!r}); separation needs at least two classes. "
-            "Check the target column."
+            f"y has a single class ({classes[0]!r}); separation needs at least two classes. Check the target column."
         )
     if isinstance(max_rows, bool) or not isinstance(max_rows, (int, np.integer)) or max_rows < 2:
         raise DataError(f"max_rows must be an integer of at least 2; got {max_rows!r}.")
@@ -273,6 +270,8 @@ def detect_separation(
     notes = []
     if space.dropped:
         notes.append(f"constant features ignored: {', '.join(space.dropped)}")
+    if space.collinear:
+        notes.append(f"features that are linear combinations of others (to 1e-9) ignored: {', '.join(space.collinear)}")
     return SeparationResult(
         comparisons=tuple(comparisons),
         any_complete=any(c.kind == "complete" for c in comparisons),
@@ -284,6 +283,22 @@ def detect_separation(
         max_rows=int(max_rows),
         notes=tuple(notes),
     )
+
+
+def _independent_columns(std: FloatMatrix, tol: float = 1e-9) -> npt.NDArray[np.intp]:
+    """Columns of a well-conditioned subset spanning (to ``tol``) the same space, by pivoted QR.
+
+    A feature that is another's copy up to rounding adds nothing to separability but can make
+    the linear programs numerically unsolvable, so it is left out (and named).
+    """
+    if std.shape[1] < 2:
+        return np.arange(std.shape[1])
+    from scipy import linalg
+
+    _, R, piv = linalg.qr(std, mode="economic", pivoting=True, check_finite=False)
+    diag = np.abs(np.diag(R))
+    rank = int(np.sum(diag > tol * diag[0])) if diag.size and diag[0] > 0 else 0
+    return np.sort(piv[: max(rank, 1)])
 
 
 class _FeatureSpace:
@@ -302,9 +317,14 @@ class _FeatureSpace:
         keep = (np.ptp(values, axis=0) > 0) & (self.sd > 1e-12 * np.abs(self.mean))
         self.keep = np.flatnonzero(keep)
         self.dropped = [names[j] for j in np.flatnonzero(~keep)]
-        self.q = self.keep.size
         std = values[:, self.keep] - self.mean[self.keep]
         std /= self.sd[self.keep]
+        independent = _independent_columns(std)
+        self.collinear = [names[j] for j in np.delete(self.keep, independent)]
+        if self.collinear:
+            self.keep = self.keep[independent]
+            std = np.ascontiguousarray(std[:, independent])
+        self.q = self.keep.size
         self.std = std
 
 
@@ -521,17 +541,13 @@ def _min_l1_direction(
     strict_rows = np.flatnonzero(strict)
     eye = sparse.identity(q, format="csr")
     zero_col = sparse.csr_matrix((q, 1))
-    l1_rows = sparse.vstack(
-        [sparse.hstack([eye, zero_col, -eye]), sparse.hstack([-eye, zero_col, -eye])], format="csr"
-    )
+    l1_rows = sparse.vstack([sparse.hstack([eye, zero_col, -eye]), sparse.hstack([-eye, zero_col, -eye])], format="csr")
     A_eq = np.hstack([Q.T, np.zeros((Q.shape[1], q))]) if Q.shape[1] else None
     b_eq = np.zeros(Q.shape[1]) if Q.shape[1] else None
     c = np.concatenate([np.zeros(d), np.ones(q)])
     bounds = [(None, None)] * d + [(0.0, None)] * q
     if strict_rows.size > chunk:
-        work = strict_rows[
-            np.argpartition(A[strict_rows] @ _rough_direction(A, strict_rows), chunk - 1)[:chunk]
-        ]
+        work = strict_rows[np.argpartition(A[strict_rows] @ _rough_direction(A, strict_rows), chunk - 1)[:chunk]]
         work = np.sort(work)
     else:
         work = strict_rows
@@ -558,5 +574,15 @@ def _rough_direction(A: FloatMatrix, rows: IntArray) -> npt.NDArray[np.float64]:
 
 
 def _solve(c: Any, A_ub: Any, b_ub: Any, A_eq: Any, b_eq: Any, bounds: Any) -> Any:
-    with np.errstate(all="ignore"):
-        return linprog(c, A_ub=A_ub, b_ub=b_ub, A_eq=A_eq, b_eq=b_eq, bounds=bounds, method="highs")
+    """HiGHS, retried with its dual simplex and then its interior-point solver on a numerical failure.
+
+    Nearly collinear features occasionally make one HiGHS method stop with status 4
+    (numerical difficulties) where another solves the same program.
+    """
+    res = None
+    for method in ("highs", "highs-ds", "highs-ipm"):
+        with np.errstate(all="ignore"):
+            res = linprog(c, A_ub=A_ub, b_ub=b_ub, A_eq=A_eq, b_eq=b_eq, bounds=bounds, method=method)
+        if res.status != 4:
+            return res
+    return res

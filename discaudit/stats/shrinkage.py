@@ -107,12 +107,34 @@ def shrinkage_intensity(X: Any, y: Any, *, standardize: bool = False) -> float:
     if len(classes) < 1:
         raise DataError("shrinkage_intensity needs at least one class.")
     moments = ClassMoments.from_arrays(values, codes, tuple(classes))
+    return pooled_ledoit_wolf(values, codes, moments, standardize=standardize)
+
+
+def pooled_ledoit_wolf(
+    X: FloatArray, codes: npt.NDArray[np.intp], moments: ClassMoments, *, standardize: bool
+) -> float:
+    """Ledoit-Wolf intensity of the pooled within-class covariance from data and its moments.
+
+    Without standardizing, all features are divided by one common power-of-two scale first:
+    the intensity is invariant to a common rescaling (numerator and denominator both scale
+    by c^4), and fourth powers of large values would otherwise overflow.
+
+    Raises
+    ------
+    DataError
+        If ``standardize`` and a feature does not vary within classes.
+    """
     W = moments.within_scatter
-    scale = None
+    N = moments.n_total
+    sd = np.sqrt(np.diag(W) / N)
     if standardize:
-        scale = np.sqrt(np.diag(W) / moments.n_total)
-        if np.any(scale <= 0):
+        if np.any(sd <= 0):
             raise DataError("standardize=True needs every feature to vary within classes.")
-        W = W / np.outer(scale, scale)
-    fourth = class_centred_fourth_sum(values, codes, moments.means, scale)
-    return ledoit_wolf_intensity(W, moments.n_total, fourth)
+        scale = sd
+    else:
+        largest = float(sd.max())
+        if largest <= 0:
+            return 0.0
+        scale = np.full(sd.shape, 2.0 ** np.round(np.log2(largest)))
+    fourth = class_centred_fourth_sum(X, codes, moments.means, scale)
+    return ledoit_wolf_intensity(W / np.outer(scale, scale), N, fourth)

@@ -10,7 +10,7 @@ import pandas as pd
 from scipy import linalg
 
 from discaudit.errors import DataError
-from discaudit.stats._inputs import as_matrix
+from discaudit.stats._inputs import as_matrix, power_of_two_scaled
 from discaudit.stats._linalg import correlation_from_covariance
 
 FloatArray = npt.NDArray[np.float64]
@@ -102,6 +102,7 @@ def vif(X: Any) -> pd.Series:
     Petal length and width are nearly collinear over the whole data set.
     """
     values, names = as_matrix(X)
+    values = power_of_two_scaled(values)  # VIF is unit free
     centred = values - values.mean(axis=0)
     S = centred.T @ centred / (values.shape[0] - 1)
     constant = [names[j] for j in np.flatnonzero(np.diag(S) <= 0)]

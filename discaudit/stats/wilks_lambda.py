@@ -12,7 +12,7 @@ from scipy import stats as sps
 
 from discaudit.errors import DataError
 from discaudit.moments import ClassMoments
-from discaudit.stats._inputs import as_labels, as_matrix
+from discaudit.stats._inputs import as_labels, as_matrix, power_of_two_scaled
 
 FloatArray = npt.NDArray[np.float64]
 
@@ -139,6 +139,7 @@ def wilks_lambda(X: Any, y: Any) -> WilksLambdaResult:
     Most of the variation in iris measurements lies between species.
     """
     values, _ = as_matrix(X)
+    values = power_of_two_scaled(values)  # Lambda is invariant to rescaling a feature
     codes, classes = as_labels(y, values.shape[0])
     if len(classes) < 2:
         raise DataError(f"Wilks' Lambda needs at least two classes; y has {len(classes)}.")
