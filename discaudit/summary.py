@@ -10,6 +10,7 @@ whose moments are exact and whose rows are the sample.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -218,6 +219,7 @@ def to_audit_data(summary: ChunkSummary, config: Config, random_state: int | Non
                 f"NaN or infinite values in columns {', '.join(cols[:8])} (first at row "
                 f"{summary.first_missing_row}); impute or drop them, or pass Config(missing='drop_rows')."
             )
+    summary = _unify_label_types(summary, random_state)
     classes = ordered_unique(list(summary.moments.classes))
     moments = _reorder(summary.moments, classes)
     check_classes(classes, moments.counts)
@@ -251,6 +253,33 @@ def to_audit_data(summary: ChunkSummary, config: Config, random_state: int | Non
         random_state=random_state,
     )
     return AuditData(values, codes, tuple(classes), kept_features, row_labels, moments, record, distinct, sample)
+
+
+def _unify_label_types(summary: ChunkSummary, random_state: int | None) -> ChunkSummary:
+    """Read as text where chunks disagreed on the target's type, as a whole-file reader does.
+
+    Each chunk infers the target's type on its own, so a label can arrive as 5 in one chunk
+    and '5' in another; when text and non-text labels meet, every label becomes text and the
+    classes that then coincide are merged exactly.
+    """
+    labels = summary.moments.classes
+    if all(isinstance(c, str) for c in labels) or not any(isinstance(c, str) for c in labels):
+        return summary
+    rng = np.random.default_rng(np.random.SeedSequence(None if random_state is None else [int(random_state), 7]))
+    m = summary.moments
+    merged: ClassMoments | None = None
+    reservoirs: dict[Any, Reservoir] = {}
+    for k, c in enumerate(labels):
+        text = str(c)
+        part = ClassMoments((text,), m.counts[k : k + 1], m.means[k : k + 1], m.scatter[k : k + 1])
+        merged = part if merged is None else merged.merge(part)
+        r = summary.reservoirs[c]
+        reservoirs[text] = reservoirs[text].merge(r, summary.capacity, rng) if text in reservoirs else r
+    assert merged is not None
+    dropped: dict[Any, int] = {}
+    for c, n in summary.dropped_per_class.items():
+        dropped[str(c)] = dropped.get(str(c), 0) + n
+    return dataclasses.replace(summary, moments=merged, reservoirs=reservoirs, dropped_per_class=dropped)
 
 
 def _reorder(moments: ClassMoments, classes: list[Any]) -> ClassMoments:

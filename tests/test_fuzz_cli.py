@@ -251,10 +251,6 @@ def test_regression_stream_moments_overflow_before_magnitude_check() -> None:
     assert status == 2 and "'a'" in err and "1e150" in err, err
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="--stream: each chunk infers the target's dtype, so label 5 (int) and '5' (str) become two classes",
-)
 def test_regression_stream_splits_a_class_by_chunk_dtype() -> None:
     # With two rows per batch, the chunk [5, 5] is read as integers and [5, a] as strings.
     with tempfile.TemporaryDirectory() as folder:

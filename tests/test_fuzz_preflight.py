@@ -366,10 +366,6 @@ def test_regression_normality_standardizes_by_underflowing_sd() -> None:
     assert not _captured(verdict, "normality"), _captured(verdict, "normality")
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="covariance_homogeneity tests the pooled covariance of all classes, Box's M that of the kept ones",
-)
 def test_regression_box_m_pooled_of_kept_classes_singular() -> None:
     # Two features, the second the first plus noise at 1e-12 of its scale; classes of 2 rows
     # are set aside as singular, and the pooled covariance of the rest is (numerically)

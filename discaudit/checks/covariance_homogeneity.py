@@ -88,13 +88,13 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             "untestable",
             arrays,
         )
-    if not np.isfinite(logdet_spd(m.pooled_covariance)):
-        return Finding(
-            KEY, "skip", "The pooled covariance is singular (see collinearity); Box's M is undefined.", details, "-"
-        )
     sub = ClassMoments(
         tuple(c for c, good in zip(m.classes, ok, strict=True) if good), m.counts[ok], m.means[ok], m.scatter[ok]
     )
+    if not np.isfinite(logdet_spd(sub.pooled_covariance)):  # the classes Box's M would use
+        return Finding(
+            KEY, "skip", "The pooled covariance is singular (see collinearity); Box's M is undefined.", details, "-"
+        )
     box = box_m_from_moments(sub)
     bic = covariance_bic(sub)
     divergence = _divergence_from_pooled(sub)
