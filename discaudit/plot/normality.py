@@ -23,7 +23,7 @@ from matplotlib.figure import Figure
 
 from discaudit.findings import fmt
 from discaudit.plot import _common as c
-from discaudit.plot.outliers import qq_quantiles
+from discaudit.plot.outliers import qq_scatter
 from discaudit.report.markdown import status_label
 
 KEY = "normality"
@@ -38,22 +38,6 @@ def _series(verdict: Any) -> list[tuple[int, str, np.ndarray]]:
         values = d[rows]
         out.append((k, name, np.sort(values[np.isfinite(values)])))
     return out
-
-
-def _qq(ax: Axes, k: int, name: str, d: np.ndarray, p: int) -> float:
-    q = qq_quantiles(d.size, p)
-    ax.scatter(
-        q,
-        d,
-        s=10,
-        marker=c.class_marker(k),
-        facecolors="none",
-        edgecolors=c.class_color(k),
-        linewidths=0.7,
-        label=c.short(name),
-        gid=f"normal-qq:{k}",
-    )
-    return float(q.max()) if q.size else 0.0
 
 
 def _finish(ax: Axes, p: int, top: float, verdict: Any) -> None:
@@ -74,7 +58,7 @@ def _finish(ax: Axes, p: int, top: float, verdict: Any) -> None:
 def draw(verdict: Any, ax: Axes) -> None:
     """Every class's Q-Q series on one axes."""
     p = int(verdict.meta.get("n_features", 1))
-    top = max((_qq(ax, k, name, d, p) for k, name, d in _series(verdict)), default=0.0)
+    top = max((qq_scatter(ax, k, name, d, p, gid=f"normal-qq:{k}") for k, name, d in _series(verdict)), default=0.0)
     _finish(ax, p, top, verdict)
     ax.legend(fontsize=7, loc="upper left")
     c.status_title(ax, "Normality: Mahalanobis Q-Q per class", verdict, KEY)
@@ -91,7 +75,7 @@ def draw_figure(verdict: Any) -> Figure:
     per_class = verdict.findings[KEY].details.get("per_class", {})
     fig, axes = c.new_figure(len(series), ncols=3 if len(series) >= 3 else 2)
     for ax, (k, name, d) in zip(axes, series, strict=True):
-        top = _qq(ax, k, name, d, p)
+        top = qq_scatter(ax, k, name, d, p, gid=f"normal-qq:{k}")
         _finish(ax, p, top, verdict)
         info = per_class.get(name, {})
         if "status" in info:

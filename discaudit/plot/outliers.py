@@ -211,19 +211,7 @@ def draw_qq(verdict: Any, ax: Axes) -> None:
             left_out.append(name)
             continue
         d = np.sort(distance[rows][np.isfinite(distance[rows])])
-        q = qq_quantiles(d.size, p)
-        ax.scatter(
-            q,
-            d,
-            s=10,
-            marker=c.class_marker(k),
-            facecolors="none",
-            edgecolors=c.class_color(k),
-            linewidths=0.7,
-            label=c.short(name),
-            gid=f"qq:{k}",
-        )
-        top = max(top, float(q.max()) if q.size else 0.0)
+        top = max(top, qq_scatter(ax, k, name, d, p, gid=f"qq:{k}"))
     cuts = sorted({float(v) for v in np.asarray(a["cutoff"], dtype=float) if v > 0})
     for cut in cuts:
         ax.axhline(cut, color=c.GREY, linestyle="--", linewidth=0.9, gid="qq-cutoff")
@@ -236,6 +224,23 @@ def draw_qq(verdict: Any, ax: Axes) -> None:
     extra = f"; exact fits left out: {', '.join(c.short(n, 16) for n in left_out)}" if left_out else ""
     c.note(ax, f"dotted: y = x (Gaussian class); dashed: cut-off{extra}")
     c.status_title(ax, "Outliers: chi-square Q-Q of robust distances", verdict, KEY)
+
+
+def qq_scatter(ax: Axes, k: int, name: str, d: np.ndarray, p: int, *, gid: str) -> float:
+    """Sorted squared distances of class k against chi-square(p) quantiles; returns the top quantile."""
+    q = qq_quantiles(d.size, p)
+    ax.scatter(
+        q,
+        d,
+        s=10,
+        marker=c.class_marker(k),
+        facecolors="none",
+        edgecolors=c.class_color(k),
+        linewidths=0.7,
+        label=c.short(name),
+        gid=gid,
+    )
+    return float(q.max()) if q.size else 0.0
 
 
 def qq_quantiles(n: int, df: int) -> np.ndarray:
