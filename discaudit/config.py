@@ -89,6 +89,12 @@ class Config:
         "Recommend shrinkage for collinearity only when it keeps at least this share of the class separation.",
         "design choice, tuned on the even-seed scenarios of the validation study",
     )
+    shrinkage_useful_min: float = _threshold(
+        0.01,
+        "Recommend shrinkage for collinearity only when the Ledoit-Wolf intensity is at least this: a smaller "
+        "intensity says the pooled covariance is already well estimated.",
+        "design choice",
+    )
     imbalance_warn: float = _threshold(
         10.0, "Largest over smallest class size above this: report the imbalance.", "common practice"
     )

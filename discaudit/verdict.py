@@ -92,6 +92,9 @@ def _serious_collinearity(f: Findings, c: Config) -> str | None:
     retained = _retained(f)
     if retained is not None and retained < c.shrinkage_retained_min:
         return None
+    intensity = _detail(f, "collinearity", "shrinkage", "ledoit_wolf_standardized")
+    if intensity is not None and intensity < c.shrinkage_useful_min:
+        return None  # with this many rows the pooled covariance is already estimated well
     vif = _detail(f, "collinearity", "max_vif")
     cond = _detail(f, "collinearity", "condition_number")
     kept = f" and shrinkage keeps {fmt(100 * retained, 3)}% of the class separation" if retained is not None else ""

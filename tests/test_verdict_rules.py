@@ -86,7 +86,7 @@ def test_collinearity_goes_to_shrinkage_only_when_shrinkage_keeps_the_separation
                 "max_vif": 80.0,
                 "condition_number": 40.0,
                 "rank_deficient": False,
-                "shrinkage": {"retained_separation": 0.97},
+                "shrinkage": {"retained_separation": 0.97, "ledoit_wolf_standardized": 0.2},
             },
         )
     )
@@ -104,6 +104,22 @@ def test_collinearity_goes_to_shrinkage_only_when_shrinkage_keeps_the_separation
     assert fired(cheap) == ["serious_collinearity"] and decide(cheap, CFG).model == "regularized_lda"
     assert fired(costly) == ["costly_shrinkage"] and decide(costly, CFG).model == "lda"
     assert "40%" in decide(costly, CFG).reasons[0]
+
+
+def test_collinearity_with_negligible_shrinkage_does_not_ask_for_it() -> None:
+    # Ledoit-Wolf intensity near 0: the pooled covariance is already well estimated (huge N).
+    details = {
+        "max_vif": 45.0,
+        "condition_number": 35.0,
+        "rank_deficient": False,
+        "shrinkage": {"retained_separation": 0.99, "ledoit_wolf_standardized": 0.0003},
+    }
+    f = findings(
+        collinearity=("fail", details),
+        covariance_homogeneity=("fail", {"bic": {"delta_bic": 5000.0}, "most_different_class": "b"}),
+    )
+    assert RULE["serious_collinearity"].test(f, CFG) is None
+    assert decide(f, CFG).model == "qda"
 
 
 def test_unequal_covariances_need_rows_per_feature_for_qda() -> None:
