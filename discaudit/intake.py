@@ -307,7 +307,7 @@ def _screen_columns(
     first_rows = values[: min(len(values), 64)]
     seen: dict[bytes, list[int]] = {}
     for j in np.flatnonzero(keep):
-        key = first_rows[:, j].tobytes()
+        key = (first_rows[:, j] + 0.0).tobytes()  # + 0.0: -0.0 and 0.0 are equal values
         for i in seen.get(key, []):
             if np.array_equal(values[:, i], values[:, j]):
                 keep[j] = False

@@ -2,7 +2,7 @@
 
 A chunk (a pandas DataFrame with the target column) becomes a :class:`ChunkSummary`;
 summaries merge exactly (moments by Chan et al.'s formula, column ranges and distinct
-values by union, per-class reservoir samples by a hypergeometric split that keeps each
+values by union, groups of identical columns by refinement, per-class reservoir samples by a hypergeometric split that keeps each
 merged sample uniform over all rows). Streaming folds chunks one by one; Dask reduces
 partition summaries in a tree. The result becomes :class:`~discaudit.intake.AuditData`
 whose moments are exact and whose rows are the sample.
@@ -11,6 +11,7 @@ whose moments are exact and whose rows are the sample.
 from __future__ import annotations
 
 import dataclasses
+import hashlib
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -88,6 +89,8 @@ class ChunkSummary:
     missing_labels: int
     dropped_per_class: dict[Any, int]
     non_numeric: tuple[str, ...]
+    #: For each column, the first column holding the same values in every row seen (itself if none).
+    same_as: npt.NDArray[np.intp]
     n_rows_input: int
     n_features_input: int
     capacity: int
@@ -149,6 +152,7 @@ def summarize(
         missing_labels=int(missing_label.sum()),
         dropped_per_class={label(k): int(v) for k, v in dropped.items()},
         non_numeric=tuple(non_numeric),
+        same_as=_identical_columns(values),
         n_rows_input=len(chunk),
         n_features_input=n_features_input,
         capacity=capacity,
@@ -162,6 +166,28 @@ def _distinct(column: FloatArray, limit: int) -> frozenset[float] | None:
         return None
     values = np.unique(column)
     return frozenset(values.tolist()) if values.size <= limit else None
+
+
+def _identical_columns(values: FloatArray) -> npt.NDArray[np.intp]:
+    """For each column, the first column with exactly the same values in these rows."""
+    columns = np.ascontiguousarray(values.T)
+    out = np.arange(columns.shape[0], dtype=np.intp)
+    by_content: dict[bytes, list[int]] = {}
+    for j, column in enumerate(columns):
+        key = hashlib.blake2b((column + 0.0).tobytes(), digest_size=16).digest()  # + 0.0: -0.0 == 0.0
+        candidates = by_content.setdefault(key, [])
+        match = next((i for i in candidates if np.array_equal(columns[i], column)), None)
+        if match is None:
+            candidates.append(j)
+        else:
+            out[j] = match
+    return out
+
+
+def _refine(a: npt.NDArray[np.intp], b: npt.NDArray[np.intp]) -> npt.NDArray[np.intp]:
+    """Columns identical on two sets of rows: identical on each (groups named by first member)."""
+    first: dict[tuple[int, int], int] = {}
+    return np.array([first.setdefault((int(x), int(y)), j) for j, (x, y) in enumerate(zip(a, b, strict=True))], np.intp)
 
 
 def merge(a: ChunkSummary, b: ChunkSummary, rng: np.random.Generator) -> ChunkSummary:
@@ -190,6 +216,7 @@ def merge(a: ChunkSummary, b: ChunkSummary, rng: np.random.Generator) -> ChunkSu
         missing_labels=a.missing_labels + b.missing_labels,
         dropped_per_class=dropped,
         non_numeric=a.non_numeric,
+        same_as=_refine(a.same_as, b.same_as),
         n_rows_input=a.n_rows_input + b.n_rows_input,
         n_features_input=a.n_features_input,
         capacity=a.capacity,
@@ -225,7 +252,7 @@ def to_audit_data(summary: ChunkSummary, config: Config, random_state: int | Non
     check_classes(classes, moments.counts)
     check_magnitude(np.maximum(np.abs(summary.col_min), np.abs(summary.col_max)), features)
     constant = summary.col_min == summary.col_max
-    duplicate_of = _duplicates(moments, constant)
+    duplicate_of = np.where(~constant & (summary.same_as != np.arange(len(features))), summary.same_as, -1)
     keep = ~constant & (duplicate_of < 0)
     if not keep.any():
         raise DataError("No usable feature: every numeric column is constant or a duplicate.")
@@ -285,29 +312,3 @@ def _unify_label_types(summary: ChunkSummary, random_state: int | None) -> Chunk
 def _reorder(moments: ClassMoments, classes: list[Any]) -> ClassMoments:
     order = [moments.classes.index(c) for c in classes]
     return ClassMoments(tuple(classes), moments.counts[order], moments.means[order], moments.scatter[order])
-
-
-def _duplicates(moments: ClassMoments, constant: npt.NDArray[np.bool_]) -> npt.NDArray[np.intp]:
-    """For each column, the earlier column it duplicates (-1 if none), from the total moments.
-
-    Columns i, j are identical iff their means are equal and var(x_i - x_j) = 0; both are
-    read from the total scatter (tolerance 1e-12 relative), so no second pass is needed.
-    """
-    T = moments.within_scatter + moments.between_scatter
-    mean = moments.grand_mean
-    d = np.diag(T)
-    out = np.full(len(d), -1, dtype=np.intp)
-    for j in range(len(d)):
-        if constant[j]:
-            continue
-        for i in range(j):
-            if constant[i] or out[i] >= 0:
-                continue
-            scale = d[i] + d[j]
-            if (
-                abs(mean[i] - mean[j]) <= 1e-12 * max(abs(mean[i]), abs(mean[j]), 1e-300)
-                and d[i] + d[j] - 2 * T[i, j] <= 1e-12 * scale
-            ):
-                out[j] = i
-                break
-    return out

@@ -55,13 +55,7 @@ MODELS = {"lda", "regularized_lda", "qda", "logistic_regression"}
 #: example whose every symptom (check_error summary or captured warning) is a known one is
 #: rejected, so the fuzz tests keep looking for *other* bugs. Remove an entry when its bug
 #: is fixed, together with the xfail marker of its regression test.
-KNOWN_BUGS: list[tuple[str, str, Callable[[Case], bool]]] = [
-    (
-        "test_regression_box_m_pooled_of_kept_classes_singular",
-        "covariance_homogeneity: check_error: The check could not run: DataError: Box's M needs a nonsingular pooled",
-        lambda c: True,
-    ),
-]
+KNOWN_BUGS: list[tuple[str, str, Callable[[Case], bool]]] = []
 
 
 # ----------------------------------------------------------------------------------------
@@ -378,3 +372,15 @@ def test_regression_box_m_pooled_of_kept_classes_singular() -> None:
     verdict = discaudit.preflight(X, np.repeat(np.arange(6), sizes))
     finding = verdict.findings["covariance_homogeneity"]
     assert not finding.details.get("check_error"), finding.summary
+
+
+def test_regression_scale_disparity_condition_number_overflows() -> None:
+    # Found by the deep fuzz profile: pooled variances near 1e298 and 1e-12 made the raw
+    # condition number overflow (a RuntimeWarning captured in the finding). Invented, seeded.
+    rng = np.random.default_rng(1)
+    X = np.column_stack([rng.normal(size=40) * 1e149, rng.normal(size=40) * 1e-6, rng.normal(size=40)])
+    verdict = discaudit.preflight(X, np.repeat([0, 1], 20))
+    finding = verdict.findings["scale_disparity"]
+    assert not _captured(verdict, "scale_disparity")
+    assert finding.details["condition_number_raw"] is None  # infinite, kept as JSON null in details
+    assert finding.details["condition_number_standardized"] < 10

@@ -13,8 +13,16 @@ KEY = "scale_disparity"
 
 
 def _condition_number(S: np.ndarray) -> float:
+    """Largest over smallest eigenvalue; inf when the smallest is not above rounding noise.
+
+    An eigenvalue below p * eps * largest cannot be told from zero, and dividing by it can
+    overflow float64 when the largest is huge (features at 1e150 and at 1e-6).
+    """
     values = np.linalg.eigvalsh((S + S.T) / 2.0)
-    return float(values[-1] / values[0]) if values[0] > 0 else float("inf")
+    largest, smallest = float(values[-1]), float(values[0])
+    if largest <= 0 or smallest <= S.shape[0] * np.finfo(np.float64).eps * largest:
+        return float("inf")
+    return largest / smallest
 
 
 def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:

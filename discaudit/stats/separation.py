@@ -24,6 +24,8 @@ _MEMBER_TOL = 1e-6
 _VALUE_TOL = 1e-9
 #: Coefficients of the standardized direction smaller than this are reported as zero.
 _ZERO_COEF = 1e-9
+#: Box on the direction (standardized units) for the retry of a strict-set program HiGHS failed.
+_BETA_BOX = 1e6
 
 IntArray = npt.NDArray[np.intp]
 
@@ -515,8 +517,13 @@ def _strict_lp(A: FloatMatrix) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.
     m, d = A.shape
     A_ub = sparse.hstack([sparse.csr_matrix(-A), sparse.identity(m, format="csr")], format="csr")
     c = np.concatenate([np.zeros(d), -np.ones(m)])
-    bounds = [(None, None)] * d + [(0.0, 1.0)] * m
-    res = _solve(c, A_ub, np.zeros(m), None, None, bounds)
+    res = _solve(c, A_ub, np.zeros(m), None, None, [(None, None)] * d + [(0.0, 1.0)] * m)
+    if res.status != 0:
+        # The program is feasible (beta = 0) and bounded (t <= 1), so a failure is numerical:
+        # tied, nearly dependent columns can leave HiGHS without a usable basis. Boxing beta
+        # (standardized units) gives it one; only rows whose best margin is below 1 / _BETA_BOX
+        # of a unit-length direction could change status.
+        res = _solve(c, A_ub, np.zeros(m), None, None, [(-_BETA_BOX, _BETA_BOX)] * d + [(0.0, 1.0)] * m)
     if res.status != 0:
         raise DataError(
             f"the separation linear program failed (HiGHS status {res.status}: {res.message}) on "
@@ -574,15 +581,16 @@ def _rough_direction(A: FloatMatrix, rows: IntArray) -> npt.NDArray[np.float64]:
 
 
 def _solve(c: Any, A_ub: Any, b_ub: Any, A_eq: Any, b_eq: Any, bounds: Any) -> Any:
-    """HiGHS, retried with its dual simplex and then its interior-point solver on a numerical failure.
+    """HiGHS, retried with its dual simplex and then its interior-point solver when a method fails.
 
-    Nearly collinear features occasionally make one HiGHS method stop with status 4
-    (numerical difficulties) where another solves the same program.
+    Nearly collinear or tied features occasionally make one HiGHS method stop with status 4
+    (numerical difficulties), or even report a program that is feasible and bounded by
+    construction as infeasible (2) or unbounded (3), where another method solves it.
     """
     res = None
     for method in ("highs", "highs-ds", "highs-ipm"):
         with np.errstate(all="ignore"):
             res = linprog(c, A_ub=A_ub, b_ub=b_ub, A_eq=A_eq, b_eq=b_eq, bounds=bounds, method=method)
-        if res.status != 4:
+        if res.status == 0:
             return res
     return res
