@@ -114,6 +114,13 @@ class Config:
         "Rousseeuw & Van Driessen (1999) advise n > 5p for MCD (from memory); on seeded Gaussian classes with "
         "6 rows per feature the reweighted MCD still flagged 10-30% of clean rows, so we ask for 10 (design choice)",
     )
+    robust_fit_max_rows: int = _threshold(
+        20000,
+        "Rows per class above which the robust (MCD) fit uses a seeded random subset of this many rows; every row "
+        "of the class is still scored against that fit.",
+        "design choice (bounds the cost of the C-steps; matches sample_rows_per_class, so streamed and in-memory "
+        "input fit on samples of the same size)",
+    )
     outlier_cutoff: str = _threshold(
         "small_sample_f",
         "Cut-off for robust squared distances: 'small_sample_f' (the F law of a new observation's distance from "

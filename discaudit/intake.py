@@ -108,14 +108,24 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
         numeric feature, mismatched lengths, non-finite values under ``missing="error"``,
         or non-numeric features under ``non_numeric="error"``.
     """
-    frame, labels = split(X, y, target)
-    n_rows_input, n_features_input = frame.shape
-    frame, non_numeric = numeric_columns(frame, config)
-    values, frame, labels, dropped, unlabelled = _handle_missing(frame, labels, config)
+    plain = _plain_array(X, y, target)
+    if plain is not None:
+        values, labels = plain
+        columns: list[Any] = [f"x{j}" for j in range(values.shape[1])]
+        n_rows_input, n_features_input = values.shape
+        non_numeric: list[str] = []
+        dropped: dict[Any, int] = {}
+        unlabelled = 0
+    else:
+        frame, labels = split(X, y, target)
+        n_rows_input, n_features_input = frame.shape
+        frame, non_numeric = numeric_columns(frame, config)
+        values, frame, labels, dropped, unlabelled = _handle_missing(frame, labels, config)
+        columns = list(frame.columns)
     codes, classes = encode(labels)
     if values.size:  # reductions only: no temporary copy of the data
-        check_magnitude(np.maximum(-values.min(axis=0), values.max(axis=0)), list(frame.columns))
-    keep, constant, duplicates = _screen_columns(values, [str(c) for c in frame.columns])
+        check_magnitude(np.maximum(-values.min(axis=0), values.max(axis=0)), columns)
+    keep, constant, duplicates = _screen_columns(values, [str(c) for c in columns])
     if not keep.any():
         raise DataError(
             f"No usable feature: every numeric column is constant or a duplicate ({', '.join(constant)}); "
@@ -123,7 +133,7 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
         )
     if not keep.all():
         values = np.ascontiguousarray(values[:, keep])
-    features = tuple(str(c) for c, k in zip(frame.columns, keep, strict=True) if k)
+    features = tuple(str(c) for c, k in zip(columns, keep, strict=True) if k)
     moments = ClassMoments.from_arrays(values, codes, classes)
     distinct = distinct_counts(values, features, config.few_distinct_values)
     record = IntakeRecord(
@@ -135,7 +145,32 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
         constant_columns=tuple(constant),
         duplicate_columns=tuple(duplicates),
     )
-    return AuditData(values, codes, classes, features, frame.index, moments, record, distinct)
+    return AuditData(values, codes, classes, features, labels.index, moments, record, distinct)
+
+
+def _plain_array(X: Any, y: Any, target: str | None) -> tuple[FloatArray, pd.Series] | None:
+    """A finite numeric 2-D ndarray X with labels y, taken as is (no copy if float64, C order).
+
+    The common case of ``preflight(X, y)``: no DataFrame is built and the array is audited in
+    place, through a read-only view. Anything else (missing values or labels, other types)
+    returns None and takes the general path, which reports problems by column and row.
+    """
+    if target is not None or y is None or not isinstance(X, np.ndarray) or X.ndim != 2:
+        return None
+    if X.dtype.kind not in "fiub" or X.shape[1] == 0 or X.shape[0] == 0:
+        return None
+    values = np.asarray(X, dtype=np.float64, order="C")
+    if not all(np.isfinite(values[a : a + 65536]).all() for a in range(0, values.shape[0], 65536)):
+        return None
+    view = values.view()
+    view.flags.writeable = False
+    try:
+        labels = _as_labels(y, pd.RangeIndex(values.shape[0]))
+    except DataError:
+        return None
+    if labels.isna().any():
+        return None
+    return view, labels
 
 
 def split(X: Any, y: Any, target: str | None) -> tuple[pd.DataFrame, pd.Series]:
@@ -155,7 +190,7 @@ def split(X: Any, y: Any, target: str | None) -> tuple[pd.DataFrame, pd.Series]:
         raise DataError("No target: pass y, or a DataFrame with target='<column>'.")
     else:
         frame = _as_frame(X)
-        labels = _as_labels(y, frame)
+        labels = _as_labels(y, frame.index)
     if frame.columns.duplicated().any():
         dup = sorted({str(c) for c in frame.columns[frame.columns.duplicated()]})
         raise DataError(f"Column names {dup} appear more than once; rename them so findings can name them.")
@@ -179,7 +214,7 @@ def _as_frame(X: Any) -> pd.DataFrame:
     return inferred
 
 
-def _as_labels(y: Any, frame: pd.DataFrame) -> pd.Series:
+def _as_labels(y: Any, index: pd.Index) -> pd.Series:
     if isinstance(y, pd.DataFrame):
         if y.shape[1] != 1:
             raise DataError(f"y must be one column; got a DataFrame with {y.shape[1]} columns.")
@@ -189,9 +224,9 @@ def _as_labels(y: Any, frame: pd.DataFrame) -> pd.Series:
         if array.ndim != 1:
             raise DataError(f"y must be one-dimensional; got shape {array.shape}.")
         y = pd.Series(array)
-    if len(y) != len(frame):
-        raise DataError(f"X has {len(frame)} rows but y has {len(y)} labels; they must match.")
-    labels: pd.Series = pd.Series(y.to_numpy(dtype=object), index=frame.index, name=y.name)
+    if len(y) != len(index):
+        raise DataError(f"X has {len(index)} rows but y has {len(y)} labels; they must match.")
+    labels: pd.Series = pd.Series(y.to_numpy(dtype=object), index=index, name=y.name)
     return labels
 
 
@@ -251,9 +286,12 @@ def _handle_missing(
 
 def encode(labels: pd.Series) -> tuple[npt.NDArray[np.intp], tuple[Any, ...]]:
     """Integer codes of the labels and the classes (sorted when comparable); DataError if too few."""
-    classes = ordered_unique(labels.tolist())
+    first_seen, uniques = pd.factorize(labels, sort=False)
+    seen = list(uniques)
+    classes = ordered_unique(seen)
     lookup = {c: k for k, c in enumerate(classes)}
-    codes = np.fromiter((lookup[v] for v in labels.tolist()), dtype=np.intp, count=len(labels))
+    # factorize may keep apart labels Python counts as equal (1 and 1.0): the lookup merges them.
+    codes = np.asarray([lookup[v] for v in seen], dtype=np.intp)[first_seen]
     check_classes(classes, np.bincount(codes, minlength=len(classes)))
     return codes, tuple(classes)
 

@@ -15,6 +15,9 @@ import numpy.typing as npt
 
 FloatArray = npt.NDArray[np.float64]
 
+#: Rows per block in :meth:`ClassMoments.from_arrays` (bounds its temporary arrays).
+_ROW_BLOCK = 1 << 16
+
 
 @dataclass(frozen=True)
 class ClassMoments:
@@ -46,23 +49,26 @@ class ClassMoments:
     def from_arrays(cls, X: FloatArray, codes: npt.NDArray[np.intp], classes: tuple[Any, ...]) -> ClassMoments:
         """Moments of ``X`` (n, p) grouped by integer ``codes`` into ``len(classes)`` classes.
 
-        Each class is centred at its own mean before the scatter is formed (two-pass, so
-        the result does not suffer the cancellation of ``sum x x' - n m m'``).
+        Two passes over blocks of rows: class sums first, then scatter about the class means
+        (so the result does not suffer the cancellation of ``sum x x' - n m m'``). Temporary
+        arrays stay at one block of rows, whatever n is.
         """
         K, p = len(classes), X.shape[1]
+        n = X.shape[0]
         counts = np.bincount(codes, minlength=K).astype(np.int64)
-        means = np.zeros((K, p))
+        sums = np.zeros((K, p))
+        for a in range(0, n, _ROW_BLOCK):
+            c = codes[a : a + _ROW_BLOCK]
+            sums += (c[None, :] == np.arange(K)[:, None]).astype(np.float64) @ X[a : a + _ROW_BLOCK]
+        means = sums / np.maximum(counts, 1)[:, None]
         scatter = np.zeros((K, p, p))
-        order = np.argsort(codes, kind="stable")
-        bounds = np.concatenate(([0], np.cumsum(counts)))
-        for k in range(K):
-            if counts[k] == 0:
-                continue
-            block = X[order[bounds[k] : bounds[k + 1]]]
-            means[k] = block.mean(axis=0)
-            centred = block - means[k]
-            scatter[k] = centred.T @ centred
-        return cls(tuple(classes), counts, means, scatter)
+        for a in range(0, n, _ROW_BLOCK):
+            block, c = X[a : a + _ROW_BLOCK], codes[a : a + _ROW_BLOCK]
+            for k in np.unique(c):
+                part = np.compress(c == k, block, axis=0)  # a copy: centring it leaves X alone
+                part -= means[k]
+                scatter[k] += part.T @ part
+        return cls(tuple(classes), counts, means, (scatter + scatter.transpose(0, 2, 1)) / 2.0)
 
     def merge(self, other: ClassMoments) -> ClassMoments:
         """Exact moments of the union of two disjoint sets of rows.

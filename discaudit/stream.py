@@ -27,6 +27,7 @@ from discaudit.config import Config
 from discaudit.errors import DataError
 from discaudit.intake import AuditData
 from discaudit.result import Verdict
+from discaudit.stats._linalg import mahalanobis_sq
 from discaudit.summary import ChunkSummary, merge, summarize, to_audit_data
 
 ChunkSource = Callable[[], Iterable[pd.DataFrame]] | Iterable[pd.DataFrame]
@@ -109,7 +110,7 @@ def tally_chunk(chunk: pd.DataFrame, target: str, data: AuditData, fits: list[ou
         cls = data.classes[fit.code]
         rows = np.flatnonzero(usable & (labels == cls).to_numpy())
         X = values[rows]
-        d = outliers.mahalanobis_sq(X, fit.location, fit.covariance) if rows.size else None
+        d = mahalanobis_sq(X, fit.location, fit.covariance) if rows.size else None
         if d is None:
             continue
         out, flags, d_classical = outliers.score_rows(X, d, fit, data.moments, chunk.index[rows])

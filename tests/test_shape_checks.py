@@ -140,3 +140,34 @@ def test_discrete_features_are_left_out_of_the_outlier_distances() -> None:
     f = v.findings["outliers"]
     assert f.details["discrete_features_left_out"] == ["flag"]
     assert f.status == "pass" and f.details["n_flagged"] / len(X) < 0.08
+
+
+def test_per_feature_moments_match_scipy() -> None:
+    # Reference: scipy.stats.skew and scipy.stats.kurtosis with their defaults (biased, Fisher).
+    from scipy import stats as sps
+
+    from discaudit.checks.normality import _skewness_kurtosis
+
+    rng = np.random.default_rng(11)
+    Z = np.column_stack([rng.normal(size=500), rng.exponential(size=500), rng.standard_t(4, size=500) * 3 + 7])
+    skew, kurt = _skewness_kurtosis(Z)
+    np.testing.assert_allclose(skew, sps.skew(Z, axis=0), rtol=1e-12)
+    np.testing.assert_allclose(kurt, sps.kurtosis(Z, axis=0), rtol=1e-12)
+
+
+def test_large_class_outlier_fit_uses_a_seeded_subset_and_scores_every_row() -> None:
+    # Invented, seeded: one class far above robust_fit_max_rows; rows planted 8 SD out along
+    # the first feature must be flagged although most of them are not in the fitted subset.
+    rng = np.random.default_rng(5)
+    X = rng.normal(size=(3000, 3))
+    X[:40, 0] += 8.0
+    y = np.repeat([0, 1], [2000, 1000])
+    X[y == 1] += 1.0
+    config = discaudit.Config(robust_fit_max_rows=500)
+    v = discaudit.preflight(X, y, config=config, random_state=0)
+    per_class = v.findings["outliers"].details["per_class"]
+    assert per_class["0"]["fit_rows"] == 500 and per_class["1"]["fit_rows"] == 500  # labels as JSON keys
+    assert per_class["0"]["n"] == 2000
+    assert set(range(40)) <= set(v.outlier_rows().index)
+    again = discaudit.preflight(X, y, config=config, random_state=0)
+    assert again.to_json() == v.to_json()

@@ -10,7 +10,7 @@ from discaudit.config import Config
 from discaudit.findings import Finding, fmt, names
 from discaudit.intake import AuditData
 from discaudit.stats.condition_indices import ConditionIndicesResult, condition_indices_from_covariance
-from discaudit.stats.shrinkage import pooled_ledoit_wolf
+from discaudit.stats.shrinkage import pooled_ledoit_wolf_intensities
 from discaudit.stats.shrinkage_retention import shrinkage_retention
 from discaudit.stats.vif import vif_from_covariance
 
@@ -81,8 +81,7 @@ def _combination_text(terms: dict[str, float]) -> str:
 def _shrinkage(data: AuditData) -> dict[str, Any]:
     """Ledoit-Wolf intensities of the pooled within-class covariance, raw and standardized."""
     m = data.moments
-    raw = pooled_ledoit_wolf(data.values, data.codes, m, standardize=False)
-    standardized = pooled_ledoit_wolf(data.values, data.codes, m, standardize=True)
+    raw, standardized = pooled_ledoit_wolf_intensities(data.values, data.codes, m, (False, True))
     retention = shrinkage_retention(m, standardized)
     return {
         "retained_separation": None if retention is None else retention.retained,

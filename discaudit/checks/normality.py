@@ -5,7 +5,6 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
-from scipy import stats as sps
 
 from discaudit._plain import label
 from discaudit.checks._seeds import class_seeds
@@ -21,6 +20,21 @@ _MOMENT_ROWS = 100_000
 _SALT = 4
 
 
+def _skewness_kurtosis(Z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per-column moment skewness g1 = m3 / m2^1.5 and excess kurtosis g2 = m4 / m2^2 - 3.
+
+    The biased (divisor n) moment estimators, as ``scipy.stats.skew`` and ``kurtosis`` with
+    their defaults; one pass over the centred columns instead of one per statistic.
+    """
+    centred = Z - Z.mean(axis=0)
+    square = centred * centred
+    m2 = square.mean(axis=0)
+    m3 = np.einsum("ij,ij->j", square, centred) / Z.shape[0]
+    m4 = np.einsum("ij,ij->j", square, square) / Z.shape[0]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return m3 / m2**1.5, m4 / m2**2 - 3.0
+
+
 def _class_shape(X: np.ndarray, features: tuple[str, ...], config: Config, seed: int) -> dict[str, Any]:
     """Mardia, Henze-Zirkler and the worst per-feature moments of one class."""
     # Standardized first: moments are scale free, and third or fourth powers of large raw
@@ -31,8 +45,7 @@ def _class_shape(X: np.ndarray, features: tuple[str, ...], config: Config, seed:
     if X.shape[0] > _MOMENT_ROWS:
         rows = X[np.sort(np.random.default_rng(seed).choice(X.shape[0], _MOMENT_ROWS, replace=False))]
     Z = (rows - rows.mean(axis=0)) / np.ptp(X, axis=0)  # callers leave out columns constant in the class
-    skew = sps.skew(Z, axis=0)
-    kurt = sps.kurtosis(Z, axis=0)
+    skew, kurt = _skewness_kurtosis(Z)
     worst_skew = int(np.nanargmax(np.abs(skew)))
     worst_kurt = int(np.nanargmax(kurt))
     out: dict[str, Any] = {
@@ -101,7 +114,9 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     continuous = [j for j, f in enumerate(data.features) if f not in discrete]
     features = tuple(data.features[j] for j in continuous)
     for k, cls in enumerate(data.classes if continuous else ()):
-        X = data.values[np.ix_(data.class_rows(k), np.asarray(continuous, dtype=np.intp))]
+        X = np.take(data.values, data.class_rows(k), axis=0)
+        if len(continuous) < data.p:
+            X = X[:, continuous]
         flat = [features[j] for j in np.flatnonzero(np.ptp(X, axis=0) == 0)]
         if flat:
             per_class[label(cls)] = {"skipped": f"features constant within this class: {names(flat)}"}

@@ -10,10 +10,9 @@ from __future__ import annotations
 
 import dataclasses
 from dataclasses import dataclass, field
-from typing import Any, cast
+from typing import Any
 
 import numpy as np
-from scipy import linalg
 from scipy import stats as sps
 
 from discaudit._plain import label
@@ -22,7 +21,7 @@ from discaudit.config import Config
 from discaudit.findings import Finding, fmt, names
 from discaudit.intake import AuditData
 from discaudit.moments import ClassMoments
-from discaudit.stats._linalg import logdet_spd
+from discaudit.stats._linalg import logdet_spd, mahalanobis_sq
 from discaudit.stats.mcd import mcd
 
 KEY = "outliers"
@@ -53,16 +52,6 @@ class ClassOutcome:
     listed: list[dict[str, Any]]
     kept_mean: np.ndarray | None
     masked: int
-
-
-def mahalanobis_sq(X: np.ndarray, centre: np.ndarray, cov: np.ndarray) -> np.ndarray | None:
-    """Squared Mahalanobis distances by a Cholesky triangular solve; None if cov is singular."""
-    try:
-        L = linalg.cholesky(cov, lower=True, check_finite=False)
-    except linalg.LinAlgError:
-        return None
-    Z = linalg.solve_triangular(L, (X - centre).T, lower=True, check_finite=False)
-    return cast(np.ndarray, np.einsum("ij,ij->j", Z, Z))  # numpy types einsum as Any
 
 
 def _cutoff(config: Config, n: int, p: int, h: int | None, m: int | None) -> tuple[float, str]:
@@ -116,6 +105,13 @@ def robust_min_rows(p: int, config: Config) -> int:
     return int(max(2 * (p + 1), np.ceil(config.robust_min_rows_per_feature * p)))
 
 
+def _fit_sample(rows: np.ndarray, limit: int, seed: int) -> np.ndarray:
+    """The rows a robust fit uses: all, or a seeded random subset of ``limit`` rows (in order)."""
+    if rows.size <= limit:
+        return rows
+    return np.sort(np.random.default_rng(seed).choice(rows, limit, replace=False))
+
+
 def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tuple[list[ClassFit], list[np.ndarray]]:
     """A reweighted FAST-MCD fit per class with at least ``min_rows`` rows, classical otherwise.
 
@@ -123,6 +119,11 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
     that MCD needs n well above 5p to estimate the scatter without heavy finite-sample
     shrinkage (Rousseeuw & Van Driessen 1999; cited from memory); the default of 10 rows
     per feature comes from seeded Gaussian simulations (see Config).
+
+    A class with more than ``robust_fit_max_rows`` rows is fitted on a seeded random subset
+    of that many rows (the cost of FAST-MCD's C-steps grows with the rows; the estimate's
+    sampling error at 20,000 rows is far below what moves a cut-off), and every row of the
+    class is then scored against that fit.
 
     Returns the fits and, per class, the squared distances of the class's rows in ``data``.
     """
@@ -132,14 +133,34 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
     fits, distances = [], []
     min_rows = robust_min_rows(p, config)
     for k in range(len(data.classes)):
-        X = data.values[data.class_rows(k)]
-        nk = X.shape[0]
+        rows = data.class_rows(k)
+        nk = rows.size
         if nk >= min_rows:
-            fit = mcd(X, random_state=seeds[k], cutoff_quantile=config.outlier_quantile, finite_sample_correction=True)
-            cut, rule = _cutoff(config, nk, fit.p_used, fit.h, fit.n_reweighted)
+            fit_rows = _fit_sample(rows, max(config.robust_fit_max_rows, min_rows), seeds[k])
+            fit = mcd(
+                data.values[fit_rows],
+                random_state=seeds[k],
+                cutoff_quantile=config.outlier_quantile,
+                finite_sample_correction=True,
+            )
+            d = fit.distances
+            if fit_rows.size < nk:
+                scored = None if fit.exact_fit else mahalanobis_sq(data.values, fit.location, fit.covariance, rows)
+                if scored is None:  # an exact fit on the sample: judge every row by a fit on all of them
+                    fit_rows = rows
+                    fit = mcd(
+                        data.values[rows],
+                        random_state=seeds[k],
+                        cutoff_quantile=config.outlier_quantile,
+                        finite_sample_correction=True,
+                    )
+                    scored = fit.distances
+                d = scored
+            cut, rule = _cutoff(config, fit_rows.size, fit.p_used, fit.h, fit.n_reweighted)
             info: dict[str, Any] = {
                 "h": fit.h,
                 "n_reweighted": fit.n_reweighted,
+                "fit_rows": int(fit_rows.size),
                 "corrections": list(fit.corrections),
                 "seed": seeds[k],
                 "exact_fit": fit.exact_fit,
@@ -151,18 +172,19 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
                     "n_on_hyperplane": fit.n_on_hyperplane,
                 }
             fits.append(ClassFit(k, "reweighted FAST-MCD", fit.location, fit.covariance, cut, rule, True, info))
-            distances.append(fit.distances)
+            distances.append(d)
         else:
+            X = data.values[rows]
             cov = m.class_covariances()[k]
-            d = mahalanobis_sq(X, m.means[k], cov)
+            classical = mahalanobis_sq(X, m.means[k], cov)
             note = f"classical distances (fewer than {min_rows} rows for a robust fit)"
-            if d is None:
+            if classical is None:
                 cov = m.pooled_covariance
-                d = mahalanobis_sq(X, m.means[k], cov)
+                classical = mahalanobis_sq(X, m.means[k], cov)
                 note += ", pooled covariance (class covariance singular)"
             cut, rule = _cutoff(config, nk, p, None, nk)
             fits.append(ClassFit(k, note, m.means[k], cov, cut, rule, False))
-            distances.append(d if d is not None else np.zeros(nk))
+            distances.append(classical if classical is not None else np.zeros(nk))
     return fits, distances
 
 

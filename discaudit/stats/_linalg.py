@@ -41,3 +41,37 @@ def symmetric_eigh(A: FloatArray) -> tuple[FloatArray, FloatArray]:
 def numerical_rank_tolerance(values: FloatArray, size: int) -> float:
     """Threshold below which an eigenvalue counts as zero (as in numpy's matrix_rank)."""
     return float(np.max(np.abs(values)) * size * np.finfo(np.float64).eps)
+
+
+#: Rows per block when distances are computed over many rows (bounds the temporaries).
+ROW_BLOCK = 1 << 13
+
+
+def sq_distances_cholesky(
+    X: FloatArray, centre: FloatArray, L: FloatArray, rows: npt.NDArray[np.intp] | None = None
+) -> FloatArray:
+    """Squared Mahalanobis distances ||L^-1 (x - centre)||^2 of the rows of X, in row blocks.
+
+    ``L`` is the lower Cholesky factor of the covariance. ``rows`` (optional) selects the rows
+    of X to score without copying them all at once. Temporaries stay at a block of rows.
+    """
+    trsm = linalg.get_blas_funcs("trsm", (L,))
+    n = X.shape[0] if rows is None else rows.size
+    out = np.empty(n)
+    for a in range(0, n, ROW_BLOCK):
+        block = X[a : a + ROW_BLOCK] if rows is None else X[rows[a : a + ROW_BLOCK]]
+        # (block - centre).T is Fortran-ordered (p, rows): BLAS solves L Z = C in place, no copy.
+        Z = trsm(1.0, L, (block - centre).T, side=0, lower=1, trans_a=0, diag=0, overwrite_b=1)
+        out[a : a + ROW_BLOCK] = np.einsum("ij,ij->j", Z, Z)
+    return out
+
+
+def mahalanobis_sq(
+    X: FloatArray, centre: FloatArray, cov: FloatArray, rows: npt.NDArray[np.intp] | None = None
+) -> FloatArray | None:
+    """Squared Mahalanobis distances from ``centre`` under ``cov``; None if cov is not positive definite."""
+    try:
+        L = linalg.cholesky(cov, lower=True, check_finite=False)
+    except linalg.LinAlgError:
+        return None
+    return sq_distances_cholesky(X, centre, L, rows)

@@ -14,21 +14,24 @@ from discaudit.stats._inputs import as_labels, as_matrix
 FloatArray = npt.NDArray[np.float64]
 
 
-def class_centred_fourth_sum(
-    X: FloatArray, codes: npt.NDArray[np.intp], means: FloatArray, scale: FloatArray | None = None
-) -> float:
-    """sum_i ||z_i||^4 for the class-centred rows z_i = (x_i - m_{k(i)}) / scale.
+def class_centred_fourth_sums(
+    X: FloatArray, codes: npt.NDArray[np.intp], means: FloatArray, scales: FloatArray
+) -> FloatArray:
+    """sum_i ||z_i||^4 for the class-centred rows z_i = (x_i - m_{k(i)}) / scale, for each scale.
 
-    Computed in blocks of rows so no second full copy of X is held.
+    ``scales`` has one row per scale (S, p); the result has S sums, from one pass over X in
+    blocks of rows (no second full copy of X): ||z_i||^2 = sum_j (x_ij - m_kj)^2 / scale_j^2.
     """
-    total = 0.0
-    inv = None if scale is None else 1.0 / scale
+    inv_sq = 1.0 / np.atleast_2d(scales) ** 2
+    total = np.zeros(inv_sq.shape[0])
     for start in range(0, X.shape[0], 65536):
-        block = X[start : start + 65536] - means[codes[start : start + 65536]]
-        if inv is not None:
-            block *= inv
-        sq = np.einsum("ij,ij->i", block, block)
-        total += float(sq @ sq)
+        block, c = X[start : start + 65536], codes[start : start + 65536]
+        for k in np.unique(c):
+            part = np.compress(c == k, block, axis=0)
+            part -= means[k]
+            part *= part
+            norms_sq = part @ inv_sq.T
+            total += np.einsum("is,is->s", norms_sq, norms_sq)
     return total
 
 
@@ -115,6 +118,16 @@ def pooled_ledoit_wolf(
 ) -> float:
     """Ledoit-Wolf intensity of the pooled within-class covariance from data and its moments.
 
+    See :func:`pooled_ledoit_wolf_intensities`, which gives both variants in one pass.
+    """
+    return pooled_ledoit_wolf_intensities(X, codes, moments, (standardize,))[0]
+
+
+def pooled_ledoit_wolf_intensities(
+    X: FloatArray, codes: npt.NDArray[np.intp], moments: ClassMoments, standardize: tuple[bool, ...]
+) -> tuple[float, ...]:
+    """Intensities for each ``standardize`` flag, from one pass over the rows.
+
     Without standardizing, all features are divided by one common power-of-two scale first:
     the intensity is invariant to a common rescaling (numerator and denominator both scale
     by c^4), and fourth powers of large values would otherwise overflow.
@@ -122,19 +135,22 @@ def pooled_ledoit_wolf(
     Raises
     ------
     DataError
-        If ``standardize`` and a feature does not vary within classes.
+        If a flag is True and a feature does not vary within classes.
     """
     W = moments.within_scatter
     N = moments.n_total
     sd = np.sqrt(np.diag(W) / N)
-    if standardize:
-        if np.any(sd <= 0):
-            raise DataError("standardize=True needs every feature to vary within classes.")
-        scale = sd
-    else:
-        largest = float(sd.max())
-        if largest <= 0:
-            return 0.0
-        scale = np.full(sd.shape, 2.0 ** np.round(np.log2(largest)))
-    fourth = class_centred_fourth_sum(X, codes, moments.means, scale)
-    return ledoit_wolf_intensity(W / np.outer(scale, scale), N, fourth)
+    scales = []
+    for flag in standardize:
+        if flag:
+            if np.any(sd <= 0):
+                raise DataError("standardize=True needs every feature to vary within classes.")
+            scales.append(sd)
+        else:
+            largest = float(sd.max())
+            scales.append(np.full(sd.shape, 2.0 ** np.round(np.log2(largest)) if largest > 0 else 1.0))
+    fourth = class_centred_fourth_sums(X, codes, moments.means, np.array(scales))
+    return tuple(
+        ledoit_wolf_intensity(W / np.outer(scale, scale), N, float(f)) if float(sd.max()) > 0 else 0.0
+        for scale, f in zip(scales, fourth, strict=True)
+    )
