@@ -124,8 +124,12 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
         columns = list(frame.columns)
     codes, classes = encode(labels)
     if values.size:  # reductions only: no temporary copy of the data
-        check_magnitude(np.maximum(-values.min(axis=0), values.max(axis=0)), columns)
-    keep, constant, duplicates = _screen_columns(values, [str(c) for c in columns])
+        col_min, col_max = values.min(axis=0), values.max(axis=0)
+        check_magnitude(np.maximum(-col_min, col_max), columns)
+        is_constant = col_min == col_max
+    else:
+        is_constant = np.ones(values.shape[1], dtype=bool)
+    keep, constant, duplicates = _screen_columns(values, [str(c) for c in columns], is_constant)
     if not keep.any():
         raise DataError(
             f"No usable feature: every numeric column is constant or a duplicate ({', '.join(constant)}); "
@@ -334,13 +338,10 @@ def distinct_counts(values: FloatArray, features: tuple[str, ...], limit: int) -
 
 
 def _screen_columns(
-    values: FloatArray, names: list[str]
+    values: FloatArray, names: list[str], constant: npt.NDArray[np.bool_]
 ) -> tuple[npt.NDArray[np.bool_], list[str], list[tuple[str, str]]]:
-    """Mark constant columns and exact duplicates of an earlier column to set aside."""
-    p = values.shape[1]
-    keep = np.ones(p, dtype=bool)
-    constant = np.ptp(values, axis=0) == 0 if values.shape[0] else np.ones(p, bool)
-    keep &= ~constant
+    """Mark the constant columns and exact duplicates of an earlier column to set aside."""
+    keep = ~constant
     duplicates: list[tuple[str, str]] = []
     first_rows = values[: min(len(values), 64)]
     seen: dict[bytes, list[int]] = {}

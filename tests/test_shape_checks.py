@@ -171,3 +171,21 @@ def test_large_class_outlier_fit_uses_a_seeded_subset_and_scores_every_row() -> 
     assert set(range(40)) <= set(v.outlier_rows().index)
     again = discaudit.preflight(X, y, config=config, random_state=0)
     assert again.to_json() == v.to_json()
+
+
+def test_normality_flat_screen_reads_the_whole_class(monkeypatch) -> None:
+    # Property: a column that is constant in the per-feature moment subsample but not in the
+    # class is not called constant; one that is constant in the whole class is. Invented data.
+    from discaudit.checks import normality
+
+    monkeypatch.setattr(normality, "_MOMENT_ROWS", 50)
+    rng = np.random.default_rng(2)
+    X = rng.normal(size=(400, 3))
+    y = np.repeat([0, 1], 200)
+    X[y == 0, 2] = 1.5
+    X[np.flatnonzero(y == 0)[::50], 2] = 2.5  # 4 rows of 200: a 50-row sample may miss them all
+    per_class = discaudit.preflight(X, y, random_state=0).findings["normality"].details["per_class"]
+    assert "skipped" not in per_class["0"]
+    X[y == 0, 2] = 1.5
+    per_class = discaudit.preflight(X, y, random_state=0).findings["normality"].details["per_class"]
+    assert "constant within this class: x2" in per_class["0"]["skipped"]

@@ -12,6 +12,7 @@ from discaudit.config import Config
 from discaudit.errors import DataError
 from discaudit.findings import Finding, fmt, fmt_p, names
 from discaudit.intake import AuditData
+from discaudit.stats._sampling import subsample_rows
 from discaudit.stats.henze_zirkler import henze_zirkler
 from discaudit.stats.mardia import mardia
 
@@ -35,30 +36,59 @@ def _skewness_kurtosis(Z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         return m3 / m2**1.5, m4 / m2**2 - 3.0
 
 
-def _class_shape(X: np.ndarray, features: tuple[str, ...], config: Config, seed: int) -> dict[str, Any]:
-    """Mardia, Henze-Zirkler and the worst per-feature moments of one class."""
+def _moment_sample(n: int, seed: int) -> np.ndarray | None:
+    """Sorted positions of the seeded per-feature moment subsample, or None (all rows)."""
+    if n <= _MOMENT_ROWS:
+        return None
+    return np.sort(np.random.default_rng(seed).choice(n, _MOMENT_ROWS, replace=False))
+
+
+def _rows_of(data: AuditData, rows: np.ndarray, columns: list[int], positions: np.ndarray | None) -> np.ndarray:
+    """The continuous columns of the class rows at ``positions`` (all if None), as one copy."""
+    X = np.take(data.values, rows if positions is None else rows[positions], axis=0)
+    return X if len(columns) == data.p else X[:, columns]
+
+
+def _flat_columns(data: AuditData, rows: np.ndarray, columns: list[int], sample: np.ndarray) -> np.ndarray:
+    """Positions (in ``columns``) of the columns constant over all the class rows.
+
+    A column that varies in the sample varies in the class; only the others are read in full.
+    """
+    candidates = np.flatnonzero(np.ptp(sample, axis=0) == 0)
+    if candidates.size == 0 or sample.shape[0] == rows.size:
+        return candidates
+    full = data.values[np.ix_(rows, np.asarray(columns, dtype=np.intp)[candidates])]
+    constant: np.ndarray = candidates[np.ptp(full, axis=0) == 0]
+    return constant
+
+
+def _class_shape(
+    moment_rows: np.ndarray, pair_rows: np.ndarray, n: int, pair_seed: int | None, features: tuple[str, ...]
+) -> dict[str, Any]:
+    """Mardia, Henze-Zirkler and the worst per-feature moments of one class of ``n`` rows.
+
+    ``moment_rows`` are the rows for the per-feature moments (all, or a seeded subsample of
+    ``_MOMENT_ROWS``: they need no pairs, and the subsample gives them to three decimals);
+    ``pair_rows`` those for the pairwise statistics (a seeded subsample of
+    ``pairwise_max_rows`` drawn with ``pair_seed``, or all rows).
+    """
     # Standardized first: moments are scale free, and third or fourth powers of large raw
-    # values would overflow.
-    # Per-feature moments need no pairs; above _MOMENT_ROWS rows a seeded subsample gives
-    # them to three decimals at a fraction of the cost.
-    rows = X
-    if X.shape[0] > _MOMENT_ROWS:
-        rows = X[np.sort(np.random.default_rng(seed).choice(X.shape[0], _MOMENT_ROWS, replace=False))]
-    Z = (rows - rows.mean(axis=0)) / np.ptp(X, axis=0)  # callers leave out columns constant in the class
+    # values would overflow. Callers leave out columns constant in these rows.
+    Z = (moment_rows - moment_rows.mean(axis=0)) / np.ptp(moment_rows, axis=0)
     skew, kurt = _skewness_kurtosis(Z)
     worst_skew = int(np.nanargmax(np.abs(skew)))
     worst_kurt = int(np.nanargmax(kurt))
     out: dict[str, Any] = {
-        "n": int(X.shape[0]),
-        "per_feature_moment_rows": int(rows.shape[0]),
+        "n": int(n),
+        "per_feature_moment_rows": int(moment_rows.shape[0]),
         "max_abs_skewness": float(abs(skew[worst_skew])),
         "max_abs_skewness_feature": features[worst_skew],
         "max_excess_kurtosis": float(kurt[worst_kurt]),
         "max_excess_kurtosis_feature": features[worst_kurt],
     }
-    m = mardia(X, max_rows=config.pairwise_max_rows, random_state=seed)
-    hz = henze_zirkler(X, max_rows=config.pairwise_max_rows, random_state=seed)
-    p = X.shape[1]
+    m = mardia(pair_rows, max_rows=pair_rows.shape[0])
+    hz = henze_zirkler(pair_rows, max_rows=pair_rows.shape[0])
+    p = pair_rows.shape[1]
     out.update(
         {
             "mardia_skewness": m.skewness,
@@ -72,7 +102,7 @@ def _class_shape(X: np.ndarray, features: tuple[str, ...], config: Config, seed:
             "henze_zirkler_statistic": hz.statistic,
             "henze_zirkler_p_value": hz.p_value,
             "n_used": m.n_used,
-            "subsample_seed": m.random_state if m.n_used < m.n_total else None,
+            "subsample_seed": pair_seed,
         }
     )
     return out
@@ -114,18 +144,22 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     continuous = [j for j, f in enumerate(data.features) if f not in discrete]
     features = tuple(data.features[j] for j in continuous)
     for k, cls in enumerate(data.classes if continuous else ()):
-        X = np.take(data.values, data.class_rows(k), axis=0)
-        if len(continuous) < data.p:
-            X = X[:, continuous]
-        flat = [features[j] for j in np.flatnonzero(np.ptp(X, axis=0) == 0)]
-        if flat:
-            per_class[label(cls)] = {"skipped": f"features constant within this class: {names(flat)}"}
+        rows = data.class_rows(k)
+        p = len(continuous)
+        if rows.size <= p + 1:
+            per_class[label(cls)] = {"skipped": f"{rows.size} rows for {p} features: too few for the tests"}
             continue
-        if X.shape[0] <= X.shape[1] + 1:
-            per_class[label(cls)] = {"skipped": f"{X.shape[0]} rows for {X.shape[1]} features: too few for the tests"}
+        moment_rows = _rows_of(data, rows, continuous, _moment_sample(rows.size, seeds[k]))
+        flat = _flat_columns(data, rows, continuous, moment_rows)
+        if flat.size:
+            per_class[label(cls)] = {
+                "skipped": f"features constant within this class: {names([features[j] for j in flat])}"
+            }
             continue
+        pair_positions, pair_seed = subsample_rows(rows.size, config.pairwise_max_rows, seeds[k], min_rows=p + 1)
         try:
-            shape = _class_shape(X, features, config, seeds[k])
+            pair_rows = _rows_of(data, rows, continuous, pair_positions)
+            shape = _class_shape(moment_rows, pair_rows, rows.size, pair_seed, features)
         except DataError as exc:
             per_class[label(cls)] = {"skipped": str(exc)}
             continue

@@ -208,8 +208,9 @@ def score_rows(
         {"row": label(row_labels[i]), "distance": float(d_robust[i]), "classical_distance": float(d_classical[i])}
         for i in order
     ]
-    kept = ~flagged
-    kept_mean = X[kept].mean(axis=0) if kept.sum() > 1 else None
+    n_kept = X.shape[0] - int(flagged.sum())
+    # Mean of the kept rows from the column sums, without copying the kept rows.
+    kept_mean = (X.sum(axis=0) - X[flagged].sum(axis=0)) / n_kept if n_kept > 1 else None
     masked = int((flagged & (d_classical <= fit.cutoff)).sum())
     return ClassOutcome(X.shape[0], int(flagged.sum()), listed, kept_mean, masked), flagged, d_classical
 
