@@ -176,3 +176,18 @@ def _assert_close(a, b) -> None:
         assert a == pytest.approx(b, rel=1e-8, abs=1e-12)
     else:
         assert a == b
+
+
+def test_verdict_does_not_depend_on_the_number_of_threads(monkeypatch) -> None:
+    # Property: per-class work spread over threads gives the same verdict as one thread.
+    import discaudit._threads as threads
+
+    rng = np.random.default_rng(21)
+    y = np.repeat([0, 1, 2], [400, 300, 250])
+    X = rng.normal(size=(950, 4)) + y[:, None] * 0.7
+    X[:5] += 6.0
+    monkeypatch.setattr(threads, "usable_cores", lambda: 1)
+    one = discaudit.preflight(X, y, random_state=4).to_json()
+    monkeypatch.setattr(threads, "usable_cores", lambda: 3)
+    three = discaudit.preflight(X, y, random_state=4).to_json()
+    assert one == three

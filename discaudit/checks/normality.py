@@ -7,6 +7,7 @@ from typing import Any
 import numpy as np
 
 from discaudit._plain import label
+from discaudit._threads import map_in_threads
 from discaudit.checks._seeds import class_seeds
 from discaudit.config import Config
 from discaudit.errors import DataError
@@ -143,30 +144,31 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     statuses = []
     continuous = [j for j, f in enumerate(data.features) if f not in discrete]
     features = tuple(data.features[j] for j in continuous)
-    for k, cls in enumerate(data.classes if continuous else ()):
+
+    def shape_of(k: int) -> dict[str, Any]:
         rows = data.class_rows(k)
         p = len(continuous)
         if rows.size <= p + 1:
-            per_class[label(cls)] = {"skipped": f"{rows.size} rows for {p} features: too few for the tests"}
-            continue
+            return {"skipped": f"{rows.size} rows for {p} features: too few for the tests"}
         moment_rows = _rows_of(data, rows, continuous, _moment_sample(rows.size, seeds[k]))
         flat = _flat_columns(data, rows, continuous, moment_rows)
         if flat.size:
-            per_class[label(cls)] = {
-                "skipped": f"features constant within this class: {names([features[j] for j in flat])}"
-            }
-            continue
+            return {"skipped": f"features constant within this class: {names([features[j] for j in flat])}"}
         pair_positions, pair_seed = subsample_rows(rows.size, config.pairwise_max_rows, seeds[k], min_rows=p + 1)
         try:
             pair_rows = _rows_of(data, rows, continuous, pair_positions)
             shape = _class_shape(moment_rows, pair_rows, rows.size, pair_seed, features)
         except DataError as exc:
-            per_class[label(cls)] = {"skipped": str(exc)}
-            continue
-        status, grade = _grade(shape, config)
-        shape["status"], shape["grade"] = status, grade
+            return {"skipped": str(exc)}
+        shape["status"], shape["grade"] = _grade(shape, config)
+        return shape
+
+    # One class per thread: independent, each with its own seed.
+    shapes = map_in_threads(shape_of, range(len(data.classes)) if continuous else range(0))
+    for cls, shape in zip(data.classes, shapes, strict=False):
         per_class[label(cls)] = shape
-        statuses.append((status, cls, shape))
+        if "status" in shape:
+            statuses.append((shape["status"], cls, shape))
     details: dict[str, Any] = {
         "per_class": per_class,
         "discrete_features": list(discrete),

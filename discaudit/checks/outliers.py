@@ -16,6 +16,7 @@ import numpy as np
 from scipy import stats as sps
 
 from discaudit._plain import label
+from discaudit._threads import map_in_threads
 from discaudit.checks._seeds import class_seeds
 from discaudit.config import Config
 from discaudit.findings import Finding, fmt, names
@@ -127,65 +128,75 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
 
     Returns the fits and, per class, the squared distances of the class's rows in ``data``.
     """
-    m = data.moments
-    p = data.p
     seeds = class_seeds(random_state, len(data.classes), _SALT)
-    fits, distances = [], []
-    min_rows = robust_min_rows(p, config)
-    for k in range(len(data.classes)):
+    min_rows = robust_min_rows(data.p, config)
+
+    def fit_one(k: int) -> tuple[ClassFit, np.ndarray]:
         rows = data.class_rows(k)
-        nk = rows.size
-        if nk >= min_rows:
-            fit_rows = _fit_sample(rows, max(config.robust_fit_max_rows, min_rows), seeds[k])
+        if rows.size >= min_rows:
+            return _robust_fit(data, config, k, rows, max(config.robust_fit_max_rows, min_rows), seeds[k])
+        return _classical_fit(data, config, k, rows, min_rows)
+
+    # One class per thread: the fits are independent and each has its own seed.
+    results = map_in_threads(fit_one, range(len(data.classes)))
+    return [fit for fit, _ in results], [d for _, d in results]
+
+
+def _robust_fit(
+    data: AuditData, config: Config, k: int, rows: np.ndarray, limit: int, seed: int
+) -> tuple[ClassFit, np.ndarray]:
+    """Reweighted FAST-MCD of class k (on a seeded subset of ``limit`` rows if larger); all rows scored."""
+    fit_rows = _fit_sample(rows, limit, seed)
+    fit = mcd(
+        data.values[fit_rows], random_state=seed, cutoff_quantile=config.outlier_quantile, finite_sample_correction=True
+    )
+    d = fit.distances
+    if fit_rows.size < rows.size:
+        scored = None if fit.exact_fit else mahalanobis_sq(data.values, fit.location, fit.covariance, rows)
+        if scored is None:  # an exact fit on the sample: judge every row by a fit on all of them
+            fit_rows = rows
             fit = mcd(
-                data.values[fit_rows],
-                random_state=seeds[k],
+                data.values[rows],
+                random_state=seed,
                 cutoff_quantile=config.outlier_quantile,
                 finite_sample_correction=True,
             )
-            d = fit.distances
-            if fit_rows.size < nk:
-                scored = None if fit.exact_fit else mahalanobis_sq(data.values, fit.location, fit.covariance, rows)
-                if scored is None:  # an exact fit on the sample: judge every row by a fit on all of them
-                    fit_rows = rows
-                    fit = mcd(
-                        data.values[rows],
-                        random_state=seeds[k],
-                        cutoff_quantile=config.outlier_quantile,
-                        finite_sample_correction=True,
-                    )
-                    scored = fit.distances
-                d = scored
-            cut, rule = _cutoff(config, fit_rows.size, fit.p_used, fit.h, fit.n_reweighted)
-            info: dict[str, Any] = {
-                "h": fit.h,
-                "n_reweighted": fit.n_reweighted,
-                "fit_rows": int(fit_rows.size),
-                "corrections": list(fit.corrections),
-                "seed": seeds[k],
-                "exact_fit": fit.exact_fit,
-            }
-            if fit.exact_fit and fit.hyperplane_normal is not None:
-                info["hyperplane"] = {
-                    "normal": dict(zip(data.features, fit.hyperplane_normal.tolist(), strict=True)),
-                    "offset": fit.hyperplane_offset,
-                    "n_on_hyperplane": fit.n_on_hyperplane,
-                }
-            fits.append(ClassFit(k, "reweighted FAST-MCD", fit.location, fit.covariance, cut, rule, True, info))
-            distances.append(d)
-        else:
-            X = data.values[rows]
-            cov = m.class_covariances()[k]
-            classical = mahalanobis_sq(X, m.means[k], cov)
-            note = f"classical distances (fewer than {min_rows} rows for a robust fit)"
-            if classical is None:
-                cov = m.pooled_covariance
-                classical = mahalanobis_sq(X, m.means[k], cov)
-                note += ", pooled covariance (class covariance singular)"
-            cut, rule = _cutoff(config, nk, p, None, nk)
-            fits.append(ClassFit(k, note, m.means[k], cov, cut, rule, False))
-            distances.append(classical if classical is not None else np.zeros(nk))
-    return fits, distances
+            scored = fit.distances
+        d = scored
+    cut, rule = _cutoff(config, fit_rows.size, fit.p_used, fit.h, fit.n_reweighted)
+    info: dict[str, Any] = {
+        "h": fit.h,
+        "n_reweighted": fit.n_reweighted,
+        "fit_rows": int(fit_rows.size),
+        "corrections": list(fit.corrections),
+        "seed": seed,
+        "exact_fit": fit.exact_fit,
+    }
+    if fit.exact_fit and fit.hyperplane_normal is not None:
+        info["hyperplane"] = {
+            "normal": dict(zip(data.features, fit.hyperplane_normal.tolist(), strict=True)),
+            "offset": fit.hyperplane_offset,
+            "n_on_hyperplane": fit.n_on_hyperplane,
+        }
+    return ClassFit(k, "reweighted FAST-MCD", fit.location, fit.covariance, cut, rule, True, info), d
+
+
+def _classical_fit(
+    data: AuditData, config: Config, k: int, rows: np.ndarray, min_rows: int
+) -> tuple[ClassFit, np.ndarray]:
+    """Classical distances for a class too small for a robust fit (pooled covariance if singular)."""
+    m = data.moments
+    X = data.values[rows]
+    cov = m.class_covariances()[k]
+    classical = mahalanobis_sq(X, m.means[k], cov)
+    note = f"classical distances (fewer than {min_rows} rows for a robust fit)"
+    if classical is None:
+        cov = m.pooled_covariance
+        classical = mahalanobis_sq(X, m.means[k], cov)
+        note += ", pooled covariance (class covariance singular)"
+    cut, rule = _cutoff(config, rows.size, data.p, None, rows.size)
+    fit = ClassFit(k, note, m.means[k], cov, cut, rule, False)
+    return fit, classical if classical is not None else np.zeros(rows.size)
 
 
 def score_rows(
