@@ -584,6 +584,19 @@ def machine_facts() -> dict[str, Any]:
 DATA_MARK = "<!-- bench-data"
 
 
+#: Everything after this line of RESULTS.md is written by hand and kept when the tables are rewritten.
+NOTES_MARK = "<!-- hand-written notes below: kept by bench_preflight.py -->"
+
+
+def hand_written_notes(path: Path) -> str:
+    """The hand-written part of an existing RESULTS.md (from NOTES_MARK on), or nothing."""
+    if not path.exists():
+        return ""
+    text = path.read_text()
+    at = text.find(NOTES_MARK)
+    return "" if at < 0 else "\n" + text[at:]
+
+
 def load_previous(path: Path) -> dict[str, dict[str, Any]]:
     if not path.exists():
         return {}
@@ -865,7 +878,7 @@ def main(argv: list[str] | None = None) -> int:
     if not args.no_write:
         path = Path(args.output)
         merged = {**load_previous(path), **entries}
-        path.write_text(render(merged))
+        path.write_text(render(merged) + hand_written_notes(path))
         print(f"\nwrote {path}")
     return 0
 
