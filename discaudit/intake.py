@@ -18,7 +18,7 @@ from discaudit._plain import label
 from discaudit.config import Config
 from discaudit.errors import DataError
 from discaudit.moments import ClassMoments
-from discaudit.stats._inputs import LARGEST_SQUARABLE, ordered_unique
+from discaudit.stats._inputs import LARGEST_SQUARABLE, label_codes
 
 FloatArray = npt.NDArray[np.float64]
 
@@ -290,12 +290,7 @@ def _handle_missing(
 
 def encode(labels: pd.Series) -> tuple[npt.NDArray[np.intp], tuple[Any, ...]]:
     """Integer codes of the labels and the classes (sorted when comparable); DataError if too few."""
-    first_seen, uniques = pd.factorize(labels, sort=False)
-    seen = list(uniques)
-    classes = ordered_unique(seen)
-    lookup = {c: k for k, c in enumerate(classes)}
-    # factorize may keep apart labels Python counts as equal (1 and 1.0): the lookup merges them.
-    codes = np.asarray([lookup[v] for v in seen], dtype=np.intp)[first_seen]
+    codes, classes = label_codes(labels)
     check_classes(classes, np.bincount(codes, minlength=len(classes)))
     return codes, tuple(classes)
 

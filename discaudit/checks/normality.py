@@ -73,10 +73,9 @@ def _class_shape(
     ``pair_rows`` those for the pairwise statistics (a seeded subsample of
     ``pairwise_max_rows`` drawn with ``pair_seed``, or all rows).
     """
-    # Standardized first: moments are scale free, and third or fourth powers of large raw
-    # values would overflow. Callers leave out columns constant in these rows.
-    Z = (moment_rows - moment_rows.mean(axis=0)) / np.ptp(moment_rows, axis=0)
-    skew, kurt = _skewness_kurtosis(Z)
+    # Scaled first: moments are scale free, and third or fourth powers of large raw values
+    # would overflow. Callers leave out columns constant in these rows.
+    skew, kurt = _skewness_kurtosis(moment_rows / np.ptp(moment_rows, axis=0))
     worst_skew = int(np.nanargmax(np.abs(skew)))
     worst_kurt = int(np.nanargmax(kurt))
     out: dict[str, Any] = {

@@ -117,10 +117,17 @@ def as_labels(y: Any, n: int, *, name: str = "y") -> tuple[npt.NDArray[np.intp],
             f"{name} has {rows.size} missing labels (first at positions {_short([int(r) for r in rows])}); "
             "drop those rows or label them."
         )
-    classes = ordered_unique(labels.tolist())
+    return label_codes(labels)
+
+
+def label_codes(labels: pd.Series) -> tuple[npt.NDArray[np.intp], list[Any]]:
+    """Integer codes of non-missing labels and the classes in code order (see ``ordered_unique``)."""
+    first_seen, uniques = pd.factorize(labels, sort=False)
+    seen = list(uniques)
+    classes = ordered_unique(seen)
     lookup = {c: k for k, c in enumerate(classes)}
-    codes = np.fromiter((lookup[v] for v in labels.tolist()), dtype=np.intp, count=n)
-    return codes, classes
+    # factorize may keep apart labels Python counts as equal (1 and 1.0): the lookup merges them.
+    return np.asarray([lookup[v] for v in seen], dtype=np.intp)[first_seen], classes
 
 
 def ordered_unique(values: Sequence[Any]) -> list[Any]:

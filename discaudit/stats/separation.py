@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterator
 from dataclasses import dataclass, field
 from typing import Any, cast
 
@@ -26,6 +27,14 @@ _VALUE_TOL = 1e-9
 _ZERO_COEF = 1e-9
 #: Box on the direction (standardized units) for the retry of a strict-set program HiGHS failed.
 _BETA_BOX = 1e6
+#: Rows per block in passes over all rows: no temporary array holds more rows than this.
+_BLOCK_ROWS = 4096
+#: Rows per block of the sums that fix the standardization (kept apart from _BLOCK_ROWS so that
+#: the standardized values, to the last bit, do not depend on that tuning).
+_MOMENT_BLOCK = 65536
+#: Eigenvalue ratio of the standardized cross-product matrix above which all features are
+#: linearly independent without a QR (see _independent_columns).
+_GRAM_SCREEN = 1e-8
 
 IntArray = npt.NDArray[np.intp]
 
@@ -191,8 +200,10 @@ def detect_separation(X: Any, y: Any, *, max_rows: int = 2000, random_state: int
     P empty means none, anything else quasi-complete with boundary rows = the complement of P:
     those rows lie on every separating hyperplane. Rows with t_i > 1/2 are taken as in P.
     Exact collinearity among the features, which makes a_i' beta = 0 for every row for some
-    beta != 0, is not separation and is not reported as such (only strict rows count);
-    constant features are dropped.
+    beta != 0, is not separation and is not reported as such (only strict rows count).
+    Constant features are dropped, and so are features that are linear combinations of others
+    (pivoted QR of the standardized features, first pivot the first feature, rank at 1e-9 of
+    the first pivot); ``notes`` names both.
 
     The reported hyperplane solves a second LP: minimize ||w||_1 subject to a_i' beta >= 1 on
     P and a_i' beta = 0 on the boundary rows (any separating beta vanishes there), over the
@@ -221,7 +232,10 @@ def detect_separation(X: Any, y: Any, *, max_rows: int = 2000, random_state: int
     Q' beta = 0, Q a basis of their span. Zero and membership use relative tolerances:
     |a_j' beta| <= 1e-9 ||beta|| max_i ||a_i||, projection residual <= 1e-6 ||a_j||, span
     rank at 1e-9 of the largest singular value. All LPs use :func:`scipy.optimize.linprog`
-    with the HiGHS solver on standardized features.
+    with the HiGHS solver on standardized features. Only the rows of W are standardized and
+    held at once; every pass over all rows (a_j' beta, lengths, the span check, the QR that
+    finds collinear features) runs on blocks of a few thousand rows, so memory beyond the
+    input stays small at any n.
 
     For K > 2 each class is compared with the union of the others. Separation of one pair of
     classes that is not a one-versus-rest separation is not detected here; it also breaks the
@@ -287,47 +301,168 @@ def detect_separation(X: Any, y: Any, *, max_rows: int = 2000, random_state: int
     )
 
 
-def _independent_columns(std: FloatMatrix, tol: float = 1e-9) -> npt.NDArray[np.intp]:
-    """Columns of a well-conditioned subset spanning (to ``tol``) the same space, by pivoted QR.
+def _row_slices(n: int) -> Iterator[slice]:
+    """Consecutive blocks of at most _BLOCK_ROWS rows covering 0 .. n - 1."""
+    for start in range(0, n, _BLOCK_ROWS):
+        yield slice(start, min(start + _BLOCK_ROWS, n))
 
-    A feature that is another's copy up to rounding adds nothing to separability but can make
-    the linear programs numerically unsolvable, so it is left out (and named).
+
+def _index_chunks(rows: IntArray) -> Iterator[tuple[slice, IntArray | slice]]:
+    """Consecutive pieces of at most _BLOCK_ROWS of the sorted positions ``rows``, with their place.
+
+    A piece of consecutive positions comes as a slice, which reads the rows without a gather.
     """
-    if std.shape[1] < 2:
-        return np.arange(std.shape[1])
-    from scipy import linalg
+    for start in range(0, rows.size, _BLOCK_ROWS):
+        place = slice(start, min(start + _BLOCK_ROWS, rows.size))
+        chunk = rows[place]
+        if chunk[-1] - chunk[0] == chunk.size - 1:
+            yield place, slice(int(chunk[0]), int(chunk[-1]) + 1)
+        else:
+            yield place, chunk
 
-    _, R, piv = linalg.qr(std, mode="economic", pivoting=True, check_finite=False)
-    diag = np.abs(np.diag(R))
-    rank = int(np.sum(diag > tol * diag[0])) if diag.size and diag[0] > 0 else 0
-    return np.sort(piv[: max(rank, 1)])
+
+def _centred_moments(values: FloatMatrix, mean: npt.NDArray[np.float64]) -> tuple[npt.NDArray[np.float64], FloatMatrix]:
+    """Sums of squares and cross-products of the centred columns, by blocks of _MOMENT_BLOCK rows."""
+    p = values.shape[1]
+    sq = np.zeros(p)
+    cross = np.zeros((p, p))
+    for start in range(0, values.shape[0], _MOMENT_BLOCK):
+        block = values[start : start + _MOMENT_BLOCK] - mean
+        sq += np.einsum("ij,ij->j", block, block)
+        cross += block.T @ block
+    return sq, cross
 
 
 class _FeatureSpace:
-    """Standardized non-constant features (centred, divided by the divisor-n standard deviation)."""
+    """Standardized non-constant features (centred, divided by the divisor-n standard deviation).
+
+    Only the raw values are held; standardized rows are made on demand for the rows asked for
+    (a working set, or one block of at most _BLOCK_ROWS rows in a pass over all rows).
+    """
 
     def __init__(self, values: FloatMatrix, names: list[str]) -> None:
         n = values.shape[0]
+        self.values = values
         self.names = names
         self.mean = values.mean(axis=0)
-        # Sums of squares by blocks of rows: no second full copy of the data besides self.std.
-        sq = np.zeros(values.shape[1])
-        for start in range(0, n, 65536):
-            block = values[start : start + 65536] - self.mean
-            sq += np.einsum("ij,ij->j", block, block)
+        sq, cross = _centred_moments(values, self.mean)
         self.sd = np.sqrt(sq / n)
         keep = (np.ptp(values, axis=0) > 0) & (self.sd > 1e-12 * np.abs(self.mean))
         self.keep = np.flatnonzero(keep)
         self.dropped = [names[j] for j in np.flatnonzero(~keep)]
-        std = values[:, self.keep] - self.mean[self.keep]
-        std /= self.sd[self.keep]
-        independent = _independent_columns(std)
+        independent = _independent_columns(self, cross)
         self.collinear = [names[j] for j in np.delete(self.keep, independent)]
-        if self.collinear:
-            self.keep = self.keep[independent]
-            std = np.ascontiguousarray(std[:, independent])
+        self.keep = self.keep[independent]
         self.q = self.keep.size
-        self.std = std
+        self._largest_row_norm: float | None = None
+
+    def design(self, rows: IntArray | slice, sign: npt.NDArray[np.float64] | None = None) -> FloatMatrix:
+        """Rows (z_i, 1) at the given positions, z_i the standardized kept features; times s_i if ``sign``."""
+        raw = self.values[rows]
+        if self.keep.size < raw.shape[1]:
+            raw = raw[:, self.keep]
+        out = np.empty((raw.shape[0], self.keep.size + 1))
+        np.subtract(raw, self.mean[self.keep], out=out[:, :-1])
+        out[:, :-1] /= self.sd[self.keep]
+        out[:, -1] = 1.0
+        if sign is not None:
+            out *= sign[rows, None]
+        return out
+
+    def largest_row_norm(self) -> float:
+        """max_i ||(z_i, 1)|| (= max_i ||a_i|| in every comparison), by blocks, computed once."""
+        if self._largest_row_norm is None:
+            self._largest_row_norm = max(
+                float(np.linalg.norm(self.design(rows), axis=1).max()) for rows in _row_slices(self.values.shape[0])
+            )
+        return self._largest_row_norm
+
+
+def _independent_columns(space: _FeatureSpace, cross: FloatMatrix, tol: float = 1e-9) -> IntArray:
+    """Positions in ``space.keep`` of a well-conditioned subset spanning (to ``tol``) the same space.
+
+    A feature that is another's copy up to rounding adds nothing to separability but can make
+    the linear programs numerically unsolvable, so it is left out (and named). The subset is
+    the leading pivots of a pivoted QR of the standardized data Z, up to the rank at which the
+    pivot falls below ``tol`` times the first.
+
+    Z is never held whole. Its R factor is accumulated by Householder QR of each block of rows
+    stacked under the R so far (TSQR, [1]_), and the pivoted QR runs on that R (at most q x q):
+    the pivots and the diagonal of a pivoted QR depend on Z only through Z'Z = R'R. The first
+    pivot is column 0, since all standardized columns tie in length (sqrt(n)).
+
+    Before that, a screen: if the eigenvalues of the cross-product matrix G = Z'Z (from sums
+    made with the standardization) have ratio above c = _GRAM_SCREEN max(1, q / 100), all
+    columns are kept without a QR. That is the QR's answer: each pivot of a QR of Z is at least
+    sigma_min(Z) and the first at most sigma_max(Z), so all pivots exceed about sqrt(c) >= 1e-4,
+    far above ``tol``, times the first. Rounding moves an eigenvalue of G by at most q times the
+    error bound of an entry, (_MOMENT_BLOCK + n / _MOMENT_BLOCK) 1.1e-16 lambda_max, i.e. below
+    c / 10 lambda_max for n <= 1e8, so the screen cannot pass a G whose true ratio is below
+    0.9 c; closer cases go to the QR.
+
+    References
+    ----------
+    .. [1] Demmel, J., Grigori, L., Hoemmen, M. and Langou, J. (2012). Communication-optimal
+       parallel and sequential QR and LU factorizations. SIAM Journal on Scientific Computing,
+       34(1), A206-A239.
+    """
+    q = space.keep.size
+    if q < 2:
+        return np.arange(q)
+    scale = space.sd[space.keep]
+    gram = cross[np.ix_(space.keep, space.keep)] / np.outer(scale, scale)
+    eigenvalues = np.linalg.eigvalsh(gram)
+    if eigenvalues[0] > _GRAM_SCREEN * max(1.0, q / 100) * eigenvalues[-1]:
+        return np.arange(q)
+    from scipy import linalg
+
+    R = _stacked_r(space)
+    # Every standardized column has length sqrt(n), so the first pivot is a tie that rounding
+    # would break (differently for another order of the rows): take column 0. Projecting it
+    # out leaves R[1:, 1:], whose pivoted QR gives the other pivots. R has min(n, q) >= 2 rows.
+    tail, piv = linalg.qr(R[1:, 1:], mode="r", pivoting=True, check_finite=False)
+    order = np.concatenate([[0], 1 + piv])
+    diag = np.abs(np.concatenate([R[:1, 0], np.diag(tail)]))
+    rank = int(np.sum(diag > tol * diag[0]))
+    return np.sort(order[: max(rank, 1)])
+
+
+def _stacked_r(space: _FeatureSpace) -> FloatMatrix:
+    """R factor (at most q x q) of the standardized kept features, by Householder QR of row blocks."""
+    R = np.zeros((0, space.keep.size))
+    for rows in _row_slices(space.values.shape[0]):
+        # numpy's stubs type every mode's result as QRResult; mode "r" returns the array R.
+        R = cast(FloatMatrix, np.linalg.qr(np.vstack([R, space.design(rows)[:, :-1]]), mode="r"))
+    return R
+
+
+class _SignedRows:
+    """Rows a_i = s_i (z_i, 1) of one comparison, made on demand: a working set or one block at a time."""
+
+    def __init__(self, space: _FeatureSpace, sign: npt.NDArray[np.float64]) -> None:
+        self.space = space
+        self.sign = sign
+        self.n = sign.size
+        self.d = space.q + 1
+
+    def take(self, rows: IntArray | slice) -> FloatMatrix:
+        """The rows at the given positions, as a matrix."""
+        return self.space.design(rows, self.sign)
+
+    def products(self, beta: npt.NDArray[np.float64], rows: IntArray) -> npt.NDArray[np.float64]:
+        """a_i' beta for the given rows (as s_i ((z_i, 1)' beta): the same number, one pass less)."""
+        out = np.empty(rows.size)
+        for place, chunk in _index_chunks(rows):
+            out[place] = self.space.design(chunk) @ beta
+            out[place] *= self.sign[chunk]
+        return out
+
+    def mean(self, rows: IntArray) -> npt.NDArray[np.float64]:
+        """Mean of the given rows, summed in row order (the same rounding as one sum over all of them)."""
+        total = np.zeros(self.d)
+        for _, chunk in _index_chunks(rows):
+            total = np.vstack([total, self.take(chunk)]).sum(axis=0)
+        return total / rows.size
 
 
 def _compare(
@@ -347,7 +482,7 @@ def _compare(
         start = _stratified_rows(positive, n_positive, max_rows, rng)
     else:
         start = np.arange(n)
-    A = _signed_design(space.std, sign)
+    A = _SignedRows(space, sign)
     strict, beta_detect, boundary_span, used = _maximal_strict_set(A, start, max_rows)
     if not strict.any():
         return _not_separated(label, versus, n_used=used, n_total=n)
@@ -377,7 +512,7 @@ def _separated(
     space: _FeatureSpace,
     label: Any,
     versus: tuple[Any, ...],
-    A_std: FloatMatrix,
+    A: _SignedRows,
     beta: npt.NDArray[np.float64],
     strict: npt.NDArray[np.bool_],
     *,
@@ -395,7 +530,7 @@ def _separated(
     coefs = np.zeros(p)
     coefs[space.keep] = w_kept / space.sd[space.keep]
     intercept = b - float(coefs @ space.mean)
-    margin = float(np.min(A_std[strict] @ np.append(w_kept, b)))
+    margin = float(np.min(A.products(np.append(w_kept, b), np.flatnonzero(strict))))
     order = np.argsort(-np.abs(direction), kind="stable")
     return SeparationComparison(
         label=label,
@@ -424,11 +559,6 @@ def _stratified_rows(
     return np.sort(np.concatenate([pos, neg]))
 
 
-def _signed_design(features: FloatMatrix, sign: npt.NDArray[np.float64]) -> FloatMatrix:
-    """Rows a_i = s_i (x_i, 1)."""
-    return np.column_stack([features, np.ones(features.shape[0])]) * sign[:, None]
-
-
 def _right_singular(rows: FloatMatrix) -> tuple[npt.NDArray[np.float64], FloatMatrix]:
     """Singular values and right singular vectors of a tall matrix, via its R factor (no U)."""
     small = np.linalg.qr(rows, mode="r") if rows.shape[0] > rows.shape[1] else rows
@@ -450,12 +580,22 @@ def _row_space(rows: FloatMatrix) -> tuple[FloatMatrix, FloatMatrix]:
     return Vt[:r].T, Vt[r:].T
 
 
-def _outside_span(rows: FloatMatrix, complement: FloatMatrix) -> npt.NDArray[np.bool_]:
-    """Rows whose component orthogonal to the span exceeds _MEMBER_TOL times their length."""
+def _outside_span(
+    A: _SignedRows, rows: IntArray, complement: FloatMatrix
+) -> tuple[npt.NDArray[np.bool_], npt.NDArray[np.float64]]:
+    """Rows whose component orthogonal to the span exceeds _MEMBER_TOL times their length.
+
+    Returns that mask over ``rows`` and the lengths ||a_i|| of the rows it selects.
+    """
     if complement.shape[1] == 0:
-        return np.zeros(rows.shape[0], dtype=bool)
-    residual = np.linalg.norm(rows @ complement, axis=1)
-    return cast(npt.NDArray[np.bool_], residual > _MEMBER_TOL * np.linalg.norm(rows, axis=1))  # norm is typed Any
+        return np.zeros(rows.size, dtype=bool), np.zeros(0)
+    outside = np.empty(rows.size, dtype=bool)
+    lengths = np.empty(rows.size)
+    for place, chunk in _index_chunks(rows):
+        block = A.space.design(chunk)  # the signs s_i change neither length
+        lengths[place] = np.linalg.norm(block, axis=1)
+        outside[place] = np.linalg.norm(block @ complement, axis=1) > _MEMBER_TOL * lengths[place]
+    return outside, lengths[outside]
 
 
 def _grow(work: IntArray, candidates: IntArray, score: npt.NDArray[np.float64], chunk: int) -> IntArray:
@@ -467,7 +607,7 @@ def _grow(work: IntArray, candidates: IntArray, score: npt.NDArray[np.float64], 
 
 
 def _maximal_strict_set(
-    A: FloatMatrix, start: IntArray, chunk: int
+    A: _SignedRows, start: IntArray, chunk: int
 ) -> tuple[npt.NDArray[np.bool_], npt.NDArray[np.float64], FloatMatrix, int]:
     """Rows i with a_i' beta > 0 for some beta in the cone C = {beta : A beta >= 0}.
 
@@ -483,30 +623,34 @@ def _maximal_strict_set(
     Returns the strict mask over all rows, the final beta (a member of C), an orthonormal
     basis of the span of all non-strict rows (= L_W at the end) and |W|.
     """
-    n = A.shape[0]
-    norms = np.linalg.norm(A, axis=1)
-    a_max = float(norms.max())
+    n = A.n
     work = np.asarray(start, dtype=np.intp)
     while True:
-        beta, t = _strict_lp(A[work])
+        beta, t = _strict_lp(A.take(work))
         strict_w = t > 0.5
-        span, complement = _row_space(A[work[~strict_w]])
+        span, complement = _row_space(A.take(work[~strict_w]))
         strict = np.zeros(n, dtype=bool)
         strict[work[strict_w]] = True
-        outside = np.setdiff1d(np.arange(n), work, assume_unique=True)
+        in_work = np.zeros(n, dtype=bool)
+        in_work[work] = True
+        outside = np.flatnonzero(~in_work)
         if outside.size == 0:
             return strict, beta, span, int(work.size)
-        values = A[outside] @ beta
-        tol = _VALUE_TOL * float(np.linalg.norm(beta)) * a_max
+        if beta.any():
+            values = A.products(beta, outside)
+            tol = _VALUE_TOL * float(np.linalg.norm(beta)) * A.space.largest_row_norm()
+        else:  # every a_j' beta is exactly zero: no pass over the rows is needed
+            values, tol = np.zeros(outside.size), 0.0
         violated = values < -tol
         if violated.any():
             work = _grow(work, outside[violated], values[violated], chunk)
             continue
         positive = values > tol
         zero = outside[~positive]
-        unresolved = zero[_outside_span(A[zero], complement)] if zero.size else zero
+        off_span, lengths = _outside_span(A, zero, complement)
+        unresolved = zero[off_span]
         if unresolved.size:
-            work = _grow(work, unresolved, -norms[unresolved], chunk)
+            work = _grow(work, unresolved, -lengths, chunk)
             continue
         strict[outside[positive]] = True
         return strict, beta, span, int(work.size)
@@ -534,7 +678,7 @@ def _strict_lp(A: FloatMatrix) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.
 
 
 def _min_l1_direction(
-    A: FloatMatrix, strict: npt.NDArray[np.bool_], Q: FloatMatrix, chunk: int
+    A: _SignedRows, strict: npt.NDArray[np.bool_], Q: FloatMatrix, chunk: int
 ) -> npt.NDArray[np.float64] | None:
     """beta = (w, b) minimizing ||w||_1 s.t. a_i' beta >= 1 on strict rows, = 0 on the others.
 
@@ -543,7 +687,7 @@ def _min_l1_direction(
     strict rows enter through a working set grown with the violated rows. Returns None if a
     program is reported infeasible (possible only through solver tolerances).
     """
-    d = A.shape[1]
+    d = A.d
     q = d - 1
     strict_rows = np.flatnonzero(strict)
     eye = sparse.identity(q, format="csr")
@@ -554,30 +698,27 @@ def _min_l1_direction(
     c = np.concatenate([np.zeros(d), np.ones(q)])
     bounds = [(None, None)] * d + [(0.0, None)] * q
     if strict_rows.size > chunk:
-        work = strict_rows[np.argpartition(A[strict_rows] @ _rough_direction(A, strict_rows), chunk - 1)[:chunk]]
+        # The mean of the rows is a cheap guess of a direction: start from the rows it finds hardest.
+        guess = A.products(A.mean(strict_rows), strict_rows)
+        work = strict_rows[np.argpartition(guess, chunk - 1)[:chunk]]
         work = np.sort(work)
     else:
         work = strict_rows
     while True:
         m = work.size
         A_ub = sparse.vstack(
-            [sparse.hstack([sparse.csr_matrix(-A[work]), sparse.csr_matrix((m, q))]), l1_rows], format="csr"
+            [sparse.hstack([sparse.csr_matrix(-A.take(work)), sparse.csr_matrix((m, q))]), l1_rows], format="csr"
         )
         b_ub = np.concatenate([-np.ones(m), np.zeros(2 * q)])
         res = _solve(c, A_ub, b_ub, A_eq, b_eq, bounds)
         if res.status != 0:
             return None
         beta = np.asarray(res.x[:d], dtype=np.float64)
-        values = A[strict_rows] @ beta
+        values = A.products(beta, strict_rows)
         violated = values < 1.0 - 1e-7
         if not violated.any():
             return beta
         work = _grow(work, strict_rows[violated], values[violated], chunk)
-
-
-def _rough_direction(A: FloatMatrix, rows: IntArray) -> npt.NDArray[np.float64]:
-    """Mean of the signed rows: a cheap guess to pick the hardest rows for the first working set."""
-    return cast(npt.NDArray[np.float64], A[rows].mean(axis=0))  # numpy types mean(axis=...) as Any
 
 
 def _solve(c: Any, A_ub: Any, b_ub: Any, A_eq: Any, b_eq: Any, bounds: Any) -> Any:
