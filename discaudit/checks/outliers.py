@@ -123,7 +123,7 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
 
     A class with more than ``robust_fit_max_rows`` rows is fitted on a seeded random subset
     of that many rows (the cost of FAST-MCD's C-steps grows with the rows; the estimate's
-    sampling error at 20,000 rows is far below what moves a cut-off), and every row of the
+    sampling error at 10,000 rows is far below what moves a cut-off), and every row of the
     class is then scored against that fit.
 
     Returns the fits and, per class, the squared distances of the class's rows in ``data``.
