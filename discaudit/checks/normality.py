@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -19,22 +21,48 @@ from discaudit.stats.mardia import mardia
 
 KEY = "normality"
 _MOMENT_ROWS = 100_000
+#: Rows gathered at a time for the per-feature moments.
+_BLOCK_ROWS = 1 << 14
 _SALT = 4
 
 
-def _skewness_kurtosis(Z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Per-column moment skewness g1 = m3 / m2^1.5 and excess kurtosis g2 = m4 / m2^2 - 3.
+@dataclass(frozen=True)
+class _ColumnMoments:
+    """Per-column range, moment skewness and excess kurtosis of ``n`` rows."""
+
+    n: int
+    ptp: np.ndarray
+    skewness: np.ndarray
+    excess_kurtosis: np.ndarray
+
+
+def _column_moments(blocks: Callable[[], Iterator[np.ndarray]]) -> _ColumnMoments:
+    """Skewness g1 = m3 / m2^1.5 and excess kurtosis g2 = m4 / m2^2 - 3 per column.
 
     The biased (divisor n) moment estimators, as ``scipy.stats.skew`` and ``kurtosis`` with
-    their defaults; one pass over the centred columns instead of one per statistic.
+    their defaults. Two passes over the blocks of rows ``blocks()`` yields (mean and range,
+    then central moments of the rows divided by their range, so third and fourth powers of
+    large values cannot overflow): the temporaries stay at one block.
     """
-    centred = Z - Z.mean(axis=0)
-    square = centred * centred
-    m2 = square.mean(axis=0)
-    m3 = np.einsum("ij,ij->j", square, centred) / Z.shape[0]
-    m4 = np.einsum("ij,ij->j", square, square) / Z.shape[0]
+    n, total, low, high = 0, None, None, None
+    for block in blocks():
+        n += block.shape[0]
+        total = block.sum(axis=0) if total is None else total + block.sum(axis=0)
+        low = block.min(axis=0) if low is None else np.minimum(low, block.min(axis=0))
+        high = block.max(axis=0) if high is None else np.maximum(high, block.max(axis=0))
+    assert total is not None and low is not None and high is not None, "no rows"
+    mean, ptp = total / n, high - low
+    scale = np.where(ptp > 0, ptp, 1.0)
+    sums = np.zeros((3, mean.size))  # sums of the 2nd, 3rd and 4th powers of the scaled, centred rows
+    for block in blocks():
+        centred = (block - mean) / scale
+        square = centred * centred
+        sums[0] += square.sum(axis=0)
+        sums[1] += np.einsum("ij,ij->j", square, centred)
+        sums[2] += np.einsum("ij,ij->j", square, square)
+    m2, m3, m4 = sums / n
     with np.errstate(invalid="ignore", divide="ignore"):
-        return m3 / m2**1.5, m4 / m2**2 - 3.0
+        return _ColumnMoments(n, ptp, m3 / m2**1.5, m4 / m2**2 - 3.0)
 
 
 def _moment_sample(n: int, seed: int) -> np.ndarray | None:
@@ -44,19 +72,21 @@ def _moment_sample(n: int, seed: int) -> np.ndarray | None:
     return np.sort(np.random.default_rng(seed).choice(n, _MOMENT_ROWS, replace=False))
 
 
-def _rows_of(data: AuditData, rows: np.ndarray, columns: list[int], positions: np.ndarray | None) -> np.ndarray:
-    """The continuous columns of the class rows at ``positions`` (all if None), as one copy."""
-    X = np.take(data.values, rows if positions is None else rows[positions], axis=0)
+def _rows_of(data: AuditData, rows: np.ndarray, columns: list[int]) -> np.ndarray:
+    """The given columns of the given rows, as one copy."""
+    X = np.take(data.values, rows, axis=0)
     return X if len(columns) == data.p else X[:, columns]
 
 
-def _flat_columns(data: AuditData, rows: np.ndarray, columns: list[int], sample: np.ndarray) -> np.ndarray:
+def _flat_columns(
+    data: AuditData, rows: np.ndarray, columns: list[int], flat_in_sample: np.ndarray, sampled: bool
+) -> np.ndarray:
     """Positions (in ``columns``) of the columns constant over all the class rows.
 
     A column that varies in the sample varies in the class; only the others are read in full.
     """
-    candidates = np.flatnonzero(np.ptp(sample, axis=0) == 0)
-    if candidates.size == 0 or sample.shape[0] == rows.size:
+    candidates = np.flatnonzero(flat_in_sample)
+    if candidates.size == 0 or not sampled:
         return candidates
     full = data.values[np.ix_(rows, np.asarray(columns, dtype=np.intp)[candidates])]
     constant: np.ndarray = candidates[np.ptp(full, axis=0) == 0]
@@ -64,23 +94,21 @@ def _flat_columns(data: AuditData, rows: np.ndarray, columns: list[int], sample:
 
 
 def _class_shape(
-    moment_rows: np.ndarray, pair_rows: np.ndarray, n: int, pair_seed: int | None, features: tuple[str, ...]
+    moments: _ColumnMoments, pair_rows: np.ndarray, n: int, pair_seed: int | None, features: tuple[str, ...]
 ) -> dict[str, Any]:
     """Mardia, Henze-Zirkler and the worst per-feature moments of one class of ``n`` rows.
 
-    ``moment_rows`` are the rows for the per-feature moments (all, or a seeded subsample of
-    ``_MOMENT_ROWS``: they need no pairs, and the subsample gives them to three decimals);
-    ``pair_rows`` those for the pairwise statistics (a seeded subsample of
-    ``pairwise_max_rows`` drawn with ``pair_seed``, or all rows).
+    ``moments`` come from all rows or a seeded subsample of ``_MOMENT_ROWS`` (they need no
+    pairs, and the subsample gives them to three decimals); ``pair_rows`` are the rows for the
+    pairwise statistics (a seeded subsample of ``pairwise_max_rows`` drawn with
+    ``pair_seed``, or all rows). Callers leave out columns constant in the class.
     """
-    # Scaled first: moments are scale free, and third or fourth powers of large raw values
-    # would overflow. Callers leave out columns constant in these rows.
-    skew, kurt = _skewness_kurtosis(moment_rows / np.ptp(moment_rows, axis=0))
+    skew, kurt = moments.skewness, moments.excess_kurtosis
     worst_skew = int(np.nanargmax(np.abs(skew)))
     worst_kurt = int(np.nanargmax(kurt))
     out: dict[str, Any] = {
         "n": int(n),
-        "per_feature_moment_rows": int(moment_rows.shape[0]),
+        "per_feature_moment_rows": moments.n,
         "max_abs_skewness": float(abs(skew[worst_skew])),
         "max_abs_skewness_feature": features[worst_skew],
         "max_excess_kurtosis": float(kurt[worst_kurt]),
@@ -149,14 +177,20 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         p = len(continuous)
         if rows.size <= p + 1:
             return {"skipped": f"{rows.size} rows for {p} features: too few for the tests"}
-        moment_rows = _rows_of(data, rows, continuous, _moment_sample(rows.size, seeds[k]))
-        flat = _flat_columns(data, rows, continuous, moment_rows)
+        positions = _moment_sample(rows.size, seeds[k])
+        sample = rows if positions is None else rows[positions]
+        moments = _column_moments(
+            lambda: (
+                _rows_of(data, sample[a : a + _BLOCK_ROWS], continuous) for a in range(0, sample.size, _BLOCK_ROWS)
+            )
+        )
+        flat = _flat_columns(data, rows, continuous, moments.ptp == 0, sampled=positions is not None)
         if flat.size:
             return {"skipped": f"features constant within this class: {names([features[j] for j in flat])}"}
         pair_positions, pair_seed = subsample_rows(rows.size, config.pairwise_max_rows, seeds[k], min_rows=p + 1)
         try:
-            pair_rows = _rows_of(data, rows, continuous, pair_positions)
-            shape = _class_shape(moment_rows, pair_rows, rows.size, pair_seed, features)
+            pair_rows = _rows_of(data, rows if pair_positions is None else rows[pair_positions], continuous)
+            shape = _class_shape(moments, pair_rows, rows.size, pair_seed, features)
         except DataError as exc:
             return {"skipped": str(exc)}
         shape["status"], shape["grade"] = _grade(shape, config)

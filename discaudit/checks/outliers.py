@@ -200,30 +200,48 @@ def _classical_fit(
 
 
 def score_rows(
-    X: np.ndarray, d_robust: np.ndarray, fit: ClassFit, moments: ClassMoments, row_labels: Any
+    X: np.ndarray,
+    d_robust: np.ndarray,
+    fit: ClassFit,
+    moments: ClassMoments,
+    row_labels: Any,
+    rows: np.ndarray | None = None,
 ) -> tuple[ClassOutcome, np.ndarray, np.ndarray]:
-    """Flags, listed rows and the mean of the kept rows for rows X of one class.
+    """Flags, listed rows and the mean of the kept rows for the rows of one class.
 
-    Returns the outcome, the flags and the classical distances (from the class's own
-    classical mean and covariance, for the masking comparison).
+    The class rows are ``X[rows]`` (all of X if ``rows`` is None), read in blocks, never
+    copied whole. Returns the outcome, the flags and the classical distances (from the
+    class's own classical mean and covariance, for the masking comparison).
     """
     k = fit.code
-    d_classical = mahalanobis_sq(X, moments.means[k], moments.class_covariances()[k])
+    n = X.shape[0] if rows is None else rows.size
+    d_classical = mahalanobis_sq(X, moments.means[k], moments.class_covariances()[k], rows)
     if d_classical is None:
-        d_classical = mahalanobis_sq(X, moments.means[k], moments.pooled_covariance)
+        d_classical = mahalanobis_sq(X, moments.means[k], moments.pooled_covariance, rows)
     if d_classical is None:
-        d_classical = np.full(X.shape[0], np.nan)
+        d_classical = np.full(n, np.nan)
     flagged = d_robust > fit.cutoff
     order = np.flatnonzero(flagged)[np.argsort(-d_robust[flagged], kind="stable")][:MAX_LISTED_ROWS]
     listed = [
         {"row": label(row_labels[i]), "distance": float(d_robust[i]), "classical_distance": float(d_classical[i])}
         for i in order
     ]
-    n_kept = X.shape[0] - int(flagged.sum())
-    # Mean of the kept rows from the column sums, without copying the kept rows.
-    kept_mean = (X.sum(axis=0) - X[flagged].sum(axis=0)) / n_kept if n_kept > 1 else None
+    n_kept = n - int(flagged.sum())
+    # Mean of the kept rows from column sums, without copying the kept rows.
+    where = np.flatnonzero(flagged) if rows is None else rows[flagged]
+    kept_mean = (_column_sums(X, rows) - X[where].sum(axis=0)) / n_kept if n_kept > 1 else None
     masked = int((flagged & (d_classical <= fit.cutoff)).sum())
-    return ClassOutcome(X.shape[0], int(flagged.sum()), listed, kept_mean, masked), flagged, d_classical
+    return ClassOutcome(n, int(flagged.sum()), listed, kept_mean, masked), flagged, d_classical
+
+
+def _column_sums(X: np.ndarray, rows: np.ndarray | None, block: int = 1 << 16) -> np.ndarray:
+    """Column sums of ``X[rows]`` (all rows if None), gathering one block of rows at a time."""
+    if rows is None:
+        return np.asarray(X.sum(axis=0))
+    total = np.zeros(X.shape[1])
+    for a in range(0, rows.size, block):
+        total += np.take(X, rows[a : a + block], axis=0).sum(axis=0)
+    return total
 
 
 def judge(
@@ -369,7 +387,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     outcomes = []
     for fit, d in zip(fits, distances, strict=True):
         rows = data.class_rows(fit.code)
-        outcome, flagged, d_classical = score_rows(data.values[rows], d, fit, data.moments, data.row_labels[rows])
+        outcome, flagged, d_classical = score_rows(data.values, d, fit, data.moments, data.row_labels[rows], rows)
         outcomes.append(outcome)
         arrays["distance"][rows] = d
         arrays["classical_distance"][rows] = d_classical
