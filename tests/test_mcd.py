@@ -426,3 +426,25 @@ class TestHardinRocke:
             hardin_rocke_cutoff(100, 2, h=2)
         with pytest.raises(DataError, match="needs more rows"):
             hardin_rocke_cutoff(15, 5)
+
+
+@pytest.mark.parametrize("seed", [1, 3])
+def test_converging_only_the_best_candidate_finds_the_same_subset_quality(monkeypatch, seed: int) -> None:
+    # Property behind _CONVERGE_ALL_WORK: on all rows, two C-steps for every candidate and
+    # convergence for the best one reach (nearly) the same MCD objective as converging all ten
+    # (Rousseeuw & Van Driessen's schedule). Invented, seeded data: 3,000 x 30 with 20% of the
+    # rows shifted 3 units along every axis.
+    import importlib
+
+    mcd_module = importlib.import_module("discaudit.stats.mcd")
+    rng = np.random.default_rng(seed)
+    X = rng.normal(size=(3000, 30)) @ (np.eye(30) + 0.3 * rng.normal(size=(30, 30)))
+    X[:600] += 3.0
+    fast = mcd(X, random_state=seed)
+    monkeypatch.setattr(mcd_module, "_CONVERGE_ALL_WORK", 1e12)
+    thorough = mcd(X, random_state=seed)
+    # A raw determinant at most 2% larger (seeds 0-5 measured 0 to 0.006 in log det) ...
+    assert fast.raw_log_determinant <= thorough.raw_log_determinant + 0.02
+    # ... the same flags to within a few rows, and every shifted row flagged.
+    assert abs(int(fast.outliers.sum()) - int(thorough.outliers.sum())) <= 0.005 * X.shape[0]
+    assert fast.outliers[:600].all()
