@@ -25,8 +25,8 @@ _MEMBER_TOL = 1e-6
 _VALUE_TOL = 1e-9
 #: Coefficients of the standardized direction smaller than this are reported as zero.
 _ZERO_COEF = 1e-9
-#: Box on the direction (standardized units) for the retry of a strict-set program HiGHS failed.
-_BETA_BOX = 1e6
+#: Boxes on the direction (standardized units), tried in turn when HiGHS fails a strict-set program.
+_BETA_BOXES = (1e6, 1e3)
 #: Rows per block in passes over all rows: no temporary array holds more rows than this.
 _BLOCK_ROWS = 4096
 #: Rows per block of the sums that fix the standardization (kept apart from _BLOCK_ROWS so that
@@ -662,12 +662,14 @@ def _strict_lp(A: FloatMatrix) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.
     A_ub = sparse.hstack([sparse.csr_matrix(-A), sparse.identity(m, format="csr")], format="csr")
     c = np.concatenate([np.zeros(d), -np.ones(m)])
     res = _solve(c, A_ub, np.zeros(m), None, None, [(None, None)] * d + [(0.0, 1.0)] * m)
-    if res.status != 0:
+    for box in _BETA_BOXES:
+        if res.status == 0:
+            break
         # The program is feasible (beta = 0) and bounded (t <= 1), so a failure is numerical:
-        # tied, nearly dependent columns can leave HiGHS without a usable basis. Boxing beta
-        # (standardized units) gives it one; only rows whose best margin is below 1 / _BETA_BOX
-        # of a unit-length direction could change status.
-        res = _solve(c, A_ub, np.zeros(m), None, None, [(-_BETA_BOX, _BETA_BOX)] * d + [(0.0, 1.0)] * m)
+        # tied or nearly dependent columns (on these rows) can leave HiGHS without a usable
+        # basis. Boxing beta (standardized units) gives it one; only rows whose best margin
+        # is below 1 / box of a unit-length direction could change status.
+        res = _solve(c, A_ub, np.zeros(m), None, None, [(-box, box)] * d + [(0.0, 1.0)] * m)
     if res.status != 0:
         raise DataError(
             f"the separation linear program failed (HiGHS status {res.status}: {res.message}) on "
