@@ -7,6 +7,7 @@ are mergeable: two partial results over disjoint rows combine exactly (Chan, Gol
 
 from __future__ import annotations
 
+from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any
 
@@ -17,6 +18,22 @@ FloatArray = npt.NDArray[np.float64]
 
 #: Rows per block in :meth:`ClassMoments.from_arrays` (bounds its temporary arrays).
 _ROW_BLOCK = 1 << 16
+
+
+def class_centred_blocks(
+    X: FloatArray, codes: npt.NDArray[np.intp], means: FloatArray
+) -> Iterator[tuple[int, FloatArray]]:
+    """Pairs (k, rows of class k in one block of X minus the mean of class k), block by block.
+
+    Each part is a fresh array (the caller may change it in place; X is left alone), and no
+    temporary holds more than one block of ``_ROW_BLOCK`` rows.
+    """
+    for a in range(0, X.shape[0], _ROW_BLOCK):
+        block, c = X[a : a + _ROW_BLOCK], codes[a : a + _ROW_BLOCK]
+        for k in np.unique(c):
+            part = np.compress(c == k, block, axis=0)
+            part -= means[k]
+            yield int(k), part
 
 
 @dataclass(frozen=True)
@@ -62,12 +79,8 @@ class ClassMoments:
             sums += (c[None, :] == np.arange(K)[:, None]).astype(np.float64) @ X[a : a + _ROW_BLOCK]
         means = sums / np.maximum(counts, 1)[:, None]
         scatter = np.zeros((K, p, p))
-        for a in range(0, n, _ROW_BLOCK):
-            block, c = X[a : a + _ROW_BLOCK], codes[a : a + _ROW_BLOCK]
-            for k in np.unique(c):
-                part = np.compress(c == k, block, axis=0)  # a copy: centring it leaves X alone
-                part -= means[k]
-                scatter[k] += part.T @ part
+        for k, part in class_centred_blocks(X, codes, means):
+            scatter[k] += part.T @ part
         return cls(tuple(classes), counts, means, (scatter + scatter.transpose(0, 2, 1)) / 2.0)
 
     def merge(self, other: ClassMoments) -> ClassMoments:

@@ -8,7 +8,7 @@ import numpy as np
 import numpy.typing as npt
 
 from discaudit.errors import DataError
-from discaudit.moments import ClassMoments
+from discaudit.moments import ClassMoments, class_centred_blocks
 from discaudit.stats._inputs import as_labels, as_matrix
 
 FloatArray = npt.NDArray[np.float64]
@@ -24,14 +24,10 @@ def class_centred_fourth_sums(
     """
     inv_sq = 1.0 / np.atleast_2d(scales) ** 2
     total = np.zeros(inv_sq.shape[0])
-    for start in range(0, X.shape[0], 65536):
-        block, c = X[start : start + 65536], codes[start : start + 65536]
-        for k in np.unique(c):
-            part = np.compress(c == k, block, axis=0)
-            part -= means[k]
-            part *= part
-            norms_sq = part @ inv_sq.T
-            total += np.einsum("is,is->s", norms_sq, norms_sq)
+    for _, part in class_centred_blocks(X, codes, means):
+        part *= part
+        norms_sq = part @ inv_sq.T
+        total += np.einsum("is,is->s", norms_sq, norms_sq)
     return total
 
 
@@ -140,17 +136,14 @@ def pooled_ledoit_wolf_intensities(
     W = moments.within_scatter
     N = moments.n_total
     sd = np.sqrt(np.diag(W) / N)
-    scales = []
-    for flag in standardize:
-        if flag:
-            if np.any(sd <= 0):
-                raise DataError("standardize=True needs every feature to vary within classes.")
-            scales.append(sd)
-        else:
-            largest = float(sd.max())
-            scales.append(np.full(sd.shape, 2.0 ** np.round(np.log2(largest)) if largest > 0 else 1.0))
-    fourth = class_centred_fourth_sums(X, codes, moments.means, np.array(scales))
+    if any(standardize) and np.any(sd <= 0):
+        raise DataError("standardize=True needs every feature to vary within classes.")
+    largest = float(sd.max())
+    if not largest > 0:
+        return tuple(0.0 for _ in standardize)
+    common = np.full(sd.shape, 2.0 ** np.round(np.log2(largest)))
+    scales = np.array([sd if flag else common for flag in standardize])
+    fourth = class_centred_fourth_sums(X, codes, moments.means, scales)
     return tuple(
-        ledoit_wolf_intensity(W / np.outer(scale, scale), N, float(f)) if float(sd.max()) > 0 else 0.0
-        for scale, f in zip(scales, fourth, strict=True)
+        ledoit_wolf_intensity(W / np.outer(scale, scale), N, float(f)) for scale, f in zip(scales, fourth, strict=True)
     )
