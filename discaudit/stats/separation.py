@@ -12,6 +12,7 @@ from scipy import sparse
 from scipy.optimize import linprog
 
 from discaudit.errors import DataError
+from discaudit.moments import ClassMoments
 from discaudit.stats._inputs import FloatMatrix, as_labels, as_matrix
 from discaudit.stats._sampling import resolve_seed
 
@@ -29,9 +30,6 @@ _ZERO_COEF = 1e-9
 _BETA_BOXES = (1e6, 1e3)
 #: Rows per block in passes over all rows: no temporary array holds more rows than this.
 _BLOCK_ROWS = 4096
-#: Rows per block of the sums that fix the standardization (kept apart from _BLOCK_ROWS so that
-#: the standardized values, to the last bit, do not depend on that tuning).
-_MOMENT_BLOCK = 65536
 #: Eigenvalue ratio of the standardized cross-product matrix above which all features are
 #: linearly independent without a QR (see _independent_columns).
 _GRAM_SCREEN = 1e-8
@@ -321,18 +319,6 @@ def _index_chunks(rows: IntArray) -> Iterator[tuple[slice, IntArray | slice]]:
             yield place, chunk
 
 
-def _centred_moments(values: FloatMatrix, mean: npt.NDArray[np.float64]) -> tuple[npt.NDArray[np.float64], FloatMatrix]:
-    """Sums of squares and cross-products of the centred columns, by blocks of _MOMENT_BLOCK rows."""
-    p = values.shape[1]
-    sq = np.zeros(p)
-    cross = np.zeros((p, p))
-    for start in range(0, values.shape[0], _MOMENT_BLOCK):
-        block = values[start : start + _MOMENT_BLOCK] - mean
-        sq += np.einsum("ij,ij->j", block, block)
-        cross += block.T @ block
-    return sq, cross
-
-
 class _FeatureSpace:
     """Standardized non-constant features (centred, divided by the divisor-n standard deviation).
 
@@ -344,9 +330,11 @@ class _FeatureSpace:
         n = values.shape[0]
         self.values = values
         self.names = names
-        self.mean = values.mean(axis=0)
-        sq, cross = _centred_moments(values, self.mean)
-        self.sd = np.sqrt(sq / n)
+        # One class holding every row: its mean and centred cross-products, in row blocks.
+        moments = ClassMoments.from_arrays(values, np.zeros(n, dtype=np.intp), (None,))
+        self.mean = moments.means[0]
+        cross = moments.scatter[0]
+        self.sd = np.sqrt(np.diag(cross) / n)
         keep = (np.ptp(values, axis=0) > 0) & (self.sd > 1e-12 * np.abs(self.mean))
         self.keep = np.flatnonzero(keep)
         self.dropped = [names[j] for j in np.flatnonzero(~keep)]
@@ -396,9 +384,9 @@ def _independent_columns(space: _FeatureSpace, cross: FloatMatrix, tol: float = 
     columns are kept without a QR. That is the QR's answer: each pivot of a QR of Z is at least
     sigma_min(Z) and the first at most sigma_max(Z), so all pivots exceed about sqrt(c) >= 1e-4,
     far above ``tol``, times the first. Rounding moves an eigenvalue of G by at most q times the
-    error bound of an entry, (_MOMENT_BLOCK + n / _MOMENT_BLOCK) 1.1e-16 lambda_max, i.e. below
-    c / 10 lambda_max for n <= 1e8, so the screen cannot pass a G whose true ratio is below
-    0.9 c; closer cases go to the QR.
+    error bound of an entry, (b + n / b) 1.1e-16 lambda_max with b = 65,536 the rows per block
+    of :meth:`ClassMoments.from_arrays`, i.e. below c / 10 lambda_max for n <= 1e8, so the
+    screen cannot pass a G whose true ratio is below 0.9 c; closer cases go to the QR.
 
     References
     ----------
@@ -458,10 +446,10 @@ class _SignedRows:
         return out
 
     def mean(self, rows: IntArray) -> npt.NDArray[np.float64]:
-        """Mean of the given rows, summed in row order (the same rounding as one sum over all of them)."""
+        """Mean of the given rows, summed block by block."""
         total = np.zeros(self.d)
         for _, chunk in _index_chunks(rows):
-            total = np.vstack([total, self.take(chunk)]).sum(axis=0)
+            total += self.take(chunk).sum(axis=0)
         return total / rows.size
 
 
