@@ -23,7 +23,7 @@ from discaudit.findings import Finding, fmt, names
 from discaudit.intake import AuditData
 from discaudit.moments import ClassMoments
 from discaudit.stats._linalg import logdet_spd, mahalanobis_sq
-from discaudit.stats.mcd import mcd
+from discaudit.stats.mcd import MCDResult, mcd
 
 KEY = "outliers"
 _SALT = 3
@@ -146,21 +146,23 @@ def _robust_fit(
     data: AuditData, config: Config, k: int, rows: np.ndarray, limit: int, seed: int
 ) -> tuple[ClassFit, np.ndarray]:
     """Reweighted FAST-MCD of class k (on a seeded subset of ``limit`` rows if larger); all rows scored."""
+
+    def fit_on(subset: np.ndarray) -> MCDResult:
+        return mcd(
+            data.values[subset],
+            random_state=seed,
+            cutoff_quantile=config.outlier_quantile,
+            finite_sample_correction=True,
+        )
+
     fit_rows = _fit_sample(rows, limit, seed)
-    fit = mcd(
-        data.values[fit_rows], random_state=seed, cutoff_quantile=config.outlier_quantile, finite_sample_correction=True
-    )
+    fit = fit_on(fit_rows)
     d = fit.distances
     if fit_rows.size < rows.size:
         scored = None if fit.exact_fit else mahalanobis_sq(data.values, fit.location, fit.covariance, rows)
         if scored is None:  # an exact fit on the sample: judge every row by a fit on all of them
             fit_rows = rows
-            fit = mcd(
-                data.values[rows],
-                random_state=seed,
-                cutoff_quantile=config.outlier_quantile,
-                finite_sample_correction=True,
-            )
+            fit = fit_on(rows)
             scored = fit.distances
         d = scored
     cut, rule = _cutoff(config, fit_rows.size, fit.p_used, fit.h, fit.n_reweighted)
