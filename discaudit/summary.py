@@ -2,8 +2,8 @@
 
 A chunk (a pandas DataFrame with the target column) becomes a :class:`ChunkSummary`;
 summaries merge exactly (moments by Chan et al.'s formula, column ranges and distinct
-values by union, groups of identical columns by refinement, per-class reservoir samples by a hypergeometric split that keeps each
-merged sample uniform over all rows). Streaming folds chunks one by one; Dask reduces
+values by union, groups of identical columns by refinement, per-class reservoir samples
+by a hypergeometric split that keeps each merged sample uniform over all rows). Streaming folds chunks one by one; Dask reduces
 partition summaries in a tree. The result becomes :class:`~discaudit.intake.AuditData`
 whose moments are exact and whose rows are the sample.
 """

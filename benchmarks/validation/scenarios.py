@@ -13,7 +13,7 @@ Random streams: ``np.random.SeedSequence(seed)`` is split into three children, u
 population, the test set and the training set in that order; a re-draw uses
 ``SeedSequence([seed, train_seed])`` for its training set. Nothing else is random.
 
-Gross outliers (two scenarios) contaminate training rows only: they stand for recording
+Gross outliers (two scenarios) contaminate training rows only: they stand for data-entry
 errors, so the models are scored on clean future rows.
 
 The names are our own. No scenario is tuned to any rule of the audit: each describes a
