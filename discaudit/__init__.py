@@ -11,6 +11,6 @@ from discaudit.audit import preflight
 from discaudit.config import Config
 from discaudit.errors import DataError
 from discaudit.findings import Finding
-from discaudit.result import Recommendation, Verdict
+from discaudit.verdict import Recommendation, Verdict
 
 __all__ = ["Config", "DataError", "Finding", "Recommendation", "Verdict", "__version__", "preflight", "stats"]

@@ -1,4 +1,9 @@
-"""``preflight``: input -> validated data with moments -> checks -> verdict."""
+"""``preflight`` and the core: input source -> validated data -> checks -> findings -> decision -> verdict.
+
+:func:`preflight` opens the input through :func:`discaudit.sources.open_source`; :func:`audit`
+runs every registered check once and builds the verdict once. Neither knows which source the
+data came from.
+"""
 
 from __future__ import annotations
 
@@ -8,13 +13,15 @@ import warnings
 from typing import Any
 
 from discaudit import checks
-from discaudit._plain import label
 from discaudit._threads import one_blas_thread
 from discaudit.config import Config
-from discaudit.findings import Finding, skipped, worst
-from discaudit.intake import AuditData, load
-from discaudit.result import Recommendation, Verdict
-from discaudit.verdict import decide, suggested_params
+from discaudit.dataset import AuditData
+from discaudit.decision import recommend
+from discaudit.decision.gate import gate_status
+from discaudit.findings import Finding, skipped
+from discaudit.jsonable import label
+from discaudit.sources import open_source
+from discaudit.verdict import Verdict
 
 
 def preflight(
@@ -64,15 +71,7 @@ def preflight(
     'regularized_lda'
     """
     config = config or Config()
-    if _is_dask_frame(X):
-        from discaudit.distributed import preflight_dask
-
-        return preflight_dask(X, target=target, config=config, random_state=random_state)
-    return audit(load(X, y, target=target, config=config), config, random_state)
-
-
-def _is_dask_frame(X: Any) -> bool:
-    return type(X).__module__.startswith("dask") and hasattr(X, "to_delayed")
+    return audit(open_source(X, y, target=target, config=config, random_state=random_state), config, random_state)
 
 
 def audit(data: AuditData, config: Config, random_state: int | None) -> Verdict:
@@ -88,28 +87,18 @@ def audit(data: AuditData, config: Config, random_state: int | None) -> Verdict:
             start = time.perf_counter()
             if config.severity_of(key) == "off":
                 findings[key] = skipped(key, "Turned off in Config.severity.")
-            elif run is None:
-                findings[key] = checks.not_yet_audited(key)
             else:
                 findings[key] = _run_check(key, run, data, config, random_state)
             timings[key] = time.perf_counter() - start
-    return assemble(findings, data, config, random_state, timings)
+    return _assemble(findings, data, config, random_state, timings)
 
 
-def assemble(
+def _assemble(
     findings: dict[str, Finding], data: AuditData, config: Config, random_state: int | None, timings: dict[str, float]
 ) -> Verdict:
-    """Findings -> recommendation, gate status and metadata."""
-    decision = decide(findings, config)
-    recommendation = Recommendation(
-        model=decision.model,
-        params=suggested_params(decision.model, findings, config),
-        reasons=decision.reasons,
-        alternatives=decision.alternatives,
-        rules_fired=decision.fired,
-    )
-    gating = [f.status for k, f in findings.items() if config.severity_of(k) == "gate"]
-    return Verdict(findings, recommendation, worst(gating), _meta(data, config, random_state), timings)
+    """Findings -> recommendation, gate status and metadata: the one place a verdict is built."""
+    meta = _meta(data, config, random_state)
+    return Verdict(findings, recommend(findings, config), gate_status(findings, config), meta, timings)
 
 
 def _run_check(
@@ -168,11 +157,7 @@ def _fingerprint(data: AuditData) -> dict[str, Any]:
     digest.update(np.ascontiguousarray(data.values, dtype="<f8").data)  # .data: a typed buffer, no copy
     digest.update(np.ascontiguousarray(data.codes, dtype="<i8").data)
     digest.update(json.dumps([str(label(c)) for c in data.classes]).encode("utf-8"))
-    scope = (
-        "the stratified sample of rows held in memory"
-        if getattr(data, "sample", None) is not None
-        else "all audited rows"
-    )
+    scope = "the stratified sample of rows held in memory" if data.sample is not None else "all audited rows"
     return {
         "sha256": digest.hexdigest(),
         "rows": data.n,

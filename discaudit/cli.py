@@ -17,26 +17,24 @@ register a renderer there (its name becomes a ``--format`` choice).
 from __future__ import annotations
 
 import argparse
-import contextlib
-import gzip
 import os
 import re
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
-from typing import Any, NoReturn, TextIO, cast
-
-import pandas as pd
+from typing import NoReturn, TextIO
 
 from discaudit import config_file
 from discaudit.audit import preflight
 from discaudit.config import MISSING_POLICIES, NON_NUMERIC_POLICIES, Config
+from discaudit.decision.gate import FAIL_ON_LEVELS, fails_gate
 from discaudit.errors import DataError
 from discaudit.progress import Progress
-from discaudit.progress import enabled as progress_enabled
-from discaudit.report.junit import FAIL_ON_LEVELS, fails_gate
-from discaudit.result import Verdict
-from discaudit.stream import file_chunks, preflight_chunks
+from discaudit.verdict import Verdict
+
+__all__ = ["FORMATS", "build_parser", "main", "read_table"]
+from discaudit.sources.files import choose_columns, file_chunks, file_columns, kind_name, read_table
+from discaudit.stream import preflight_chunks
 
 #: A renderer turns a verdict into report text; it gets the gate level for formats that use it.
 Renderer = Callable[[Verdict, str], str]
@@ -65,11 +63,7 @@ def _html(verdict: Verdict, fail_on: str) -> str:
 #: ``--format`` name -> renderer. Adding a format is one entry here.
 FORMATS: dict[str, Renderer] = {"text": _text, "json": _json, "markdown": _markdown, "junit": _junit, "html": _html}
 
-#: Files larger than this are read in chunks with a progress line (at a terminal only).
-LARGE_FILE_BYTES = 16_000_000
-_CHUNK_ROWS = 200_000
 _CONFIG_ADVICE = re.compile(r"Config\((missing|non_numeric)='(\w+)'\)")
-_SUFFIXES = {".csv": "csv", ".csv.gz": "csv", ".parquet": "parquet", ".pq": "parquet"}
 
 EPILOG = """\
 examples:
@@ -110,7 +104,7 @@ class _Parser(argparse.ArgumentParser):
 
 def build_parser() -> argparse.ArgumentParser:
     """The ``discaudit`` argument parser (``check`` subcommand)."""
-    from discaudit import __version__
+    from discaudit._version import __version__
 
     parser = _Parser(
         prog="discaudit",
@@ -215,7 +209,7 @@ def run_check(args: argparse.Namespace) -> int:
         return _error(f"{getattr(exc, 'filename', None) or where}: {exc.strerror or exc} while {stage}.")
     except Exception as exc:
         if stage == "reading the data":  # pandas and pyarrow parse errors
-            return _error(f"{where}: cannot be read as {_kind_name(args.data)}: {_first_line(exc)}")
+            return _error(f"{where}: cannot be read as {kind_name(args.data)}: {_first_line(exc)}")
         return _error(
             f"internal error while {stage} ({type(exc).__name__}: {_first_line(exc)}); please report it with "
             "the command that caused it."
@@ -241,14 +235,8 @@ def _stream_audit(args: argparse.Namespace, config: Config) -> Verdict:
         raise FileNotFoundError(2, "No such file or directory", str(path))
     if args.batch_rows < 1:
         raise DataError("--batch-rows must be a positive number of rows.")
-    stored_index: list[str]
-    if _kind(path) == "csv":
-        columns, stored_index = [str(c) for c in pd.read_csv(path, nrows=0).columns], []
-    else:
-        import pyarrow.parquet as pq
-
-        columns, stored_index = _parquet_columns(pq.ParquetFile(path))
-    chosen = _choose(
+    columns, stored_index = file_columns(path)
+    chosen = choose_columns(
         columns,
         args.target,
         _names(args.features),
@@ -276,170 +264,6 @@ def _larger_than_memory_share(path: Path, share: float = 0.25) -> bool:
         return False
 
 
-def read_table(
-    path: str | os.PathLike[str],
-    *,
-    target: str,
-    features: Sequence[str] | None = None,
-    exclude: Sequence[str] = (),
-    index_col: str | None = None,
-    progress: bool | None = None,
-) -> pd.DataFrame:
-    """Read the columns an audit needs from a CSV or Parquet file.
-
-    Parameters
-    ----------
-    path : str or path-like
-        ``.csv``, ``.csv.gz``, ``.parquet`` or ``.pq``; the suffix decides the reader.
-    target : str
-        The class column (must exist).
-    features : sequence of str, optional
-        Feature columns, in this order; default every column but the target and the index.
-    exclude : sequence of str, default ()
-        Columns to leave out of the features.
-    index_col : str, optional
-        Column of row labels, used as the index (a Parquet file's stored pandas index also
-        counts).
-    progress : bool, optional
-        Read in chunks with a progress line on stderr; by default only for files larger
-        than :data:`LARGE_FILE_BYTES` when :func:`discaudit.progress.enabled`.
-
-    Returns
-    -------
-    pandas.DataFrame
-        The features then the target, indexed by ``index_col`` when given.
-
-    Raises
-    ------
-    DataError
-        Unknown suffix, missing target or index column, unknown or conflicting names in
-        ``features``/``exclude``, or no feature left; the message names them.
-    FileNotFoundError
-        When the file does not exist.
-    """
-    path = Path(path)
-    kind = _kind(path)
-    if not path.exists():
-        raise FileNotFoundError(2, "No such file or directory", str(path))
-    if progress is None:
-        progress = progress_enabled() and path.stat().st_size > LARGE_FILE_BYTES
-    if kind == "csv":
-        columns = [str(c) for c in pd.read_csv(path, nrows=0).columns]
-        chosen = _choose(columns, target, features, exclude, index_col)
-        frame = _read_csv(path, [*chosen, target], index_col, progress)
-    else:
-        import pyarrow.parquet as pq
-
-        parquet = pq.ParquetFile(path)
-        columns, stored_index = _parquet_columns(parquet)
-        chosen = _choose(columns, target, features, exclude, index_col, index_names=stored_index)
-        frame = _read_parquet(parquet, path, [*chosen, target], index_col, progress)
-    if index_col is not None:
-        if index_col in frame.columns:
-            frame = frame.set_index(index_col)
-        elif frame.index.name != index_col:  # pragma: no cover - guarded by _choose
-            raise DataError(f"Index column {index_col!r} not found.")
-    selected: pd.DataFrame = frame[[*chosen, target]]  # pandas-stubs' Self reads as Any when checked for 3.10
-    return selected
-
-
-def _kind(path: Path) -> str:
-    name = path.name.lower()
-    for suffix, kind in _SUFFIXES.items():
-        if name.endswith(suffix):
-            return kind
-    raise DataError(
-        f"cannot tell the file format from the name {path.name!r}; use a .csv, .csv.gz, .parquet or .pq file."
-    )
-
-
-def _kind_name(path: str) -> str:
-    try:
-        return {"csv": "CSV", "parquet": "Parquet"}[_kind(Path(path))]
-    except DataError:
-        return "data"
-
-
-def _choose(
-    columns: list[str],
-    target: str,
-    features: Sequence[str] | None,
-    exclude: Sequence[str],
-    index_col: str | None,
-    index_names: Sequence[str] = (),
-) -> list[str]:
-    """The feature columns to read, after checking every name given.
-
-    ``columns`` are the file's data columns; ``index_names`` the names of an index stored
-    with the data (Parquet written by pandas), which only ``--index-col`` may name.
-    """
-    shown = _shown(columns)
-    if target not in columns:
-        raise DataError(f"target column {target!r} not found; the columns are: {shown}.")
-    if index_col is not None:
-        if index_col not in columns and index_col not in index_names:
-            raise DataError(f"index column {index_col!r} (--index-col) not found; the columns are: {shown}.")
-        if index_col == target:
-            raise DataError(f"--index-col {index_col!r} is the target column; pick the column of row labels.")
-    if features is not None and not features:
-        raise DataError("--features names no column; list at least one, e.g. --features a,b.")
-    for option, names in (("--features", features or ()), ("--exclude", exclude)):
-        unknown = [n for n in names if n not in columns]
-        if unknown:
-            raise DataError(f"{option} names columns not in the file: {_shown(unknown)}; the columns are: {shown}.")
-        if target in names:
-            raise DataError(f"{option} names the target column {target!r}; it is never a feature.")
-        if index_col is not None and index_col in names:
-            raise DataError(f"{option} names the index column {index_col!r}; it is never a feature.")
-    pool = list(features) if features else [c for c in columns if c not in (target, index_col)]
-    chosen = [c for c in dict.fromkeys(pool) if c not in set(exclude)]
-    if not chosen:
-        raise DataError("no feature column left after --features/--exclude; keep at least one.")
-    return chosen
-
-
-def _read_csv(path: Path, needed: list[str], index_col: str | None, progress: bool) -> pd.DataFrame:
-    usecols = needed + ([index_col] if index_col else [])
-    if not progress:
-        return pd.read_csv(path, usecols=usecols, low_memory=False)
-    size = path.stat().st_size
-    chunks = []
-    with path.open("rb") as raw, Progress(f"reading {path.name}", total=size, unit="B", show=True) as bar:
-        unpacked = gzip.open(raw) if path.name.lower().endswith(".gz") else contextlib.nullcontext(raw)  # noqa: SIM115
-        with unpacked as handle:
-            for chunk in pd.read_csv(handle, usecols=usecols, low_memory=False, chunksize=_CHUNK_ROWS):
-                chunks.append(chunk)
-                bar.update(raw.tell())  # compressed bytes consumed, for a .gz file
-    return pd.concat(chunks, ignore_index=True) if chunks else pd.read_csv(path, usecols=usecols)
-
-
-def _parquet_columns(parquet: Any) -> tuple[list[str], list[str]]:
-    """Data columns and the names of a stored pandas index, from a Parquet schema."""
-    schema = parquet.schema_arrow
-    meta = schema.pandas_metadata or {}
-    index_fields = [c for c in meta.get("index_columns", []) if isinstance(c, str)]
-    named = {c.get("field_name"): c.get("name") for c in meta.get("columns", [])}
-    stored_index = [str(named[f]) for f in index_fields if named.get(f) is not None]
-    return [n for n in schema.names if n not in index_fields], stored_index
-
-
-def _read_parquet(parquet: Any, path: Path, needed: list[str], index_col: str | None, progress: bool) -> pd.DataFrame:
-    import pyarrow as pa
-
-    columns = needed + ([index_col] if index_col and index_col in parquet.schema_arrow.names else [])
-    if not progress:  # pyarrow is untyped: its tables give Any
-        return cast(pd.DataFrame, parquet.read(columns=columns, use_pandas_metadata=True).to_pandas())
-    groups = parquet.num_row_groups
-    with Progress(f"reading {path.name}", total=groups, unit="row groups", show=True) as bar:
-        tables = []
-        for i in range(groups):
-            tables.append(parquet.read_row_group(i, columns=columns, use_pandas_metadata=True))
-            bar.update(i + 1)
-    if not tables:
-        return cast(pd.DataFrame, parquet.read(columns=columns, use_pandas_metadata=True).to_pandas())
-    return cast(pd.DataFrame, pa.concat_tables(tables).to_pandas())
-
-
 def _as_options(message: str) -> str:
     """Library advice such as ``Config(missing='drop_rows')`` as the matching option ``--missing drop_rows``."""
     return _CONFIG_ADVICE.sub(lambda m: f"--{m.group(1).replace('_', '-')} {m.group(2)}", message)
@@ -459,11 +283,6 @@ def _names(option: str | None) -> list[str] | None:
     if option is None:
         return None
     return [n.strip() for n in option.split(",") if n.strip()]
-
-
-def _shown(names: Sequence[str], limit: int = 10) -> str:
-    listed = ", ".join(repr(n) for n in names[:limit])
-    return listed + (f" and {len(names) - limit} more" if len(names) > limit else "")
 
 
 def _first_line(exc: BaseException) -> str:

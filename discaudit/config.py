@@ -10,19 +10,11 @@ import dataclasses
 from dataclasses import dataclass, field
 from typing import Any
 
+from discaudit.checks import CHECK_KEYS
 from discaudit.errors import DataError
 
-CHECK_KEYS = (
-    "data_hygiene",
-    "sample_size",
-    "scale_disparity",
-    "collinearity",
-    "outliers",
-    "normality",
-    "covariance_homogeneity",
-    "separation",
-    "discriminant_signal",
-)
+__all__ = ["CHECK_KEYS", "MISSING_POLICIES", "NON_NUMERIC_POLICIES", "OUTLIER_CUTOFFS", "SEVERITIES", "Config"]
+
 
 MISSING_POLICIES = ("error", "drop_rows")
 NON_NUMERIC_POLICIES = ("error", "drop")

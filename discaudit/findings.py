@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-from discaudit._plain import plain
+from discaudit.jsonable import plain
 
 STATUSES = ("pass", "warn", "fail", "skip")
 STATUS_RANK = {"skip": -1, "pass": 0, "warn": 1, "fail": 2}

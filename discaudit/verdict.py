@@ -1,244 +1,201 @@
-"""From findings to a recommendation: an ordered table of rules, as data.
-
-Each :class:`Rule` reads named findings and thresholds from :class:`Config` and, when it
-fires, returns a reason sentence that cites the figure that fired. Rules are evaluated in
-a fixed order (blocking data problems; dimensionality and conditioning; covariance
-heterogeneity; distribution shape and outliers); the first rule that fires names the
-model, later ones that fire become reasons or rank the alternatives. When none fires the
-recommendation is plain LDA.
-"""
+"""The audit's result: a recommendation and the findings behind it."""
 
 from __future__ import annotations
 
-from collections.abc import Callable, Mapping
-from dataclasses import dataclass
+import json
+from collections.abc import Mapping
+from dataclasses import dataclass, field
 from typing import Any
 
-from discaudit.config import Config
-from discaudit.findings import Finding, fmt, names
-
-MODELS = ("lda", "regularized_lda", "qda", "logistic_regression")
-
-Findings = Mapping[str, Finding]
+from discaudit.findings import Finding
+from discaudit.jsonable import plain
 
 
 @dataclass(frozen=True)
-class Rule:
-    """One row of the rule table.
+class Recommendation:
+    """Which classifier to fit and how.
 
     Attributes
     ----------
-    name : str
-        Stable identifier of the rule.
-    stage : str
-        Where it sits in the fixed order (for readers of the table).
-    reads : tuple of str
-        The findings it reads.
     model : str
-        The model it argues for.
-    test : callable
-        ``test(findings, config) -> str | None``: the reason sentence when it fires.
+        ``"lda"``, ``"regularized_lda"``, ``"qda"`` or ``"logistic_regression"``.
+    params : dict
+        Suggested settings (e.g. ``{"shrinkage": 0.31, "solver": "lsqr"}``).
+    reasons : list of str
+        Plain-language sentences, each tied to a finding.
+    alternatives : list of dict
+        The other models, best first, each ``{"model": ..., "reason": ...}``.
+    rules_fired : list of str
+        Names of the verdict rules that fired, in order.
     """
 
-    name: str
-    stage: str
-    reads: tuple[str, ...]
     model: str
-    test: Callable[[Findings, Config], str | None]
+    params: dict[str, Any]
+    reasons: list[str]
+    alternatives: list[dict[str, str]]
+    rules_fired: list[str] = field(default_factory=list)
 
+    def estimator(self) -> Any:
+        """An unfitted scikit-learn estimator configured as recommended.
 
-def _detail(findings: Findings, key: str, *path: str) -> Any:
-    value: Any = findings[key].details if key in findings else {}
-    for part in path:
-        if not isinstance(value, Mapping):
-            return None
-        value = value.get(part)
-    return value
+        A Pipeline with a StandardScaler when the settings advise standardizing. Needs
+        scikit-learn (``pip install discaudit[sklearn]``); raises ImportError saying so
+        otherwise. Nothing is fitted.
+        """
+        from discaudit.estimator import build_estimator
 
+        return build_estimator(self.model, self.params)
 
-def _status(findings: Findings, key: str) -> str:
-    return findings[key].status if key in findings else "skip"
-
-
-def _pooled_singular(f: Findings, c: Config) -> str | None:
-    if _status(f, "sample_size") == "fail":
-        return (
-            f"sample_size: N - K = {_detail(f, 'sample_size', 'error_df')} does not exceed p = "
-            f"{_detail(f, 'sample_size', 'n_features')}, so the pooled covariance is singular; shrinkage makes it invertible."
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = plain(  # plain() maps a dict to a dict
+            {
+                "model": self.model,
+                "params": self.params,
+                "reasons": self.reasons,
+                "alternatives": self.alternatives,
+                "rules_fired": self.rules_fired,
+            }
         )
-    if _detail(f, "collinearity", "rank_deficient"):
-        return "collinearity: an exact linear dependency makes the pooled covariance singular; shrinkage makes it invertible."
-    return None
-
-
-def _few_rows(f: Findings, c: Config) -> str | None:
-    rpf = _detail(f, "sample_size", "rows_per_feature")
-    if rpf is not None and rpf < c.rows_per_feature_warn:
-        return (
-            f"sample_size: only {fmt(rpf)} rows per feature (rule of thumb {fmt(c.rows_per_feature_warn)}); "
-            "a shrunk pooled covariance is estimated more stably."
-        )
-    return None
-
-
-def _retained(f: Findings) -> float | None:
-    value = _detail(f, "collinearity", "shrinkage", "retained_separation")
-    return None if value is None else float(value)
-
-
-def _serious_collinearity(f: Findings, c: Config) -> str | None:
-    if _status(f, "collinearity") != "fail":
-        return None
-    retained = _retained(f)
-    if retained is not None and retained < c.shrinkage_retained_min:
-        return None
-    intensity = _detail(f, "collinearity", "shrinkage", "ledoit_wolf_standardized")
-    if intensity is not None and intensity < c.shrinkage_useful_min:
-        return None  # with this many rows the pooled covariance is already estimated well
-    vif = _detail(f, "collinearity", "max_vif")
-    cond = _detail(f, "collinearity", "condition_number")
-    kept = f" and shrinkage keeps {fmt(100 * retained, 3)}% of the class separation" if retained is not None else ""
-    return (
-        f"collinearity: VIF up to {fmt(vif)} and condition number {fmt(cond)} make the inverse pooled covariance "
-        f"unstable{kept}; shrinkage stabilizes it at little cost."
-    )
-
-
-def _costly_shrinkage(f: Findings, c: Config) -> str | None:
-    if _status(f, "collinearity") != "fail":
-        return None
-    retained = _retained(f)
-    if retained is None or retained >= c.shrinkage_retained_min:
-        return None
-    return (
-        f"collinearity: VIF up to {fmt(_detail(f, 'collinearity', 'max_vif'))}, but the classes differ along "
-        f"low-variance directions: shrinkage would keep only {fmt(100 * retained, 3)}% of the class separation, so "
-        "the unshrunk pooled covariance is the better bet while rows per feature allow it."
-    )
-
-
-def _unequal_covariances(f: Findings, c: Config) -> str | None:
-    if _status(f, "covariance_homogeneity") != "fail":
-        return None
-    smallest = _detail(f, "sample_size", "smallest_class_rows_per_feature") or 0.0
-    if smallest < c.qda_rows_per_feature:
-        return None
-    dbic = _detail(f, "covariance_homogeneity", "bic", "delta_bic")
-    cls = _detail(f, "covariance_homogeneity", "most_different_class")
-    return (
-        f"covariance_homogeneity: separate class covariances beat a shared one by {fmt(dbic)} BIC (most in class "
-        f"{cls}), and the smallest class has {fmt(smallest)} rows per feature, enough for QDA."
-    )
-
-
-def _influential_outliers(f: Findings, c: Config) -> str | None:
-    if _status(f, "outliers") != "fail":
-        return None
-    return (
-        f"outliers: {f['outliers'].summary} Logistic regression does not rest on class means and a pooled covariance."
-    )
-
-
-def _non_gaussian(f: Findings, c: Config) -> str | None:
-    if _status(f, "normality") != "fail":
-        return None
-    if _detail(f, "separation", "any_complete"):
-        return None
-    discrete = _detail(f, "normality", "discrete_features") or []
-    what = f"discrete features ({names(discrete)})" if discrete else "classes far from Gaussian"
-    return f"normality: {what}; logistic regression assumes nothing about the feature distribution."
-
-
-RULES: tuple[Rule, ...] = (
-    Rule(
-        "pooled_covariance_singular", "blocking", ("sample_size", "collinearity"), "regularized_lda", _pooled_singular
-    ),
-    Rule("few_rows_per_feature", "dimensionality", ("sample_size",), "regularized_lda", _few_rows),
-    Rule("serious_collinearity", "conditioning", ("collinearity",), "regularized_lda", _serious_collinearity),
-    # Under a strongly non-Gaussian shape the Gaussian covariance comparison (Box's M, BIC) is
-    # not to be trusted, so the shape rules come before the covariance rule.
-    Rule("non_gaussian_shape", "shape", ("normality", "separation"), "logistic_regression", _non_gaussian),
-    Rule("influential_outliers", "shape", ("outliers",), "logistic_regression", _influential_outliers),
-    Rule("unequal_covariances", "covariance", ("covariance_homogeneity", "sample_size"), "qda", _unequal_covariances),
-    Rule("costly_shrinkage", "conditioning", ("collinearity",), "lda", _costly_shrinkage),
-)
-
-_DEFAULT_ORDER = ("lda", "regularized_lda", "logistic_regression", "qda")
-_WHY_NOT = {
-    "lda": "the rules that fired argue against one of its assumptions",
-    "regularized_lda": "no rule found the pooled covariance poorly estimated, so shrinkage only adds bias",
-    "qda": "no rule found unequal covariances that are worth their extra parameters",
-    "logistic_regression": "less efficient than a discriminant model when the Gaussian model holds",
-}
+        return out
 
 
 @dataclass(frozen=True)
-class Decision:
-    """The model, its reasons and the ranked alternatives, before settings are attached."""
+class Verdict:
+    """Result of :func:`discaudit.preflight`.
 
-    model: str
-    reasons: list[str]
-    alternatives: list[dict[str, str]]
-    fired: list[str]
+    Attributes
+    ----------
+    findings : mapping
+        Check key -> :class:`~discaudit.findings.Finding`, in table order.
+    recommendation : Recommendation
+    status : str
+        Worst status over the findings that gate (``"pass"``, ``"warn"`` or ``"fail"``);
+        checks set to ``advisory`` in ``Config.severity`` are shown but do not count.
+    meta : dict
+        Data shape, classes, seed, configuration and version.
+    timings : dict
+        Seconds spent in each check (not part of the JSON, which stays reproducible).
+    """
 
+    findings: Mapping[str, Finding]
+    recommendation: Recommendation
+    status: str
+    meta: dict[str, Any]
+    timings: dict[str, float] = field(default_factory=dict, compare=False)
 
-def decide(findings: Findings, config: Config, rules: tuple[Rule, ...] = RULES) -> Decision:
-    """Evaluate the rule table in order."""
-    fired = [(rule, reason) for rule in rules if (reason := rule.test(findings, config)) is not None]
-    if not fired:
-        model = "lda"
-        reasons = [
-            "No rule fired: no check found a singular or unstable pooled covariance, covariance differences "
-            "worth their parameters, influential outliers or a strongly non-Gaussian shape, so plain LDA is "
-            "the most efficient choice."
-        ]
-    else:
-        model = fired[0][0].model
-        reasons = [reason for rule, reason in fired if rule.model == model]
-        reasons += [f"Also noted: {reason}" for rule, reason in fired if rule.model != model]
-    ranked: list[dict[str, str]] = []
-    for rule, _reason in fired:
-        if rule.model != model and rule.model not in [a["model"] for a in ranked]:
-            ranked.append(
-                {
-                    "model": rule.model,
-                    "reason": f"addresses {rule.name.replace('_', ' ')}, but ranks below "
-                    f"the first rule that fired ({fired[0][0].name.replace('_', ' ')})",
-                }
-            )
-    for candidate in _DEFAULT_ORDER:
-        if candidate != model and candidate not in [a["model"] for a in ranked]:
-            ranked.append({"model": candidate, "reason": _WHY_NOT[candidate]})
-    return Decision(model, reasons, ranked, [rule.name for rule, _ in fired])
+    def to_dict(self) -> dict[str, Any]:
+        """Plain JSON-able content (no numpy types, no NaN or infinity)."""
+        from discaudit.report.json import verdict_to_dict
 
+        return verdict_to_dict(self)
 
-def suggested_params(model: str, findings: Findings, config: Config) -> dict[str, Any]:
-    """Settings for the recommended model, each traceable to a finding."""
-    standardize = _status(findings, "scale_disparity") == "warn"
-    shrink = _detail(findings, "collinearity", "shrinkage") or {}
-    if model == "lda":
-        return {"solver": "svd", "standardize": standardize}
-    if model == "regularized_lda":
-        return {
-            "solver": "lsqr",
-            "shrinkage": round(float(shrink.get("ledoit_wolf_standardized", 0.0)), 4) if shrink else "auto",
-            "shrinkage_estimator": "Ledoit-Wolf on the pooled within-class covariance of standardized features",
-            "standardize": True,
-        }
-    if model == "qda":
-        smallest = _detail(findings, "sample_size", "smallest_class_rows_per_feature") or 1.0
-        reg = min(0.5, 1.0 / float(smallest))
-        return {
-            "reg_param": round(reg, 4),
-            "reg_param_rule": "1 / (rows per feature in the smallest class), capped at 0.5 (heuristic)",
-            "standardize": True,
-        }
-    needs_penalty = bool(
-        _detail(findings, "separation", "any_complete") or _detail(findings, "separation", "any_quasi_complete")
-    ) or ((_detail(findings, "sample_size", "rows_per_feature") or 0) < config.rows_per_feature_warn)
-    return {
-        "standardize": True,
-        "penalty": "l2",
-        "C": 1.0 if needs_penalty else 100.0,
-        "penalty_rule": "C = 1 when the classes separate or rows per feature are few, else a light penalty (C = 100)",
-    }
+    def outlier_rows(self) -> Any:
+        """Rows flagged by the ``outliers`` check, ready to inspect or drop.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Indexed by the input's row labels (all flagged rows, not only those listed in the
+            JSON details), with columns ``class``, ``distance`` (squared robust Mahalanobis),
+            ``classical_distance``, ``cutoff`` and ``ratio`` (distance / cutoff), farthest first
+            within each class. Empty when nothing was flagged or the check did not run.
+        """
+        import pandas as pd
+
+        arrays = self.findings["outliers"].arrays if "outliers" in self.findings else {}
+        columns = ["class", "distance", "classical_distance", "cutoff", "ratio"]
+        if not arrays:
+            return pd.DataFrame(columns=columns)
+        mask = arrays["flagged"]
+        frame = pd.DataFrame(
+            {
+                "class": arrays["class"][mask],
+                "distance": arrays["distance"][mask],
+                "classical_distance": arrays["classical_distance"][mask],
+                "cutoff": arrays["cutoff"][mask],
+            },
+            index=arrays["row_label"][mask],
+        )
+        frame["ratio"] = frame["distance"] / frame["cutoff"]
+        return frame.sort_values(["class", "distance"], ascending=[True, False], kind="stable")
+
+    def to_json(self, indent: int | None = 2) -> str:
+        """The verdict as JSON text (see ``discaudit.report.json`` for the schema)."""
+        return json.dumps(self.to_dict(), indent=indent, allow_nan=False)
+
+    def __str__(self) -> str:
+        from discaudit.report.text import render
+
+        return render(self)
+
+    def _repr_html_(self) -> str:
+        """The verdict table as HTML, for notebooks (see ``discaudit.report.html_table``)."""
+        from discaudit.report.html_table import render
+
+        return render(self)
+
+    def to_frame(self) -> Any:
+        """One row per check: ``check``, ``status``, ``figure``, ``summary``, ``severity``.
+
+        Returns
+        -------
+        pandas.DataFrame
+            In table order, with a default integer index.
+        """
+        import pandas as pd
+
+        from discaudit.report.table import build
+
+        rows = [(r.check, r.status, r.figure, r.summary, r.severity) for r in build(self).rows]
+        return pd.DataFrame(rows, columns=["check", "status", "figure", "summary", "severity"])
+
+    def plot(self, check: str | None = None, ax: Any = None) -> Any:
+        """Diagnostic plot of one check, or an overview of the checks that warn or fail.
+
+        Thin wrapper of :func:`discaudit.plot.plot_verdict` (see there for each plot).
+        Needs matplotlib (``pip install 'discaudit[plot]'``); raises ImportError saying so
+        otherwise.
+
+        Parameters
+        ----------
+        check : str, optional
+            ``"outliers"``, ``"covariance_homogeneity"``, ``"collinearity"``,
+            ``"scale_disparity"`` or ``"normality"``; None for the overview.
+        ax : matplotlib Axes, optional
+            Draw the check's main panel on this axes.
+
+        Returns
+        -------
+        matplotlib.figure.Figure
+        """
+        from discaudit.plot import plot_verdict
+
+        return plot_verdict(self, check=check, ax=ax)
+
+    def to_html(self) -> str:
+        """A self-contained HTML report: table, findings, figures, settings, data fingerprint.
+
+        See :mod:`discaudit.report.html`. Figures need matplotlib; without it the report
+        is written without them and says so.
+        """
+        from discaudit.report.html import render
+
+        return render(self)
+
+    def to_markdown(self) -> str:
+        """The verdict as Markdown for a pull-request comment (see ``discaudit.report.markdown``)."""
+        from discaudit.report.markdown import render
+
+        return render(self)
+
+    def to_junit(self, fail_on: str = "fail") -> str:
+        """The verdict as JUnit XML, one test case per check (see ``discaudit.report.junit``).
+
+        Parameters
+        ----------
+        fail_on : {"fail", "warn"}, default "fail"
+            Lowest status reported as a ``<failure>``; ``warn`` findings pass otherwise.
+        """
+        from discaudit.report.junit import render
+
+        return render(self, fail_on=fail_on)

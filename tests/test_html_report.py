@@ -28,7 +28,7 @@ import discaudit
 from discaudit.cli import main
 from discaudit.config import Config
 from discaudit.plot import plottable
-from discaudit.result import CAUTION
+from discaudit.report.labels import CAUTION
 
 HOSTILE_COLUMN = "<script>alert(1)</script>"
 HOSTILE_CLASS = "<b onmouseover=alert(2)>x</b>"

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from scipy import stats as sps
 
-from discaudit.moments import ClassMoments
 from discaudit.stats.gaussian_bic import covariance_bic
+from discaudit.stats.moments import ClassMoments
 from discaudit.stats.shrinkage_retention import shrinkage_retention
 
 

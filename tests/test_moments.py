@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from discaudit.moments import ClassMoments
+from discaudit.stats.moments import ClassMoments
 
 
 def _data(seed: int = 3) -> tuple[np.ndarray, np.ndarray]:

@@ -20,7 +20,7 @@ import pytest
 
 import discaudit
 from discaudit.config import CHECK_KEYS
-from discaudit.report.junit import fails_gate
+from discaudit.decision.gate import fails_gate
 
 HOSTILE = "<script>alert(1)</script>"
 PIPED = "a|b"

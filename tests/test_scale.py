@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 import discaudit
-from discaudit.moments import ClassMoments
+from discaudit.stats.moments import ClassMoments
 from discaudit.stream import file_chunks, preflight_chunks
 
 MOMENT_CHECKS = ("data_hygiene", "sample_size", "scale_disparity", "covariance_homogeneity", "discriminant_signal")

@@ -318,7 +318,7 @@ class TestBlocks:
 
         X, y, max_rows = _block_cases()[name]
         default = detect_separation(X, y, max_rows=max_rows, random_state=5)
-        monkeypatch.setattr(separation, "_BLOCK_ROWS", block)
+        monkeypatch.setattr(separation, "ROW_BLOCK", block)
         small = detect_separation(X, y, max_rows=max_rows, random_state=5)
         assert small.notes == default.notes
         assert len(small.comparisons) == len(default.comparisons)
@@ -355,7 +355,7 @@ class TestBlocks:
         assert np.linalg.matrix_rank(X[:, kept] - X[:, kept].mean(axis=0)) == 4
         perm = np.random.default_rng(12).permutation(len(y))
         assert detect_separation(X[perm], y[perm]).notes == res.notes
-        monkeypatch.setattr(separation, "_BLOCK_ROWS", 5)
+        monkeypatch.setattr(separation, "ROW_BLOCK", 5)
         assert detect_separation(X, y).notes == res.notes
 
     @pytest.mark.parametrize(("noise", "dropped"), [(1e-7, False), (1e-12, True)])

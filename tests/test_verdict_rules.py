@@ -9,8 +9,9 @@ import pytest
 
 import discaudit
 from discaudit.config import CHECK_KEYS, Config
+from discaudit.decision.rules import RULES, decide
+from discaudit.decision.settings import suggested_params
 from discaudit.findings import Finding
-from discaudit.verdict import RULES, decide, suggested_params
 
 RULE = {r.name: r for r in RULES}
 CFG = Config()

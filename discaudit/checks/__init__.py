@@ -1,14 +1,16 @@
-"""The checks, one module each, in the order the verdict table shows them.
+"""The checks and their registry: one module each, listed once, in the order the verdict table shows them.
 
 Each module exposes ``KEY`` and ``run(data, config, random_state) -> Finding``: it reads the
-shared :class:`~discaudit.intake.AuditData` (moments computed once) and judges it against
-:class:`~discaudit.config.Config`. To add a check, write the module and list it here.
+shared :class:`~discaudit.dataset.AuditData` (moments computed once) and judges it against
+:class:`~discaudit.config.Config`. To add a check, write the module and add it to
+:data:`REGISTRY`; its key then exists everywhere (``Config.severity``, every report, the table).
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
 from types import ModuleType
+from typing import TYPE_CHECKING
 
 from discaudit.checks import (
     collinearity,
@@ -21,35 +23,32 @@ from discaudit.checks import (
     scale_disparity,
     separation,
 )
-from discaudit.config import CHECK_KEYS, Config
+from discaudit.dataset import AuditData
+from discaudit.findings import Finding
 
-__all__ = ["CHECK_KEYS", "CheckFunction", "not_yet_audited", "registry"]
-from discaudit.findings import Finding, skipped
-from discaudit.intake import AuditData
+if TYPE_CHECKING:
+    from discaudit.config import Config
 
-CheckFunction = Callable[[AuditData, Config, "int | None"], Finding]
+__all__ = ["CHECK_KEYS", "REGISTRY", "CheckFunction", "registry"]
 
-_MODULES: dict[str, ModuleType] = {
-    module.KEY: module
-    for module in (
-        data_hygiene,
-        sample_size,
-        scale_disparity,
-        collinearity,
-        outliers,
-        normality,
-        covariance_homogeneity,
-        separation,
-        discriminant_signal,
-    )
-}
+CheckFunction = Callable[[AuditData, "Config", "int | None"], Finding]
 
+#: The checks, in table order.
+REGISTRY: tuple[ModuleType, ...] = (
+    data_hygiene,
+    sample_size,
+    scale_disparity,
+    collinearity,
+    outliers,
+    normality,
+    covariance_homogeneity,
+    separation,
+    discriminant_signal,
+)
 
-def registry() -> list[tuple[str, CheckFunction | None]]:
-    """(key, run function) in table order; ``None`` for a check not yet available."""
-    return [(key, _MODULES[key].run if key in _MODULES else None) for key in CHECK_KEYS]
+CHECK_KEYS: tuple[str, ...] = tuple(module.KEY for module in REGISTRY)
 
 
-def not_yet_audited(key: str) -> Finding:
-    """The finding shown for a check this version does not run yet."""
-    return skipped(key, "Not yet audited in this version of discaudit.")
+def registry() -> list[tuple[str, CheckFunction]]:
+    """(key, run function) of every check, in table order."""
+    return [(module.KEY, module.run) for module in REGISTRY]

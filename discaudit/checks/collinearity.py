@@ -2,17 +2,19 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from discaudit.config import Config
+from discaudit.dataset import AuditData
 from discaudit.findings import Finding, fmt, names
-from discaudit.intake import AuditData
 from discaudit.stats.condition_indices import ConditionIndicesResult, condition_indices_from_covariance
 from discaudit.stats.shrinkage import pooled_ledoit_wolf_intensities
 from discaudit.stats.shrinkage_retention import shrinkage_retention
 from discaudit.stats.vif import vif_from_covariance
+
+if TYPE_CHECKING:
+    from discaudit.config import Config
 
 KEY = "collinearity"
 _RANK_TOLERANCE = 1e-10

@@ -2,19 +2,21 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from scipy import linalg
 
-from discaudit._plain import label
-from discaudit.config import Config
+from discaudit.dataset import AuditData
 from discaudit.findings import Finding, fmt, fmt_p, names
-from discaudit.intake import AuditData
-from discaudit.moments import ClassMoments
+from discaudit.jsonable import label
 from discaudit.stats._linalg import logdet_spd
 from discaudit.stats.box_m import box_m_from_moments
 from discaudit.stats.gaussian_bic import covariance_bic
+from discaudit.stats.moments import ClassMoments
+
+if TYPE_CHECKING:
+    from discaudit.config import Config
 
 KEY = "covariance_homogeneity"
 
@@ -40,9 +42,9 @@ def _plane_arrays(moments: ClassMoments) -> dict[str, Any]:
 
     Not part of the JSON: ``plane_basis`` (p, 2), ``plane_axis_labels``, ``plane_means``
     (K, 2) and ``plane_covariances`` (K, 2, 2, unbiased) for every class, singular ones
-    included. Empty when there is no plane (see :func:`discaudit.plot.plane.discriminant_plane`).
+    included. Empty when there is no plane (see :func:`discaudit.stats.plane.discriminant_plane`).
     """
-    from discaudit.plot.plane import discriminant_plane, project_moments
+    from discaudit.stats.plane import discriminant_plane, project_moments
 
     plane = discriminant_plane(moments)
     if plane is None:

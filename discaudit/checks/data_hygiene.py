@@ -2,12 +2,16 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 
-from discaudit._plain import label
-from discaudit.config import Config
+from discaudit.dataset import AuditData
 from discaudit.findings import Finding, names, sentence
-from discaudit.intake import AuditData
+from discaudit.jsonable import label
+
+if TYPE_CHECKING:
+    from discaudit.config import Config
 
 KEY = "data_hygiene"
 

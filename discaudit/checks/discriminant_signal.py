@@ -2,15 +2,17 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from discaudit.config import Config
+from discaudit.dataset import AuditData
 from discaudit.errors import DataError
 from discaudit.findings import Finding, fmt, fmt_p
-from discaudit.intake import AuditData
 from discaudit.stats.wilks_lambda import wilks_lambda_from_moments
+
+if TYPE_CHECKING:
+    from discaudit.config import Config
 
 KEY = "discriminant_signal"
 

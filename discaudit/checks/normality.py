@@ -4,26 +4,27 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from discaudit._plain import label
 from discaudit._threads import map_in_threads
-from discaudit.checks._seeds import class_seeds
-from discaudit.config import Config
+from discaudit.dataset import AuditData
 from discaudit.errors import DataError
 from discaudit.findings import Finding, fmt, fmt_p, names
-from discaudit.intake import AuditData
+from discaudit.jsonable import label
 from discaudit.stats._sampling import subsample_rows
 from discaudit.stats.henze_zirkler import henze_zirkler
 from discaudit.stats.mardia import mardia
+from discaudit.stats.seeds import NORMALITY, class_seeds
+
+if TYPE_CHECKING:
+    from discaudit.config import Config
 
 KEY = "normality"
 _MOMENT_ROWS = 100_000
 #: Rows gathered at a time for the per-feature moments.
 _BLOCK_ROWS = 1 << 14
-_SALT = 4
 
 
 @dataclass(frozen=True)
@@ -165,7 +166,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     Features with at most ``few_distinct_values`` distinct values cannot be Gaussian and
     fail the check by themselves.
     """
-    seeds = class_seeds(random_state, len(data.classes), _SALT)
+    seeds = class_seeds(random_state, len(data.classes), NORMALITY)
     discrete = data.distinct_counts
     per_class: dict[Any, Any] = {}
     statuses = []

@@ -1,32 +1,38 @@
 """Check ``outliers``: robust Mahalanobis distances per class (FAST-MCD), and whether flagged rows matter.
 
-The check runs in three steps so that streamed input can reuse it: :func:`fit_classes`
-(a robust fit per class, on all rows or on a sample), :func:`score_rows` (distances and
-flags for any rows, e.g. every row of a file in a second pass) and :func:`judge`
-(influence on LDA's estimates and the status).
+The check runs in three steps: :func:`fit_classes` (a robust fit per class, on all rows or on
+the source's per-class sample), :func:`score_rows` (distances and flags for any rows; when the
+rows held are a sample, every row of the input is scored through the data's row pass, block by
+block, and the blocks' tallies add up exactly) and :func:`judge` (influence on LDA's estimates
+and the status).
 """
 
 from __future__ import annotations
 
 import dataclasses
+import functools
+import operator
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+import pandas as pd
 from scipy import stats as sps
 
-from discaudit._plain import label
 from discaudit._threads import map_in_threads
-from discaudit.checks._seeds import class_seeds
-from discaudit.config import Config
+from discaudit.dataset import AuditData, RowBlock
 from discaudit.findings import Finding, fmt, names
-from discaudit.intake import AuditData
-from discaudit.moments import ClassMoments
+from discaudit.jsonable import label
 from discaudit.stats._linalg import logdet_spd, mahalanobis_sq
+from discaudit.stats.blocks import ROW_BLOCK, block_starts
 from discaudit.stats.mcd import MCDResult, mcd
+from discaudit.stats.moments import ClassMoments
+from discaudit.stats.seeds import OUTLIERS, class_seeds
+
+if TYPE_CHECKING:
+    from discaudit.config import Config
 
 KEY = "outliers"
-_SALT = 3
 MAX_LISTED_ROWS = 100
 
 
@@ -128,7 +134,7 @@ def fit_classes(data: AuditData, config: Config, random_state: int | None) -> tu
 
     Returns the fits and, per class, the squared distances of the class's rows in ``data``.
     """
-    seeds = class_seeds(random_state, len(data.classes), _SALT)
+    seeds = class_seeds(random_state, len(data.classes), OUTLIERS)
     min_rows = robust_min_rows(data.p, config)
 
     def fit_one(k: int) -> tuple[ClassFit, np.ndarray]:
@@ -236,13 +242,13 @@ def score_rows(
     return ClassOutcome(n, int(flagged.sum()), listed, kept_mean, masked), flagged, d_classical
 
 
-def _column_sums(X: np.ndarray, rows: np.ndarray | None, block: int = 1 << 16) -> np.ndarray:
+def _column_sums(X: np.ndarray, rows: np.ndarray | None) -> np.ndarray:
     """Column sums of ``X[rows]`` (all rows if None), gathering one block of rows at a time."""
     if rows is None:
         return np.asarray(X.sum(axis=0))
     total = np.zeros(X.shape[1])
-    for a in range(0, rows.size, block):
-        total += np.take(X, rows[a : a + block], axis=0).sum(axis=0)
+    for a in block_starts(rows.size):
+        total += np.take(X, rows[a : a + ROW_BLOCK], axis=0).sum(axis=0)
     return total
 
 
@@ -365,9 +371,14 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     ``outlier_mean_shift_fail`` or inflate the pooled covariance beyond
     ``outlier_logdet_fail``; warns above the warn thresholds or when more than
     ``outlier_fraction_warn`` of a class is flagged.
+
+    When the data hold a per-class sample of a larger input, the fits use the sample and every
+    row of the input is scored through ``data.all_rows`` (the flagged rows are then exact row
+    labels of the input); without a row pass the rows of the sample are scored, and the
+    finding says so.
     """
     discrete = [f for f in data.features if f in data.distinct_counts]
-    data = continuous_part(data)
+    continuous = continuous_part(data)
     if discrete and len(discrete) == len(data.features):
         return Finding(
             KEY,
@@ -376,7 +387,27 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             {"discrete_features_left_out": discrete},
             "-",
         )
-    fits, distances = fit_classes(data, config, random_state)
+    fits, distances = fit_classes(continuous, config, random_state)
+    if data.sample is not None and data.all_rows is not None:
+        positions = np.array([data.features.index(f) for f in continuous.features], dtype=np.intp)
+        scorer = functools.partial(_tally_block, positions, continuous.moments, tuple(fits))
+        finding = _judge_tally(continuous, config, fits, data.all_rows.map_reduce(scorer, operator.add))
+        extra: dict[str, Any] = {
+            "scored_rows": "every row of the input (second pass), against robust fits on the sample"
+        }
+        extra |= {"discrete_features_left_out": discrete} if discrete else {}
+    else:
+        finding = _judge_held_rows(continuous, config, fits, distances)
+        extra = {"discrete_features_left_out": discrete} if discrete else {}
+        if data.sample is not None:
+            extra["scored_rows"] = (
+                "flagged rows come from the per-class sample only: pass a function returning the chunks to score every row"
+            )
+    return dataclasses.replace(finding, details={**finding.details, **extra}) if extra else finding
+
+
+def _judge_held_rows(data: AuditData, config: Config, fits: list[ClassFit], distances: list[np.ndarray]) -> Finding:
+    """Score the rows held in ``data`` (all rows, or the sample) and judge them."""
     n = data.n
     arrays: dict[str, Any] = {
         "row_label": data.row_labels,
@@ -396,10 +427,99 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         arrays["cutoff"][rows] = fit.cutoff
         arrays["flagged"][rows] = flagged
     arrays["fits"] = fits
-    finding = judge(data, config, fits, outcomes, arrays)
-    if discrete:
-        finding = dataclasses.replace(finding, details={**finding.details, "discrete_features_left_out": discrete})
-    return finding
+    return judge(data, config, fits, outcomes, arrays)
+
+
+@dataclass(frozen=True)
+class OutlierTally:
+    """Scoring counts of some rows, per class; tallies of disjoint blocks add up exactly."""
+
+    n: np.ndarray
+    n_flagged: np.ndarray
+    masked: np.ndarray
+    kept_sum: np.ndarray
+    kept_n: np.ndarray
+    listed: list[list[dict[str, Any]]]
+    flagged: pd.DataFrame
+
+    def __add__(self, other: OutlierTally) -> OutlierTally:
+        listed = [
+            sorted(a + b, key=lambda r: -r["distance"])[:MAX_LISTED_ROWS]
+            for a, b in zip(self.listed, other.listed, strict=True)
+        ]
+        return OutlierTally(
+            self.n + other.n,
+            self.n_flagged + other.n_flagged,
+            self.masked + other.masked,
+            self.kept_sum + other.kept_sum,
+            self.kept_n + other.kept_n,
+            listed,
+            pd.concat([self.flagged, other.flagged], ignore_index=True),
+        )
+
+
+_FLAGGED_COLUMNS = ["row_label", "class", "distance", "classical_distance", "cutoff"]
+
+
+def _tally_block(
+    positions: np.ndarray, moments: ClassMoments, fits: tuple[ClassFit, ...], block: RowBlock
+) -> OutlierTally:
+    """Score every row of one block against the robust fits (``positions``: the continuous features)."""
+    K, p = len(fits), positions.size
+    n, n_flagged, masked, kept_n = (np.zeros(K, dtype=np.int64) for _ in range(4))
+    kept_sum = np.zeros((K, p))
+    listed: list[list[dict[str, Any]]] = [[] for _ in fits]
+    parts = [pd.DataFrame(columns=_FLAGGED_COLUMNS)]
+    values = block.values[:, positions]
+    for k, fit in enumerate(fits):
+        rows = np.flatnonzero(block.codes == fit.code)
+        X = values[rows]
+        d = mahalanobis_sq(X, fit.location, fit.covariance) if rows.size else None
+        if d is None:
+            continue
+        out, flags, d_classical = score_rows(X, d, fit, moments, block.row_labels[rows])
+        n[k], n_flagged[k], masked[k] = out.n, out.n_flagged, out.masked
+        kept_sum[k], kept_n[k] = X[~flags].sum(axis=0), int((~flags).sum())
+        listed[k] = out.listed
+        if flags.any():
+            parts.append(
+                pd.DataFrame(
+                    {
+                        "row_label": block.row_labels[rows][flags],
+                        "class": moments.classes[fit.code],
+                        "distance": d[flags],
+                        "classical_distance": d_classical[flags],
+                        "cutoff": fit.cutoff,
+                    }
+                )
+            )
+    flagged = pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
+    return OutlierTally(n, n_flagged, masked, kept_sum, kept_n, listed, flagged)
+
+
+def _judge_tally(data: AuditData, config: Config, fits: list[ClassFit], tally: OutlierTally) -> Finding:
+    """Judge the tallies of every row of the input."""
+    outcomes = [
+        ClassOutcome(
+            int(tally.n[k]),
+            int(tally.n_flagged[k]),
+            tally.listed[k],
+            tally.kept_sum[k] / tally.kept_n[k] if tally.kept_n[k] > 1 else None,
+            int(tally.masked[k]),
+        )
+        for k in range(len(fits))
+    ]
+    rows = tally.flagged
+    arrays = {
+        "row_label": pd.Index(rows["row_label"]),
+        "class": rows["class"].to_numpy(dtype=object),
+        "distance": rows["distance"].to_numpy(dtype=float),
+        "classical_distance": rows["classical_distance"].to_numpy(dtype=float),
+        "cutoff": rows["cutoff"].to_numpy(dtype=float),
+        "flagged": np.ones(len(rows), dtype=bool),
+        "fits": fits,
+    }
+    return judge(data, config, fits, outcomes, arrays)
 
 
 def _examples(per_class: dict[Any, Any]) -> str:

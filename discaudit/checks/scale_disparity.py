@@ -2,12 +2,16 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 
-from discaudit.config import Config
+from discaudit.dataset import AuditData
 from discaudit.findings import Finding, fmt
-from discaudit.intake import AuditData
 from discaudit.stats._linalg import correlation_from_covariance
+
+if TYPE_CHECKING:
+    from discaudit.config import Config
 
 KEY = "scale_disparity"
 

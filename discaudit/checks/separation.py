@@ -2,15 +2,17 @@
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 
-from discaudit._plain import label
-from discaudit.config import Config
+from discaudit.dataset import AuditData
 from discaudit.findings import Finding, names
-from discaudit.intake import AuditData
+from discaudit.jsonable import label
 from discaudit.stats.separation import detect_separation
+
+if TYPE_CHECKING:
+    from discaudit.config import Config
 
 KEY = "separation"
 _MAX_LISTED_ROWS = 50

@@ -13,7 +13,7 @@ Plots and what they show:
     farthest first); and a chi-square Q-Q plot of the robust distances.
 ``covariance_homogeneity``
     Each class's 95% covariance ellipse (solid) and its robust MCD ellipse (dashed) on the
-    first two discriminant directions (see :mod:`discaudit.plot.plane`).
+    first two discriminant directions (see :mod:`discaudit.stats.plane`).
 ``collinearity``
     VIF per feature on a log axis with the warn and fail thresholds, and the near
     dependencies of the condition-index analysis.
@@ -28,22 +28,24 @@ status is always written out (``"✗ FAIL"``) and classes differ by marker as we
 Figures are :class:`matplotlib.figure.Figure` objects not registered with pyplot: a notebook
 shows the returned figure, a script saves it with ``fig.savefig(...)``.
 
-This package imports matplotlib only when a plot is drawn; :mod:`discaudit.plot.plane`
+This package imports matplotlib only when a plot is drawn; :mod:`discaudit.stats.plane`
 (numbers only) is used by the checks while the audit runs.
 """
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:  # pragma: no cover
     from matplotlib.axes import Axes
     from matplotlib.figure import Figure
 
-    from discaudit.result import Verdict
+    from discaudit.verdict import Verdict
 
-#: Checks that have a plot, in the order the overview and the HTML report show them.
-PLOTTED_CHECKS = ("scale_disparity", "collinearity", "outliers", "normality", "covariance_homogeneity")
+
+from discaudit.plot.registry import PLOTTED_CHECKS, plot_module
+
+__all__ = ["PLOTTED_CHECKS", "plot_verdict", "plottable", "require_matplotlib"]
 
 _INSTALL_HINT = (
     "discaudit's plots need matplotlib, which is not installed; install it with "
@@ -58,18 +60,6 @@ def require_matplotlib() -> None:
         import matplotlib.figure  # noqa: F401
     except ImportError as exc:
         raise ImportError(_INSTALL_HINT) from exc
-
-
-def _modules() -> dict[str, Any]:
-    from discaudit.plot import collinearity, covariance, normality, outliers, scale
-
-    return {
-        "scale_disparity": scale,
-        "collinearity": collinearity,
-        "outliers": outliers,
-        "normality": normality,
-        "covariance_homogeneity": covariance,
-    }
 
 
 def plottable(verdict: Verdict) -> list[str]:
@@ -111,7 +101,7 @@ def plot_verdict(verdict: Verdict, check: str | None = None, ax: Axes | None = N
 
     See Also
     --------
-    discaudit.result.Verdict.to_html : a self-contained report with these plots embedded.
+    discaudit.verdict.Verdict.to_html : a self-contained report with these plots embedded.
 
     Examples
     --------
@@ -131,7 +121,7 @@ def plot_verdict(verdict: Verdict, check: str | None = None, ax: Axes | None = N
         from discaudit.plot.overview import draw_overview
 
         return draw_overview(verdict)
-    module = _modules()[check]
+    module = plot_module(check)
     from discaudit.plot import _available
 
     if ax is not None:

@@ -11,8 +11,8 @@ import pandas as pd
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
-from discaudit._plain import label
-from discaudit.report.markdown import status_label
+from discaudit.jsonable import label
+from discaudit.report.labels import status_label
 
 #: Okabe & Ito (2008) colour-blind-safe palette, yellow moved last (weak on white).
 OKABE_ITO = ("#0072B2", "#E69F00", "#009E73", "#D55E00", "#56B4E9", "#CC79A7", "#000000", "#F0E442")

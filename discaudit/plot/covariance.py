@@ -1,7 +1,7 @@
 """Covariance-homogeneity plot: each class's 95% covariance ellipse on the discriminant plane.
 
 Reads ``plane_basis``, ``plane_axis_labels``, ``plane_means`` and ``plane_covariances`` from
-the ``covariance_homogeneity`` finding's arrays (see :mod:`discaudit.plot.plane`) and, when
+the ``covariance_homogeneity`` finding's arrays (see :mod:`discaudit.stats.plane`) and, when
 the ``outliers`` finding holds robust per-class fits (``arrays["fits"]``), projects their MCD
 location and covariance on the same plane for a dashed robust ellipse. Equal covariances draw
 ellipses of one shape and size; a class with a wider or tilted ellipse is the one that differs.

@@ -24,7 +24,7 @@ from matplotlib.figure import Figure
 from discaudit.findings import fmt
 from discaudit.plot import _common as c
 from discaudit.plot.outliers import qq_scatter
-from discaudit.report.markdown import status_label
+from discaudit.report.labels import status_label
 
 KEY = "normality"
 MAX_CLASS_PANELS = 8

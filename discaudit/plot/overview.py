@@ -9,28 +9,23 @@ from matplotlib.figure import Figure
 
 from discaudit.plot import _available
 from discaudit.plot import _common as c
-from discaudit.report.markdown import status_label
-from discaudit.report.table import MODEL_NAMES
+from discaudit.plot.registry import PLOTTED_CHECKS, plot_module
+from discaudit.report.labels import MODEL_NAMES, status_label
 
 
 def overview_checks(verdict: Any) -> tuple[list[str], list[str]]:
     """(plotted checks that warn or fail, other checks that warn or fail), in display order."""
-    from discaudit.plot import PLOTTED_CHECKS
-
     bad = [k for k, f in verdict.findings.items() if f.status in ("warn", "fail")]
     plotted = [k for k in PLOTTED_CHECKS if k in bad and _available.available(verdict, k)]
     return plotted, [k for k in bad if k not in plotted]
 
 
 def draw_overview(verdict: Any) -> Figure:
-    from discaudit.plot import _modules
-
     plotted, others = overview_checks(verdict)
     n_panels = len(plotted) + (1 if others or not plotted else 0)
     fig, axes = c.new_figure(n_panels, ncols=2, panel=(6.4, 4.8))
-    modules = _modules()
     for ax, key in zip(axes, plotted, strict=False):
-        modules[key].draw(verdict, ax)
+        plot_module(key).draw(verdict, ax)
     if others or not plotted:
         ax = axes[len(plotted)]
         severity = verdict.meta.get("severity", {})

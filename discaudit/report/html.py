@@ -23,14 +23,16 @@ from __future__ import annotations
 import base64
 import io
 from html import escape
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from discaudit.config import Config
 from discaudit.findings import fmt
 from discaudit.report.html_table import format_table
-from discaudit.report.markdown import status_label
+from discaudit.report.labels import CAUTION, status_label
 from discaudit.report.table import build
-from discaudit.result import CAUTION, Verdict
+
+if TYPE_CHECKING:
+    from discaudit.verdict import Verdict
 
 #: Tables with more rows than this are folded into a ``<details>`` element.
 FOLD_ROWS = 25
@@ -113,7 +115,7 @@ def render(verdict: Verdict, *, plots: bool = True, dpi: int = DPI) -> str:
 
 
 def _version() -> str:
-    from discaudit import __version__
+    from discaudit.report.labels import VERSION as __version__
 
     return str(__version__)
 

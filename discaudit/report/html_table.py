@@ -11,10 +11,13 @@ alignment, so the table also reads in a plain HTML viewer.
 from __future__ import annotations
 
 from html import escape
+from typing import TYPE_CHECKING
 
-from discaudit.report.markdown import status_label
-from discaudit.report.table import MODEL_NAMES, VerdictTable, build, format_params
-from discaudit.result import Verdict
+from discaudit.report.labels import MODEL_NAMES, format_params, status_label
+from discaudit.report.table import VerdictTable, build
+
+if TYPE_CHECKING:
+    from discaudit.verdict import Verdict
 
 _CELL = 'style="text-align:left; vertical-align:top"'
 

@@ -39,16 +39,19 @@ caution : str
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from discaudit._plain import plain
-from discaudit.result import CAUTION, Verdict
+from discaudit.jsonable import plain
+from discaudit.report.labels import CAUTION
+
+if TYPE_CHECKING:
+    from discaudit.verdict import Verdict
 
 SCHEMA_VERSION = 1
 
 
 def verdict_to_dict(verdict: Verdict) -> dict[str, Any]:
-    from discaudit import __version__
+    from discaudit.report.labels import VERSION as __version__
 
     return {
         "schema_version": SCHEMA_VERSION,

@@ -22,25 +22,17 @@ from __future__ import annotations
 import json
 import re
 import xml.etree.ElementTree as ET
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from discaudit.errors import DataError
-from discaudit.findings import STATUS_RANK
-from discaudit.report.table import MODEL_NAMES, build, format_params
-from discaudit.result import Verdict
+from discaudit.decision.gate import fails_gate
+from discaudit.report.labels import MODEL_NAMES, format_params
+from discaudit.report.table import build
+
+if TYPE_CHECKING:
+    from discaudit.verdict import Verdict
 
 # Characters XML 1.0 cannot hold at all (ElementTree escapes the rest).
 _NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
-
-#: Gate levels: the lowest status that fails the gate.
-FAIL_ON_LEVELS = ("warn", "fail")
-
-
-def fails_gate(status: str, fail_on: str = "fail") -> bool:
-    """Whether a (gating) status fails a gate set at ``fail_on`` (``"warn"`` or ``"fail"``)."""
-    if fail_on not in FAIL_ON_LEVELS:
-        raise DataError(f"fail_on must be one of {list(FAIL_ON_LEVELS)}; got {fail_on!r}.")
-    return STATUS_RANK[status] >= STATUS_RANK[fail_on]
 
 
 def render(verdict: Verdict, fail_on: str = "fail") -> str:

@@ -12,21 +12,16 @@ HTML such as ``<script>``), and line breaks become spaces so a table row stays o
 from __future__ import annotations
 
 import re
+from typing import TYPE_CHECKING
 
-from discaudit.report.table import MODEL_NAMES, VerdictTable, build, format_params
-from discaudit.result import Verdict
+from discaudit.report.labels import MODEL_NAMES, format_params, status_label
+from discaudit.report.table import VerdictTable, build
 
-#: Status words with a symbol, so a status reads without colour.
-STATUS_SYMBOLS = {"pass": "\u2713", "warn": "\u26a0", "fail": "\u2717", "skip": "\u2013"}
+if TYPE_CHECKING:
+    from discaudit.verdict import Verdict
 
 _SPECIAL = re.compile(r"([\\`*_\[\]<>#|~&])")
 _SPACE = re.compile(r"\s+")
-
-
-def status_label(status: str, severity: str = "gate") -> str:
-    """``"✗ FAIL"``, with ``" (advisory)"`` for a check that does not gate."""
-    word = f"{STATUS_SYMBOLS.get(status, '?')} {status.upper()}"
-    return word + (" (advisory)" if severity == "advisory" else "")
 
 
 def escape(text: object) -> str:

@@ -3,9 +3,12 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from discaudit.result import CAUTION, Verdict
+from discaudit.report.labels import CAUTION
+
+if TYPE_CHECKING:
+    from discaudit.verdict import Verdict
 
 
 @dataclass(frozen=True)
@@ -47,17 +50,3 @@ def build(verdict: Verdict) -> VerdictTable:
     if advisory:
         notes.insert(0, f"Advisory checks (shown, not gating): {', '.join(advisory)}.")
     return VerdictTable(title, verdict.status, rows, rec.model, rec.params, rec.reasons, rec.alternatives, notes)
-
-
-MODEL_NAMES = {
-    "lda": "LDA",
-    "regularized_lda": "regularized (shrinkage) LDA",
-    "qda": "QDA",
-    "logistic_regression": "logistic regression",
-}
-
-
-def format_params(params: dict[str, Any]) -> str:
-    """Settings as ``key=value`` pairs, rule descriptions left out."""
-    shown = {k: v for k, v in params.items() if not k.endswith(("_rule", "_estimator"))}
-    return ", ".join(f"{k}={v}" for k, v in shown.items()) or "defaults"

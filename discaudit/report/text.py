@@ -3,9 +3,13 @@
 from __future__ import annotations
 
 import textwrap
+from typing import TYPE_CHECKING
 
-from discaudit.report.table import MODEL_NAMES, build, format_params
-from discaudit.result import Verdict
+from discaudit.report.labels import MODEL_NAMES, format_params
+from discaudit.report.table import build
+
+if TYPE_CHECKING:
+    from discaudit.verdict import Verdict
 
 WIDTH = 100
 _CHECK_W, _STATUS_W, _FIGURE_W = 22, 6, 20

@@ -84,14 +84,19 @@ def as_matrix(X: Any, *, min_rows: int = 2, name: str = "X") -> tuple[FloatMatri
         raise DataError(
             f"{name} has NaN or infinite values in columns {_short(cols)}; drop or impute those rows first."
         )
-    huge = np.maximum(-values.min(axis=0), values.max(axis=0)) > LARGEST_SQUARABLE
+    check_magnitude(np.maximum(-values.min(axis=0), values.max(axis=0)), names, f"{name} columns")
+    return np.ascontiguousarray(values), names
+
+
+def check_magnitude(max_abs: npt.NDArray[np.float64], names: Sequence[Any], what: str = "Columns") -> None:
+    """DataError naming the columns whose largest magnitude would overflow float64 when squared."""
+    huge = max_abs > LARGEST_SQUARABLE
     if huge.any():
-        cols = [names[j] for j in np.flatnonzero(huge)]
+        cols = [str(names[int(j)]) for j in np.flatnonzero(huge)]
         raise DataError(
-            f"{name} columns {_short(cols)} hold values beyond 1e150 in magnitude, whose squares overflow float64; "
+            f"{what} {cols[:8]} hold values beyond 1e150 in magnitude, whose squares overflow float64; "
             "rescale them (e.g. change units or take logs)."
         )
-    return np.ascontiguousarray(values), names
 
 
 def as_labels(y: Any, n: int, *, name: str = "y") -> tuple[npt.NDArray[np.intp], list[Any]]:

@@ -6,6 +6,8 @@ import numpy as np
 import numpy.typing as npt
 from scipy import linalg
 
+from discaudit.stats.blocks import ROW_BLOCK
+
 FloatArray = npt.NDArray[np.float64]
 
 
@@ -41,10 +43,6 @@ def symmetric_eigh(A: FloatArray) -> tuple[FloatArray, FloatArray]:
 def numerical_rank_tolerance(values: FloatArray, size: int) -> float:
     """Threshold below which an eigenvalue counts as zero (as in numpy's matrix_rank)."""
     return float(np.max(np.abs(values)) * size * np.finfo(np.float64).eps)
-
-
-#: Rows per block when distances are computed over many rows (bounds the temporaries).
-ROW_BLOCK = 1 << 13
 
 
 def sq_distances_cholesky(

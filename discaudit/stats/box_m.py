@@ -9,9 +9,9 @@ import numpy as np
 from scipy import stats as sps
 
 from discaudit.errors import DataError
-from discaudit.moments import ClassMoments
 from discaudit.stats._inputs import as_labels, as_matrix, power_of_two_scaled
 from discaudit.stats._linalg import logdet_spd
+from discaudit.stats.moments import ClassMoments
 
 
 @dataclass(frozen=True)

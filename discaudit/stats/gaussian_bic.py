@@ -6,8 +6,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from discaudit.moments import ClassMoments
 from discaudit.stats._linalg import logdet_spd
+from discaudit.stats.moments import ClassMoments
 
 
 @dataclass(frozen=True)

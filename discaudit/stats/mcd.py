@@ -23,8 +23,8 @@ from scipy import stats as sp_stats
 
 from discaudit.errors import DataError, DegenerateDataWarning
 from discaudit.stats._inputs import FloatMatrix, as_matrix
-from discaudit.stats._linalg import ROW_BLOCK as _ROW_BLOCK
 from discaudit.stats._linalg import sq_distances_cholesky
+from discaudit.stats.blocks import ROW_BLOCK as _ROW_BLOCK
 
 __all__ = ["MCDResult", "mcd", "mcd_consistency_factor"]
 

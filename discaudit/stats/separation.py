@@ -12,9 +12,10 @@ from scipy import sparse
 from scipy.optimize import linprog
 
 from discaudit.errors import DataError
-from discaudit.moments import ClassMoments
 from discaudit.stats._inputs import FloatMatrix, as_labels, as_matrix
 from discaudit.stats._sampling import resolve_seed
+from discaudit.stats.blocks import ROW_BLOCK
+from discaudit.stats.moments import ClassMoments
 
 __all__ = ["SeparationComparison", "SeparationResult", "detect_separation"]
 
@@ -28,8 +29,6 @@ _VALUE_TOL = 1e-9
 _ZERO_COEF = 1e-9
 #: Boxes on the direction (standardized units), tried in turn when HiGHS fails a strict-set program.
 _BETA_BOXES = (1e6, 1e3)
-#: Rows per block in passes over all rows: no temporary array holds more rows than this.
-_BLOCK_ROWS = 4096
 #: Eigenvalue ratio of the standardized cross-product matrix above which all features are
 #: linearly independent without a QR (see _independent_columns).
 _GRAM_SCREEN = 1e-8
@@ -300,18 +299,18 @@ def detect_separation(X: Any, y: Any, *, max_rows: int = 2000, random_state: int
 
 
 def _row_slices(n: int) -> Iterator[slice]:
-    """Consecutive blocks of at most _BLOCK_ROWS rows covering 0 .. n - 1."""
-    for start in range(0, n, _BLOCK_ROWS):
-        yield slice(start, min(start + _BLOCK_ROWS, n))
+    """Consecutive blocks of at most ROW_BLOCK rows covering 0 .. n - 1."""
+    for start in range(0, n, ROW_BLOCK):
+        yield slice(start, min(start + ROW_BLOCK, n))
 
 
 def _index_chunks(rows: IntArray) -> Iterator[tuple[slice, IntArray | slice]]:
-    """Consecutive pieces of at most _BLOCK_ROWS of the sorted positions ``rows``, with their place.
+    """Consecutive pieces of at most ROW_BLOCK of the sorted positions ``rows``, with their place.
 
     A piece of consecutive positions comes as a slice, which reads the rows without a gather.
     """
-    for start in range(0, rows.size, _BLOCK_ROWS):
-        place = slice(start, min(start + _BLOCK_ROWS, rows.size))
+    for start in range(0, rows.size, ROW_BLOCK):
+        place = slice(start, min(start + ROW_BLOCK, rows.size))
         chunk = rows[place]
         if chunk[-1] - chunk[0] == chunk.size - 1:
             yield place, slice(int(chunk[0]), int(chunk[-1]) + 1)
@@ -323,7 +322,7 @@ class _FeatureSpace:
     """Standardized non-constant features (centred, divided by the divisor-n standard deviation).
 
     Only the raw values are held; standardized rows are made on demand for the rows asked for
-    (a working set, or one block of at most _BLOCK_ROWS rows in a pass over all rows).
+    (a working set, or one block of at most ROW_BLOCK rows in a pass over all rows).
     """
 
     def __init__(self, values: FloatMatrix, names: list[str]) -> None:

@@ -8,8 +8,8 @@ import numpy as np
 import numpy.typing as npt
 
 from discaudit.errors import DataError
-from discaudit.moments import ClassMoments, class_centred_blocks
 from discaudit.stats._inputs import as_labels, as_matrix
+from discaudit.stats.moments import ClassMoments, class_centred_blocks
 
 FloatArray = npt.NDArray[np.float64]
 

@@ -6,8 +6,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from discaudit.moments import ClassMoments
 from discaudit.stats._linalg import correlation_from_covariance, symmetric_eigh
+from discaudit.stats.moments import ClassMoments
 
 
 @dataclass(frozen=True)

@@ -11,8 +11,8 @@ from scipy import linalg
 from scipy import stats as sps
 
 from discaudit.errors import DataError
-from discaudit.moments import ClassMoments
 from discaudit.stats._inputs import as_labels, as_matrix, power_of_two_scaled
+from discaudit.stats.moments import ClassMoments
 
 FloatArray = npt.NDArray[np.float64]
 

@@ -1,40 +1,51 @@
-"""Mergeable summaries of chunks of rows: exact moments plus a uniform per-class sample.
+"""Chunked input: an iterable of DataFrames (or a function returning a fresh one), read once or twice.
 
-A chunk (a pandas DataFrame with the target column) becomes a :class:`ChunkSummary`;
-summaries merge exactly (moments by Chan et al.'s formula, column ranges and distinct
-values by union, groups of identical columns by refinement, per-class reservoir samples
-by a hypergeometric split that keeps each merged sample uniform over all rows). Streaming folds chunks one by one; Dask reduces
-partition summaries in a tree. The result becomes :class:`~discaudit.intake.AuditData`
-whose moments are exact and whose rows are the sample.
+A chunk becomes a :class:`ChunkSummary` by the shared input rules
+(:mod:`discaudit.sources.screening`); summaries merge exactly (moments by Chan et al.'s
+formula, column ranges and distinct values by union, groups of identical columns by refinement,
+per-class reservoir samples by a hypergeometric split that keeps each merged sample uniform over
+all rows). Streaming folds chunks one by one; Dask reduces partition summaries in a tree. The
+merged summary becomes :class:`~discaudit.dataset.AuditData` whose moments are exact over all
+rows, whose rows are the sample, and whose ``all_rows`` reads the chunks again (when they can
+be) so that a check can score every row.
 """
 
 from __future__ import annotations
 
 import dataclasses
-import hashlib
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, TypeVar
 
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
-from discaudit._plain import label
 from discaudit.config import Config
+from discaudit.dataset import AuditData, IntakeRecord, RowBlock, RowPass, SampleInfo
 from discaudit.errors import DataError
-from discaudit.intake import (
-    AuditData,
-    IntakeRecord,
-    SampleInfo,
+from discaudit.jsonable import label
+from discaudit.sources.screening import (
     check_classes,
     check_magnitude,
+    column_range,
+    distinct_values,
+    identical_columns,
     numeric_columns,
+    raise_for_missing,
+    screen_columns,
+    screen_missing,
     split,
 )
-from discaudit.moments import ClassMoments
-from discaudit.stats._inputs import ordered_unique
+from discaudit.stats._inputs import label_codes, ordered_unique
+from discaudit.stats.moments import ClassMoments
+from discaudit.stats.seeds import CHUNK_MERGE, CHUNK_SAMPLE, LABEL_UNIFY, stream_rng
 
 FloatArray = npt.NDArray[np.float64]
+T = TypeVar("T")
+
+#: Chunks as a function returning a fresh iterator (readable twice) or a plain iterable (once).
+ChunkSource = Callable[[], Iterable[pd.DataFrame]] | Iterable[pd.DataFrame]
 
 
 @dataclass(frozen=True)
@@ -120,68 +131,38 @@ def summarize(
         frame = frame[list(features)]
     with np.errstate(invalid="ignore"):
         values = np.ascontiguousarray(frame.to_numpy(dtype=np.float64, na_value=np.nan))
-    bad = ~np.isfinite(values)
-    bad_rows = bad.any(axis=1)
-    missing_label = labels.isna().to_numpy()
-    first_missing = label(frame.index[np.flatnonzero(bad_rows)[0]]) if bad_rows.any() else None
-    keep = ~(bad_rows | missing_label)
-    dropped = labels[bad_rows & ~missing_label].value_counts().to_dict()
+    screen = screen_missing(values, labels, frame.index)
+    dropped = labels[screen.bad_rows & ~screen.missing_label].value_counts().to_dict()
+    keep = screen.keep
     values, labels, index = values[keep], labels[keep], frame.index[keep]
-    classes = ordered_unique(labels.tolist())
-    lookup = {c: k for k, c in enumerate(classes)}
-    codes = np.fromiter((lookup[v] for v in labels.tolist()), dtype=np.intp, count=len(labels))
-    if values.size:  # before any square is formed, as intake does for in-memory data
-        check_magnitude(np.maximum(-values.min(axis=0), values.max(axis=0)), list(frame.columns))
-    moments = ClassMoments.from_arrays(values, codes, tuple(classes))
+    codes, class_list = label_codes(labels)
+    classes = tuple(class_list)
+    col_min, col_max = column_range(values)
+    check_magnitude(np.maximum(-col_min, col_max), list(frame.columns))  # before any square is formed
+    moments = ClassMoments.from_arrays(values, codes, classes)
     row_labels = np.asarray(index, dtype=object)
     reservoirs = {
         c: Reservoir.of(values[codes == k], row_labels[codes == k], capacity, rng) for k, c in enumerate(classes)
     }
     limit = config.few_distinct_values
-    distinct = tuple(_distinct(values[:, j], limit) for j in range(values.shape[1]))
-    p = values.shape[1]
     return ChunkSummary(
         features=tuple(str(c) for c in frame.columns),
         moments=moments,
         reservoirs=reservoirs,
-        col_min=values.min(axis=0) if len(values) else np.full(p, np.inf),
-        col_max=values.max(axis=0) if len(values) else np.full(p, -np.inf),
-        distinct=distinct,
-        missing_per_column=bad.sum(axis=0).astype(np.int64),
-        first_missing_row=first_missing,
-        missing_labels=int(missing_label.sum()),
+        col_min=col_min,
+        col_max=col_max,
+        distinct=tuple(distinct_values(values[:, j], limit) for j in range(values.shape[1])),
+        missing_per_column=screen.missing_per_column,
+        first_missing_row=screen.first_bad_row,
+        missing_labels=int(screen.missing_label.sum()),
         dropped_per_class={label(k): int(v) for k, v in dropped.items()},
         non_numeric=tuple(non_numeric),
-        same_as=_identical_columns(values),
+        same_as=identical_columns(values),
         n_rows_input=len(chunk),
         n_features_input=n_features_input,
         capacity=capacity,
         distinct_limit=limit,
     )
-
-
-def _distinct(column: FloatArray, limit: int) -> frozenset[float] | None:
-    values = np.unique(column[:1000])
-    if values.size > limit:
-        return None
-    values = np.unique(column)
-    return frozenset(values.tolist()) if values.size <= limit else None
-
-
-def _identical_columns(values: FloatArray) -> npt.NDArray[np.intp]:
-    """For each column, the first column with exactly the same values in these rows."""
-    columns = np.ascontiguousarray(values.T)
-    out = np.arange(columns.shape[0], dtype=np.intp)
-    by_content: dict[bytes, list[int]] = {}
-    for j, column in enumerate(columns):
-        key = hashlib.blake2b((column + 0.0).tobytes(), digest_size=16).digest()  # + 0.0: -0.0 == 0.0
-        candidates = by_content.setdefault(key, [])
-        match = next((i for i in candidates if np.array_equal(columns[i], column)), None)
-        if match is None:
-            candidates.append(j)
-        else:
-            out[j] = match
-    return out
 
 
 def _refine(a: npt.NDArray[np.intp], b: npt.NDArray[np.intp]) -> npt.NDArray[np.intp]:
@@ -224,38 +205,27 @@ def merge(a: ChunkSummary, b: ChunkSummary, rng: np.random.Generator) -> ChunkSu
     )
 
 
-def to_audit_data(summary: ChunkSummary, config: Config, random_state: int | None) -> AuditData:
+def to_audit_data(
+    summary: ChunkSummary, config: Config, random_state: int | None, all_rows: RowPass | None = None
+) -> AuditData:
     """Validate the merged summary and turn it into AuditData (exact moments, sampled rows).
+
+    ``all_rows`` is the source's pass over every row (see :func:`block_reader`), if it has one.
 
     Raises
     ------
     DataError
-        As :func:`discaudit.intake.load` does, for the whole input.
+        As :func:`discaudit.sources.memory.load` does, for the whole input.
     """
     features = list(summary.features)
     if config.missing == "error":
-        if summary.missing_labels:
-            raise DataError(
-                f"The target has {summary.missing_labels} missing labels; label or drop them, "
-                "or pass Config(missing='drop_rows')."
-            )
-        counts = summary.missing_per_column
-        if counts.any():
-            cols = [f"{features[j]} ({int(counts[j])})" for j in np.flatnonzero(counts)]
-            raise DataError(
-                f"NaN or infinite values in columns {', '.join(cols[:8])} (first at row "
-                f"{summary.first_missing_row}); impute or drop them, or pass Config(missing='drop_rows')."
-            )
+        raise_for_missing(summary.missing_per_column, summary.first_missing_row, summary.missing_labels, features)
     summary = _unify_label_types(summary, random_state)
     classes = ordered_unique(list(summary.moments.classes))
     moments = _reorder(summary.moments, classes)
     check_classes(classes, moments.counts)
-    check_magnitude(np.maximum(np.abs(summary.col_min), np.abs(summary.col_max)), features)
-    constant = summary.col_min == summary.col_max
-    duplicate_of = np.where(~constant & (summary.same_as != np.arange(len(features))), summary.same_as, -1)
-    keep = ~constant & (duplicate_of < 0)
-    if not keep.any():
-        raise DataError("No usable feature: every numeric column is constant or a duplicate.")
+    screen = screen_columns(summary.col_min, summary.col_max, summary.same_as, features)
+    keep = screen.keep
     idx = np.flatnonzero(keep)
     moments = moments.subset(idx)
     parts = [summary.reservoirs[c] for c in classes]
@@ -270,8 +240,8 @@ def to_audit_data(summary: ChunkSummary, config: Config, random_state: int | Non
         dropped_rows_per_class=summary.dropped_per_class if config.missing == "drop_rows" else {},
         dropped_rows_unlabelled=summary.missing_labels if config.missing == "drop_rows" else 0,
         non_numeric_dropped=summary.non_numeric,
-        constant_columns=tuple(features[j] for j in np.flatnonzero(constant)),
-        duplicate_columns=tuple((features[j], features[i]) for j, i in enumerate(duplicate_of) if i >= 0),
+        constant_columns=screen.constant,
+        duplicate_columns=screen.duplicates,
     )
     sample = SampleInfo(
         n_total=moments.n_total,
@@ -279,7 +249,9 @@ def to_audit_data(summary: ChunkSummary, config: Config, random_state: int | Non
         capacity=summary.capacity,
         random_state=random_state,
     )
-    return AuditData(values, codes, tuple(classes), kept_features, row_labels, moments, record, distinct, sample)
+    return AuditData(
+        values, codes, tuple(classes), kept_features, row_labels, moments, record, distinct, sample, all_rows
+    )
 
 
 def _unify_label_types(summary: ChunkSummary, random_state: int | None) -> ChunkSummary:
@@ -292,7 +264,7 @@ def _unify_label_types(summary: ChunkSummary, random_state: int | None) -> Chunk
     labels = summary.moments.classes
     if all(isinstance(c, str) for c in labels) or not any(isinstance(c, str) for c in labels):
         return summary
-    rng = np.random.default_rng(np.random.SeedSequence(None if random_state is None else [int(random_state), 7]))
+    rng = stream_rng(random_state, LABEL_UNIFY)
     m = summary.moments
     merged: ClassMoments | None = None
     reservoirs: dict[Any, Reservoir] = {}
@@ -312,3 +284,100 @@ def _unify_label_types(summary: ChunkSummary, random_state: int | None) -> Chunk
 def _reorder(moments: ClassMoments, classes: list[Any]) -> ClassMoments:
     order = [moments.classes.index(c) for c in classes]
     return ClassMoments(tuple(classes), moments.counts[order], moments.means[order], moments.scatter[order])
+
+
+def summarize_chunks(
+    chunks: Iterable[pd.DataFrame],
+    target: str,
+    config: Config,
+    random_state: int | None,
+    progress: Callable[[int], None] | None = None,
+) -> ChunkSummary:
+    """Fold the summaries of all chunks (pass 1)."""
+    total: ChunkSummary | None = None
+    for i, chunk in enumerate(chunks):
+        part = summarize(
+            chunk,
+            target,
+            config,
+            config.sample_rows_per_class,
+            stream_rng(random_state, CHUNK_SAMPLE, i),
+            None if total is None else total.features,
+        )
+        total = part if total is None else merge(total, part, stream_rng(random_state, CHUNK_MERGE, i))
+        if progress is not None:
+            progress(len(chunk))
+    if total is None:
+        raise DataError("The input has no rows.")
+    return total
+
+
+@dataclass(frozen=True)
+class BlockSpec:
+    """How to turn a raw chunk into a :class:`~discaudit.dataset.RowBlock` of audited rows.
+
+    The same rules as pass 1: rows with a missing label or a non-finite value in any numeric
+    feature column are left out, labels become the class codes of the audit, and only the
+    audited columns are kept.
+    """
+
+    target: str
+    columns: tuple[str, ...]
+    kept: npt.NDArray[np.intp]
+    codes: dict[Any, int]
+    text_labels: bool
+
+    def block(self, chunk: pd.DataFrame) -> RowBlock:
+        with np.errstate(invalid="ignore"):
+            values = np.ascontiguousarray(chunk[list(self.columns)].to_numpy(dtype=np.float64, na_value=np.nan))
+        labels = chunk[self.target]
+        screen = screen_missing(values, labels, chunk.index)
+        raw = labels.to_numpy(dtype=object)
+        codes = np.array(
+            [self.codes.get(str(v) if self.text_labels else v, -1) if ok else -1 for v, ok in zip(raw, screen.keep)],
+            dtype=np.intp,
+        )
+        rows = np.flatnonzero(codes >= 0)
+        return RowBlock(np.ascontiguousarray(values[np.ix_(rows, self.kept)]), codes[rows], chunk.index[rows])
+
+
+def block_spec(summary: ChunkSummary, data: AuditData, target: str) -> BlockSpec:
+    """The :class:`BlockSpec` that maps raw chunks onto ``data``'s columns and classes."""
+    position = {name: j for j, name in enumerate(summary.features)}
+    kept = np.array([position[f] for f in data.features], dtype=np.intp)
+    text = all(isinstance(c, str) for c in data.classes)
+    return BlockSpec(target, summary.features, kept, {c: k for k, c in enumerate(data.classes)}, text)
+
+
+@dataclass(frozen=True)
+class ChunkRows:
+    """A :class:`~discaudit.dataset.RowPass` that reads the chunks again, one at a time."""
+
+    source: Callable[[], Iterable[pd.DataFrame]]
+    spec: BlockSpec
+
+    def map_reduce(self, fn: Callable[[RowBlock], T], combine: Callable[[T, T], T]) -> T:
+        out: T | None = None
+        for chunk in self.source():
+            part = fn(self.spec.block(chunk))
+            out = part if out is None else combine(out, part)
+        if out is None:
+            raise DataError("The input had no rows when it was read the second time.")
+        return out
+
+
+def load_chunks(
+    chunks: ChunkSource,
+    target: str,
+    config: Config,
+    random_state: int | None,
+    progress: Callable[[int], None] | None = None,
+) -> AuditData:
+    """Validate chunked input: pass 1 now; ``all_rows`` reads the chunks again when it is a function."""
+    source = chunks if callable(chunks) else None
+    first = source() if source is not None else chunks
+    summary = summarize_chunks(first, target, config, random_state, progress)  # type: ignore[arg-type]
+    data = to_audit_data(summary, config, random_state)
+    if source is None:
+        return data
+    return dataclasses.replace(data, all_rows=ChunkRows(source, block_spec(summary, data, target)))

@@ -13,7 +13,7 @@ import numpy as np
 import numpy.typing as npt
 from scipy import linalg
 
-from discaudit.moments import ClassMoments
+from discaudit.stats.moments import ClassMoments
 
 FloatArray = npt.NDArray[np.float64]
 

@@ -14,10 +14,9 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
-FloatArray = npt.NDArray[np.float64]
+from discaudit.stats.blocks import ROW_BLOCK as _ROW_BLOCK
 
-#: Rows per block in :meth:`ClassMoments.from_arrays` (bounds its temporary arrays).
-_ROW_BLOCK = 1 << 16
+FloatArray = npt.NDArray[np.float64]
 
 
 def class_centred_blocks(

@@ -1,0 +1,145 @@
+"""What every input source hands the core: validated per-class moments, rows, and a way to re-read them.
+
+A source (:mod:`discaudit.sources`) validates its input once and returns an :class:`AuditData`:
+
+* ``moments``: exact per-class counts, means and centred scatter over **all** rows;
+* ``values`` / ``codes`` / ``row_labels``: all rows when the input fits in memory, else a seeded
+  per-class sample (``sample`` says so);
+* ``all_rows``: a :class:`RowPass` that maps a function over every row in blocks and combines the
+  results (in memory: blocks of the array; chunked input: the chunks read again; Dask: the
+  partitions, where they live). A check that must see every row (outlier scoring) uses it, so no
+  source ever calls into a check.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any, Protocol, TypeVar
+
+import numpy as np
+import numpy.typing as npt
+import pandas as pd
+
+from discaudit.stats.blocks import ROW_BLOCK
+from discaudit.stats.moments import ClassMoments
+
+FloatArray = npt.NDArray[np.float64]
+T = TypeVar("T")
+
+
+@dataclass(frozen=True)
+class IntakeRecord:
+    """What intake changed or set aside, for the ``data_hygiene`` finding."""
+
+    n_rows_input: int
+    n_features_input: int
+    dropped_rows_per_class: dict[Any, int] = field(default_factory=dict)
+    dropped_rows_unlabelled: int = 0
+    non_numeric_dropped: tuple[str, ...] = ()
+    constant_columns: tuple[str, ...] = ()
+    duplicate_columns: tuple[tuple[str, str], ...] = ()
+
+
+@dataclass(frozen=True)
+class SampleInfo:
+    """How the rows in ``AuditData.values`` were sampled from a larger input."""
+
+    n_total: int
+    per_class: dict[Any, int]
+    capacity: int
+    random_state: int | None
+    method: str = "seeded uniform reservoir sample per class, merged exactly across chunks"
+
+
+@dataclass(frozen=True)
+class RowBlock:
+    """Some validated rows: the audited features, class codes and row labels."""
+
+    values: FloatArray
+    codes: npt.NDArray[np.intp]
+    row_labels: pd.Index
+
+
+class RowPass(Protocol):
+    """Every row of the input, once, in blocks."""
+
+    def map_reduce(self, fn: Callable[[RowBlock], T], combine: Callable[[T, T], T]) -> T:
+        """``combine`` of ``fn(block)`` over all blocks, in input order."""
+        ...
+
+
+@dataclass(frozen=True)
+class ArrayRows:
+    """A :class:`RowPass` over arrays held in memory, in blocks of ``ROW_BLOCK`` rows."""
+
+    values: FloatArray
+    codes: npt.NDArray[np.intp]
+    row_labels: pd.Index
+
+    def map_reduce(self, fn: Callable[[RowBlock], T], combine: Callable[[T, T], T]) -> T:
+        out: T | None = None
+        for a in range(0, max(self.values.shape[0], 1), ROW_BLOCK):
+            part = fn(
+                RowBlock(
+                    self.values[a : a + ROW_BLOCK], self.codes[a : a + ROW_BLOCK], self.row_labels[a : a + ROW_BLOCK]
+                )
+            )
+            out = part if out is None else combine(out, part)
+        assert out is not None  # the loop runs at least once
+        return out
+
+
+@dataclass(frozen=True)
+class AuditData:
+    """Validated data shared by every check.
+
+    Attributes
+    ----------
+    values : ndarray, shape (n, p)
+        Float64 features actually audited (constant and duplicated columns set aside).
+    codes : ndarray, shape (n,)
+        Class code of each row, 0..K-1.
+    classes : tuple
+        Class labels in code order.
+    features : tuple of str
+        Names of the audited features.
+    row_labels : pandas.Index
+        The input's index labels of the retained rows, for reporting.
+    moments : ClassMoments
+        Per-class counts, means and scatter matrices over all rows, computed once.
+    record : IntakeRecord
+        What intake dropped or set aside.
+    distinct_counts : dict
+        Features with at most ``Config.few_distinct_values`` distinct values (over all rows),
+        with their number of distinct values.
+    sample : SampleInfo or None
+        Set when ``values`` is a per-class random sample of a larger (streamed) input; the
+        moments are then still exact over all rows.
+    all_rows : RowPass or None
+        Every row of the input in blocks; None when the input cannot be read again (a
+        one-shot iterable of chunks).
+    """
+
+    values: FloatArray
+    codes: npt.NDArray[np.intp]
+    classes: tuple[Any, ...]
+    features: tuple[str, ...]
+    row_labels: pd.Index
+    moments: ClassMoments
+    record: IntakeRecord
+    distinct_counts: dict[str, int] = field(default_factory=dict)
+    sample: SampleInfo | None = None
+    all_rows: RowPass | None = field(default=None, repr=False, compare=False)
+
+    @property
+    def n(self) -> int:
+        return int(self.values.shape[0])
+
+    @property
+    def p(self) -> int:
+        return int(self.values.shape[1])
+
+    def class_rows(self, k: int) -> npt.NDArray[np.intp]:
+        """Positions of the rows of class code ``k``."""
+        return np.flatnonzero(self.codes == k)

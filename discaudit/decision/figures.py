@@ -1,0 +1,74 @@
+"""The figures the decision reads from the findings, declared once with their check and detail path.
+
+A rule reads a finding's details only through a :class:`Figure` listed here, so a misspelt path
+is a name error, not a rule that silently never fires; ``tests/test_decision.py`` checks that
+every declared figure is written by its check.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+from discaudit.findings import Finding
+
+Findings = Mapping[str, Finding]
+
+
+@dataclass(frozen=True)
+class Figure:
+    """One value in a check's details: ``findings[check].details[path[0]][path[1]]...``."""
+
+    check: str
+    path: tuple[str, ...]
+
+    def read(self, findings: Findings) -> Any:
+        """The value, or None when the check did not run or did not write it."""
+        value: Any = findings[self.check].details if self.check in findings else {}
+        for part in self.path:
+            if not isinstance(value, Mapping):
+                return None
+            value = value.get(part)
+        return value
+
+
+def status(findings: Findings, check: str) -> str:
+    """A check's status; ``skip`` when it is absent."""
+    return findings[check].status if check in findings else "skip"
+
+
+ERROR_DF = Figure("sample_size", ("error_df",))
+N_FEATURES = Figure("sample_size", ("n_features",))
+ROWS_PER_FEATURE = Figure("sample_size", ("rows_per_feature",))
+SMALLEST_CLASS_ROWS_PER_FEATURE = Figure("sample_size", ("smallest_class_rows_per_feature",))
+RANK_DEFICIENT = Figure("collinearity", ("rank_deficient",))
+MAX_VIF = Figure("collinearity", ("max_vif",))
+CONDITION_NUMBER = Figure("collinearity", ("condition_number",))
+SHRINKAGE = Figure("collinearity", ("shrinkage",))
+RETAINED_SEPARATION = Figure("collinearity", ("shrinkage", "retained_separation"))
+SHRINKAGE_STANDARDIZED = Figure("collinearity", ("shrinkage", "ledoit_wolf_standardized"))
+DELTA_BIC = Figure("covariance_homogeneity", ("bic", "delta_bic"))
+MOST_DIFFERENT_CLASS = Figure("covariance_homogeneity", ("most_different_class",))
+ANY_COMPLETE_SEPARATION = Figure("separation", ("any_complete",))
+ANY_QUASI_COMPLETE_SEPARATION = Figure("separation", ("any_quasi_complete",))
+DISCRETE_FEATURES = Figure("normality", ("discrete_features",))
+
+#: Every figure the decision reads.
+FIGURES: tuple[Figure, ...] = (
+    ERROR_DF,
+    N_FEATURES,
+    ROWS_PER_FEATURE,
+    SMALLEST_CLASS_ROWS_PER_FEATURE,
+    RANK_DEFICIENT,
+    MAX_VIF,
+    CONDITION_NUMBER,
+    SHRINKAGE,
+    RETAINED_SEPARATION,
+    SHRINKAGE_STANDARDIZED,
+    DELTA_BIC,
+    MOST_DIFFERENT_CLASS,
+    ANY_COMPLETE_SEPARATION,
+    ANY_QUASI_COMPLETE_SEPARATION,
+    DISCRETE_FEATURES,
+)

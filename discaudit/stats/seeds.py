@@ -1,0 +1,47 @@
+"""The one way an audit derives its random streams: the audit's seed, a named salt, and a key.
+
+Every random step draws from ``numpy.random.SeedSequence([seed mod 2**32, salt, *key])``, so the
+same seed always gives the same verdict, and different steps (salts) and classes or chunks
+(keys) get independent streams. ``None`` draws fresh entropy. The salts are named here, once:
+
+==================  ====  ========================================================
+salt                value  stream
+==================  ====  ========================================================
+``CHUNK_SAMPLE``      1   reservoir sample of chunk i (key: i)
+``CHUNK_MERGE``       2   merging the running summary with chunk i (key: i)
+``PARTITION_MERGE``   3   tree merge of Dask partition summaries (key: level, pair)
+``OUTLIERS``          3   robust fit of each class (spawned per class)
+``NORMALITY``         4   normality subsamples of each class (spawned per class)
+``LABEL_UNIFY``       7   merging classes whose labels arrived as text and as numbers
+==================  ====  ========================================================
+
+``PARTITION_MERGE`` and ``OUTLIERS`` share a value but never a stream: the first always carries
+a two-part key, the second is spawned (SeedSequence streams differ by their whole entropy).
+The values are kept as they were when verdicts were first published, so old seeds reproduce.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+CHUNK_SAMPLE = 1
+CHUNK_MERGE = 2
+PARTITION_MERGE = 3
+OUTLIERS = 3
+NORMALITY = 4
+LABEL_UNIFY = 7
+
+
+def _entropy(random_state: int | None, salt: int, key: tuple[int, ...]) -> list[int] | None:
+    return None if random_state is None else [int(random_state) % 2**32, salt, *key]
+
+
+def stream_rng(random_state: int | None, salt: int, *key: int) -> np.random.Generator:
+    """A generator for one random step: ``salt`` names the step, ``key`` the chunk or pair."""
+    return np.random.default_rng(np.random.SeedSequence(_entropy(random_state, salt, key)))
+
+
+def class_seeds(random_state: int | None, n_classes: int, salt: int) -> list[int]:
+    """One integer seed per class for the step named by ``salt`` (``SeedSequence`` spawning)."""
+    base = np.random.SeedSequence(_entropy(random_state, salt, ()))
+    return [int(child.generate_state(1)[0]) for child in base.spawn(n_classes)]
