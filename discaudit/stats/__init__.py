@@ -8,6 +8,7 @@ result object or a pandas object. They compute numbers only; judgements live in
 from discaudit.stats.box_m import BoxMResult, box_m
 from discaudit.stats.condition_indices import ConditionIndicesResult, condition_indices
 from discaudit.stats.henze_zirkler import HenzeZirklerResult, henze_zirkler
+from discaudit.stats.leave_one_out import LeaveOneOutResult, LeaveOneOutScorer, leave_one_out
 from discaudit.stats.mardia import MardiaResult, mardia
 from discaudit.stats.mcd import MCDResult, mcd
 from discaudit.stats.separation import SeparationResult, detect_separation
@@ -19,6 +20,8 @@ __all__ = [
     "BoxMResult",
     "ConditionIndicesResult",
     "HenzeZirklerResult",
+    "LeaveOneOutResult",
+    "LeaveOneOutScorer",
     "MCDResult",
     "MardiaResult",
     "SeparationResult",
@@ -27,6 +30,7 @@ __all__ = [
     "condition_indices",
     "detect_separation",
     "henze_zirkler",
+    "leave_one_out",
     "mardia",
     "mcd",
     "shrinkage_intensity",
