@@ -17,7 +17,3 @@ class DiscauditWarning(UserWarning):
 
 class DegenerateDataWarning(DiscauditWarning):
     """The data are degenerate for the statistic (singular covariance, ties, n <= p)."""
-
-
-class SubsampledWarning(DiscauditWarning):
-    """A statistic was computed on a seeded random subsample; its size is in the result."""

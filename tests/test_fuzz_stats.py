@@ -8,7 +8,7 @@ profiles in ``hypothesis_profiles``):
   there is one) or a result comes out;
 * no numpy/scipy RuntimeWarning escapes (run under ``warnings.simplefilter("error",
   RuntimeWarning)``) and no other third-party warning either; discaudit's own
-  ``DegenerateDataWarning``/``SubsampledWarning`` are allowed;
+  ``DegenerateDataWarning`` is allowed;
 * the input is never mutated, and the seeded functions give the same result twice;
 * the result obeys what must hold mathematically for any data (no outside reference is
   needed for these): p-values in [0, 1]; Box's M >= 0 (log det is concave, and the pooled

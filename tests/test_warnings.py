@@ -54,7 +54,7 @@ def audit_strictly(*args: Any, **kwargs: Any) -> Verdict:
 
 def third_party_captured(verdict: Verdict) -> dict[str, list[str]]:
     """Per finding, the captured warnings that are not discaudit's own."""
-    own = ("DegenerateDataWarning", "SubsampledWarning", "DiscauditWarning")
+    own = ("DegenerateDataWarning", "DiscauditWarning")
     out = {}
     for key, f in verdict.findings.items():
         foreign = [w for w in f.details.get("warnings", []) or [] if not str(w).startswith(own)]
