@@ -19,7 +19,7 @@ import numpy.typing as npt
 from scipy.special import logsumexp
 
 from discaudit.errors import DataError
-from discaudit.stats._linalg import ROW_BLOCK, symmetric_eigh
+from discaudit.stats.blocks import ROW_BLOCK, symmetric_eigh
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.intp]
