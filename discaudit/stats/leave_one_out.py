@@ -19,7 +19,8 @@ import numpy.typing as npt
 from scipy.special import logsumexp
 
 from discaudit.errors import DataError
-from discaudit.stats.blocks import ROW_BLOCK, symmetric_eigh
+from discaudit.stats._linalg import symmetric_eigh
+from discaudit.stats.blocks import ROW_BLOCK
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.intp]
