@@ -175,6 +175,22 @@ class Config:
         "design choice (the start size changes only the time, not the answer; 500 rows took a third of the time "
         "of 2000 on the benchmark data, separated or not)",
     )
+    performance_switch_se: float = _threshold(
+        2.0,
+        "A candidate is within noise of the best when its predicted accuracy is lower by at most this many paired "
+        "standard errors; the recommendation is the most efficient candidate within noise of the best.",
+        "design choice, set on the tuning families of the validation study (benchmarks/validation/RESULTS.md)",
+    )
+    logistic_max_rows: int = _threshold(
+        4000,
+        "Rows of the seeded, class-proportional subsample on which logistic regression is cross-validated.",
+        "design choice (bounds the cost; the standard error of an accuracy near 0.9 on 4000 rows is 0.5 points)",
+    )
+    logistic_folds: int = _threshold(
+        10,
+        "Folds of the stratified cross-validation of logistic regression (fewer when a class has fewer rows).",
+        "Kohavi (1995, IJCAI): 10-fold cross-validation is a good compromise of bias and variance",
+    )
     severity: dict[str, str] = field(
         default_factory=dict,
         metadata={

@@ -21,7 +21,7 @@ def build_estimator(model: str, params: dict[str, Any]) -> Any:
     model : str
         ``"lda"``, ``"regularized_lda"``, ``"qda"`` or ``"logistic_regression"``.
     params : dict
-        The recommendation's suggested settings.
+        The recommendation's settings: keyword arguments of the estimator, plus ``standardize``.
 
     Raises
     ------
@@ -35,19 +35,15 @@ def build_estimator(model: str, params: dict[str, Any]) -> Any:
         from sklearn.preprocessing import StandardScaler
     except ImportError as exc:  # pragma: no cover - exercised by monkeypatching in tests
         raise ImportError(_HINT) from exc
-    if model == "lda":
-        step: Any = LinearDiscriminantAnalysis(solver=params.get("solver", "svd"))
-    elif model == "regularized_lda":
-        # shrinkage needs the lsqr or eigen solver; svd does not support it.
-        step = LinearDiscriminantAnalysis(
-            solver=params.get("solver", "lsqr"), shrinkage=params.get("shrinkage", "auto")
-        )
-    elif model == "qda":
-        step = QuadraticDiscriminantAnalysis(reg_param=float(params.get("reg_param", 0.0)))
-    elif model == "logistic_regression":
-        step = LogisticRegression(C=float(params.get("C", 1.0)), max_iter=int(params.get("max_iter", 5000)))
-    else:
+    classes = {
+        "lda": LinearDiscriminantAnalysis,
+        "regularized_lda": LinearDiscriminantAnalysis,
+        "qda": QuadraticDiscriminantAnalysis,
+        "logistic_regression": LogisticRegression,
+    }
+    if model not in classes:
         raise ValueError(f"Unknown model {model!r}.")
+    step = classes[model](**{k: v for k, v in params.items() if k != "standardize"})
     if params.get("standardize", False):
         return make_pipeline(StandardScaler(), step)
     return step

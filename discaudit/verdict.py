@@ -26,7 +26,12 @@ class Recommendation:
     alternatives : list of dict
         The other models, best first, each ``{"model": ..., "reason": ...}``.
     rules_fired : list of str
-        Names of the verdict rules that fired, in order.
+        How the choice was made: ``["predicted_performance"]``, or the assumption rules that fired.
+    close_to : list of str
+        Other models whose predicted accuracy is within noise of the recommended one (empty when
+        the choice is clear).
+    param_notes : dict
+        Why each setting in ``params`` has its value.
     """
 
     model: str
@@ -34,6 +39,8 @@ class Recommendation:
     reasons: list[str]
     alternatives: list[dict[str, str]]
     rules_fired: list[str] = field(default_factory=list)
+    close_to: list[str] = field(default_factory=list)
+    param_notes: dict[str, str] = field(default_factory=dict)
 
     def estimator(self) -> Any:
         """An unfitted scikit-learn estimator configured as recommended.
@@ -54,6 +61,8 @@ class Recommendation:
                 "reasons": self.reasons,
                 "alternatives": self.alternatives,
                 "rules_fired": self.rules_fired,
+                "close_to": self.close_to,
+                "param_notes": self.param_notes,
             }
         )
         return out

@@ -10,7 +10,7 @@ import pytest
 import discaudit
 from discaudit.config import CHECK_KEYS, Config
 from discaudit.decision.rules import RULES, decide
-from discaudit.decision.settings import suggested_params
+from discaudit.decision.settings import rule_settings
 from discaudit.findings import Finding
 
 RULE = {r.name: r for r in RULES}
@@ -157,9 +157,20 @@ def test_influential_outliers_argue_for_logistic_regression() -> None:
 
 def test_settings_follow_the_findings() -> None:
     f = findings(separation=("warn", {"any_complete": True, "any_quasi_complete": False}))
-    assert suggested_params("logistic_regression", f, CFG)["C"] == 1.0
-    assert suggested_params("regularized_lda", findings(), CFG)["solver"] == "lsqr"
-    assert suggested_params("regularized_lda", findings(), CFG)["shrinkage"] == 0.05
+    assert rule_settings("logistic_regression", f, CFG)[0]["C"] == 1.0
+    assert rule_settings("regularized_lda", findings(), CFG)[0]["solver"] == "lsqr"
+    assert rule_settings("regularized_lda", findings(), CFG)[0]["shrinkage"] == 0.05
+
+
+@pytest.mark.parametrize("model", ["lda", "regularized_lda", "qda", "logistic_regression"])
+def test_settings_construct_the_estimator(model) -> None:
+    # Every key of params but ``standardize`` is a keyword argument of the scikit-learn estimator,
+    # and every key has a note saying why (source: scikit-learn's own constructor signatures).
+    params, notes = rule_settings(model, findings(), CFG)
+    estimator = discaudit.Recommendation(model, params, [], []).estimator()
+    step = estimator.steps[-1][1] if hasattr(estimator, "steps") else estimator
+    assert {k: v for k, v in params.items() if k != "standardize"}.items() <= step.get_params().items()
+    assert set(notes) == set(params)
 
 
 def _quick_scenarios():

@@ -54,6 +54,12 @@ ANY_COMPLETE_SEPARATION = Figure("separation", ("any_complete",))
 ANY_QUASI_COMPLETE_SEPARATION = Figure("separation", ("any_quasi_complete",))
 DISCRETE_FEATURES = Figure("normality", ("discrete_features",))
 
+CANDIDATE_FIGURES = Figure("expected_performance", ("candidates",))
+PAIRED = Figure("expected_performance", ("paired",))
+BEST = Figure("expected_performance", ("best",))
+MOST_EFFICIENT_WITHIN_NOISE = Figure("expected_performance", ("most_efficient_within_noise",))
+SWITCH_SE = Figure("expected_performance", ("switch_se",))
+
 #: Every figure the decision reads.
 FIGURES: tuple[Figure, ...] = (
     ERROR_DF,

@@ -36,6 +36,9 @@ def why_not(verdict: Any, key: str) -> str:
         classical = _outlier_arrays(verdict).get("classical_distance")
         if classical is None or not np.isfinite(np.asarray(classical, dtype=float)).any():
             return "The Q-Q plot uses the per-row classical distances of the outliers check, which did not run."
+    elif key == "expected_performance":
+        if not details.get("candidates"):
+            return "No candidate could be scored."
     elif key == "covariance_homogeneity":
         if "plane_means" not in arrays:
             return "There is no discriminant plane to project on (a single feature, or a singular pooled covariance)."

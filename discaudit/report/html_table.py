@@ -50,8 +50,17 @@ def format_table(table: VerdictTable) -> str:
     parts += ["</tbody>", "</table>"]
     parts.append(
         f"<p><strong>Recommendation:</strong> {e(MODEL_NAMES[table.model])} (<code>{e(table.model)}</code>)<br>"
-        f"<strong>Suggested settings:</strong> {e(format_params(table.params))}</p>"
+        f"<strong>Suggested settings:</strong> {e(format_params(table.params))}"
+        + (
+            f"<br><strong>Within noise of it:</strong> {e(', '.join(MODEL_NAMES[m] for m in table.close_to))}"
+            if table.close_to
+            else ""
+        )
+        + "</p>"
     )
+    if table.param_notes:
+        notes = "".join(f"<li><code>{e(k)}</code>: {e(v)}</li>" for k, v in table.param_notes.items())
+        parts.append(f"<ul>{notes}</ul>")
     if table.reasons:
         parts.append("<p><strong>Why:</strong></p><ul>" + "".join(f"<li>{e(r)}</li>" for r in table.reasons) + "</ul>")
     if table.alternatives:

@@ -46,7 +46,12 @@ def format_table(table: VerdictTable) -> str:
         lines.append("**Why:**")
         lines += [f"- {escape(reason)}" for reason in table.reasons]
         lines.append("")
+    if table.close_to:
+        lines += [f"**Within noise of it:** {escape(', '.join(MODEL_NAMES[m] for m in table.close_to))}", ""]
     lines += [f"**Suggested settings:** {escape(format_params(table.params))}", ""]
+    lines += [f"- `{escape(key)}`: {escape(note)}" for key, note in table.param_notes.items()]
+    if table.param_notes:
+        lines.append("")
     if table.alternatives:
         lines.append("**Alternatives, best first:**")
         lines += [

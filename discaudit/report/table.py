@@ -32,6 +32,8 @@ class VerdictTable:
     reasons: list[str]
     alternatives: list[dict[str, str]]
     notes: list[str]
+    close_to: list[str]
+    param_notes: dict[str, str]
 
 
 def build(verdict: Verdict) -> VerdictTable:
@@ -49,4 +51,15 @@ def build(verdict: Verdict) -> VerdictTable:
     advisory = [r.check for r in rows if r.severity == "advisory"]
     if advisory:
         notes.insert(0, f"Advisory checks (shown, not gating): {', '.join(advisory)}.")
-    return VerdictTable(title, verdict.status, rows, rec.model, rec.params, rec.reasons, rec.alternatives, notes)
+    return VerdictTable(
+        title,
+        verdict.status,
+        rows,
+        rec.model,
+        rec.params,
+        rec.reasons,
+        rec.alternatives,
+        notes,
+        list(rec.close_to),
+        dict(rec.param_notes),
+    )

@@ -31,7 +31,11 @@ def render(verdict: Verdict, width: int = WIDTH) -> str:
         lines += [indent + w for w in wrapped[1:]]
     lines += ["-" * width, ""]
     lines.append(f"Recommendation: {MODEL_NAMES[table.model]} ({table.model})")
+    if table.close_to:
+        lines.append("Within noise of it: " + ", ".join(MODEL_NAMES[m] for m in table.close_to))
     lines.append(f"Suggested settings: {format_params(table.params)}")
+    for key, note in table.param_notes.items():
+        lines += textwrap.wrap(f"{key}: {note}", width, initial_indent="  ", subsequent_indent="    ")
     lines.append("Why:")
     for reason in table.reasons:
         lines += textwrap.wrap(reason, width, initial_indent="  - ", subsequent_indent="    ")

@@ -1,0 +1,161 @@
+"""The decision from predicted performance: the assumption findings explain, the predictions decide.
+
+The ``expected_performance`` check measures each candidate's predicted held-out accuracy and
+which candidates are within noise of the best (``Config.performance_switch_se`` paired standard
+errors). The recommendation is the most efficient candidate within noise of the best, in the
+order LDA, shrinkage LDA, QDA, logistic regression: a less efficient model is chosen only when
+its predicted gain over every more efficient one exceeds the stated multiple of its paired
+standard error. Each assumption finding that warns or fails then says which model it argues for
+and whether the predictions bear it out.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from discaudit.decision.figures import (
+    BEST,
+    CANDIDATE_FIGURES,
+    MOST_EFFICIENT_WITHIN_NOISE,
+    PAIRED,
+    SWITCH_SE,
+    Findings,
+    status,
+)
+from discaudit.findings import fmt
+
+#: Candidates from the most to the least efficient (see ``checks.expected_performance``).
+ORDER = ("lda", "regularized_lda", "qda", "logistic_regression")
+
+NAMES = {"lda": "LDA", "regularized_lda": "shrinkage LDA", "qda": "QDA", "logistic_regression": "logistic regression"}
+
+#: Assumption findings that argue for a model when they warn or fail, in words of the trade.
+_ARGUES_FOR = {
+    "sample_size": ("regularized_lda", "few rows per feature", ("warn", "fail")),
+    "collinearity": ("regularized_lda", "strong collinearity", ("fail",)),
+    "covariance_homogeneity": ("qda", "unequal class covariances", ("warn", "fail")),
+    "normality": ("logistic_regression", "class shapes far from Gaussian", ("fail",)),
+    "outliers": ("logistic_regression", "influential outlying rows", ("fail",)),
+}
+
+#: Why a model needs more rows than the one before it, for the sentence that prefers it.
+_EFFICIENCY = {
+    "lda": "it estimates one shared covariance, the fewest parameters, and is the most efficient model when the "
+    "classes are close to Gaussian (Efron 1975)",
+    "regularized_lda": "it estimates one shared covariance, shrunk towards a multiple of the identity",
+    "qda": "it estimates a covariance per class but still uses the Gaussian likelihood",
+    "logistic_regression": "it assumes nothing about the feature distribution",
+}
+
+
+@dataclass(frozen=True)
+class Choice:
+    """The model chosen from predicted performance, with its reasons, alternatives and near ties."""
+
+    model: str
+    reasons: list[str]
+    alternatives: list[dict[str, str]]
+    close_to: list[str]
+    settings: dict[str, Any]
+
+
+def _pct(x: float) -> str:
+    return f"{100 * x:.1f}%"
+
+
+def _pts(x: float) -> str:
+    return fmt(100 * x, 2)
+
+
+def available(findings: Findings) -> bool:
+    """Whether the predicted-performance figures exist (the check ran and scored something)."""
+    return status(findings, "expected_performance") in ("pass", "warn") and bool(CANDIDATE_FIGURES.read(findings))
+
+
+def choose(findings: Findings) -> Choice:
+    """The most efficient candidate within noise of the best, with reasons citing the figures."""
+    candidates: dict[str, Any] = CANDIDATE_FIGURES.read(findings)
+    paired: dict[str, Any] = PAIRED.read(findings)
+    best: str = BEST.read(findings)
+    model: str = MOST_EFFICIENT_WITHIN_NOISE.read(findings)
+
+    def versus(a: str, b: str) -> dict[str, float]:
+        return dict(paired[a][b])
+
+    listing = "; ".join(
+        f"{NAMES[c]} {_pct(candidates[c]['accuracy'])} (SE {_pts(candidates[c]['accuracy_se'])} points)"
+        for c in ORDER
+        if c in candidates
+    )
+    reasons = [f"Predicted held-out accuracy: {listing}."]
+    close = [c for c in ORDER if c in candidates and c != model and _within(versus(c, model))]
+    if model == best:
+        if close:
+            reasons.append(
+                f"{NAMES[model]} predicts best; too close to call between {NAMES[model]} and "
+                f"{_join([NAMES[c] for c in close])}; {NAMES[model]} is preferred because it predicts best and "
+                + (
+                    "is the more efficient model."
+                    if ORDER.index(model) < min(ORDER.index(c) for c in close)
+                    else "leads them on accuracy."
+                )
+            )
+        else:
+            reasons.append(f"{NAMES[model]} predicts best, beyond the noise of every other candidate.")
+    else:
+        lead = versus(best, model)
+        reasons.append(
+            f"Too close to call between {NAMES[model]} and {NAMES[best]}: {NAMES[best]} leads by "
+            f"{_pts(lead['accuracy_difference'])} points with a paired SE of {_pts(lead['accuracy_se'])} points, "
+            f"less than the {fmt(SWITCH_SE.read(findings))} SE needed to switch; {NAMES[model]} "
+            f"is preferred because {_EFFICIENCY[model]}."
+        )
+    for check, (argued, words, statuses) in _ARGUES_FOR.items():
+        if status(findings, check) not in statuses:
+            continue
+        figure = findings[check].figure
+        if argued not in candidates:
+            reasons.append(f"{words.capitalize()} ({figure}) argue for {NAMES[argued]}, which could not be scored.")
+        elif argued == model:
+            reasons.append(f"{words.capitalize()} ({figure}) argue for {NAMES[argued]}, as chosen.")
+        else:
+            d = versus(argued, model)
+            verdict = (
+                "within noise, not enough to switch"
+                if _within(d) and d["accuracy_difference"] >= 0
+                else "so the prediction does not bear it out"
+                if d["accuracy_difference"] <= 0
+                else "not enough to switch"
+            )
+            reasons.append(
+                f"{words.capitalize()} ({figure}) argue for {NAMES[argued]}, predicted at "
+                f"{_pct(candidates[argued]['accuracy'])}: {_signed(d['accuracy_difference'])} points against "
+                f"{NAMES[model]} (paired SE {_pts(d['accuracy_se'])}), {verdict}."
+            )
+    alternatives = []
+    for c in sorted((c for c in candidates if c != model), key=lambda c: -candidates[c]["accuracy"]):
+        d = versus(c, model)
+        why = (
+            f"predicted {_pct(candidates[c]['accuracy'])}, {_signed(d['accuracy_difference'])} points against "
+            f"{NAMES[model]} (paired SE {_pts(d['accuracy_se'])}); "
+            + ("within noise of the recommendation" if c in close else "outside the noise of the recommendation")
+        )
+        alternatives.append({"model": c, "reason": why})
+    for c in ORDER:
+        if c not in candidates:
+            alternatives.append({"model": c, "reason": "could not be scored (see expected_performance)"})
+    return Choice(model, reasons, alternatives, close, dict(candidates[model]["settings"]))
+
+
+def _within(d: dict[str, float]) -> bool:
+    """|difference| within the switching multiple of its paired SE (as the check judged it)."""
+    return bool(d.get("within_noise", False))
+
+
+def _signed(x: float) -> str:
+    return ("+" if x > 0 else "") + _pts(x)
+
+
+def _join(items: list[str]) -> str:
+    return items[0] if len(items) == 1 else ", ".join(items[:-1]) + " and " + items[-1]
