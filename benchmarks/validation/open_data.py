@@ -19,6 +19,25 @@ have a continuous, count or proportion outcome, or too few rows to cross-validat
     train, bus, car) from household income, party size and the four modes' terminal time,
     in-vehicle cost, in-vehicle time and generalized cost (18 columns; the car's terminal
     time is always 0, so constant).
+
+pingouin (a test dependency of the project; its ``read_dataset`` reads CSV files shipped
+inside the package). Of its data sets these have a class variable that is an outcome or a
+natural label; the others are repeated-measures or ANOVA layouts with one response, or have
+no class variable:
+
+``penguins_species``
+    Palmer penguins: species (Adelie, Chinstrap, Gentoo) from bill length, bill depth,
+    flipper length and body mass (the two rows with no measurements dropped; island and sex
+    left out).
+``heart_disease``
+    pingouin's ``chi2_independence`` data set, the Cleveland heart-disease data: ``target``
+    (disease or not) from the 13 recorded variables (binary, ordinal-coded and continuous).
+``drug_trial_condition``
+    pingouin's ``multivariate`` data set: drug or placebo from three health outcomes
+    (fever, pressure, aches); 36 rows.
+
+Data sets that the installed packages fetch from the network (scikit-learn's ``fetch_*``,
+statsmodels' ``get_rdataset``, seaborn's ``load_dataset``) are not used.
 """
 
 from __future__ import annotations
@@ -96,6 +115,29 @@ def modechoice_mode():
     return X, chosen.loc[X.index]
 
 
+def _pingouin(name: str) -> pd.DataFrame:
+    import pingouin
+
+    return pingouin.read_dataset(name)
+
+
+def penguins_species():
+    df = _pingouin("penguins")
+    cols = ["bill_length_mm", "bill_depth_mm", "flipper_length_mm", "body_mass_g"]
+    df = df.dropna(subset=cols).reset_index(drop=True)
+    return df[cols].astype(float), df["species"].astype(str).rename("species")
+
+
+def heart_disease():
+    df = _pingouin("chi2_independence")
+    return df.drop(columns=["target"]).astype(float), df["target"].astype(int).rename("disease")
+
+
+def drug_trial_condition():
+    df = _pingouin("multivariate")
+    return df.drop(columns=["Condition"]).astype(float), df["Condition"].astype(str).rename("condition")
+
+
 OPEN_DATA: dict[str, tuple[str, Callable[[], tuple[pd.DataFrame, pd.Series]]]] = {
     "iris": ("scikit-learn", iris),
     "wine": ("scikit-learn", wine),
@@ -105,6 +147,9 @@ OPEN_DATA: dict[str, tuple[str, Callable[[], tuple[pd.DataFrame, pd.Series]]]] =
     "fair_affair": ("statsmodels", fair_affair),
     "spector_grade": ("statsmodels", spector_grade),
     "modechoice_mode": ("statsmodels", modechoice_mode),
+    "penguins_species": ("pingouin", penguins_species),
+    "heart_disease": ("pingouin", heart_disease),
+    "drug_trial_condition": ("pingouin", drug_trial_condition),
 }
 
 

@@ -1,27 +1,39 @@
-"""Seeded simulated scenarios for the validation study.
+"""Seeded scenario families for the validation study.
 
-Each :class:`Scenario` is a recipe for a population of labelled rows. ``make(seed)`` draws
-the population's parameters (means, covariances, thresholds, scales) from ``seed``, then a
-large independent test set and a training set (what the audit sees) from it::
+A :class:`Family` is a *kind* of population ("two Gaussian classes whose covariances differ in
+orientation only", "labels from a logistic model on log-normal features", ...). Its ``draw``
+function turns a random generator into one concrete population: the number of features, of
+classes and of training rows, the means, covariances, thresholds, contamination, all drawn
+from ranges that describe the kind. Different seeds of a family are therefore different
+populations of the same kind, and the family, not the seed, is the unit of generalization:
+the split into tuning and held-out families is in ``split.py``.
 
-    X_train, y_train, X_test, y_test = SCENARIOS["tidy_trio"].make(seed=0)
+::
+
+    X_train, y_train, X_test, y_test = FAMILIES["tidy_trio"].make(seed=0)
 
 ``make(seed, train_seed=j)`` keeps the population and the test set of ``seed`` and re-draws
-only the training set; the study uses it to see which scenarios are draw-sensitive.
+only the training rows (draw sensitivity). ``make(seed, n_train_per_class=n)`` overrides the
+drawn training size.
 
-Random streams: ``np.random.SeedSequence(seed)`` is split into three children, used for the
-population, the test set and the training set in that order; a re-draw uses
-``SeedSequence([seed, train_seed])`` for its training set. Nothing else is random.
+Random streams: ``np.random.SeedSequence([family_number, seed])`` is split into three
+children, used for the population (its parameters and sizes), the test set and the training
+set in that order; ``family_number`` is a fixed number derived from the family's name (so
+two families with the same seed do not share draws). A re-draw uses
+``SeedSequence([family_number, seed, train_seed])`` for its training set. Nothing else is
+random.
 
-Gross outliers (two scenarios) contaminate training rows only: they stand for data-entry
-errors, so the models are scored on clean future rows.
+Contamination (the ``outliers`` families) touches training rows only: it stands for
+data-entry errors, so the models are scored on clean future rows.
 
-The names are our own. No scenario is tuned to any rule of the audit: each describes a
-territory a user meets (see ``Scenario.territory``).
+The names are our own plain words; ``Family.category`` places each family in one of the
+``CATEGORIES`` (the territories the study must cover), ``Family.kept`` marks the families
+carried over (with new per-seed parameter ranges) from the earlier design of the study.
 """
 
 from __future__ import annotations
 
+import hashlib
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 
@@ -31,7 +43,25 @@ from scipy.linalg import expm
 Transform = Callable[[np.ndarray, np.random.Generator], np.ndarray]
 
 TEST_ROWS = 20_000
-TEST_ROWS_WIDE = 10_000  # p >= 50
+TEST_ROWS_WIDE = 10_000  # p >= 45
+
+CATEGORIES: dict[str, str] = {
+    "equal_gaussian": "Gaussian classes with one shared covariance (LDA's home ground)",
+    "quiet_signal": "strongly correlated features; class difference along low- or high-variance directions, "
+    "few rows per feature",
+    "small_class_spread": "strongly unequal covariances with one small class",
+    "orientation_only": "class covariances with the same eigenvalues, turned differently",
+    "size_only": "class covariances proportional to each other (same shape, different size)",
+    "unequal_general": "class covariances that differ in size and orientation",
+    "heavy_tails": "multivariate t classes",
+    "discrete": "binary, ordinal and count features",
+    "many_classes": "many classes with few rows each",
+    "imbalance": "strongly unequal class sizes",
+    "outliers": "training rows contaminated by gross errors",
+    "dimension": "many features for the rows: p/N from about 0.05 to near 1",
+    "logit_only": "labels from a logistic model on non-Gaussian features (only logistic regression is right)",
+    "shape_other": "skewed features, classes made of clusters, near separation, wild feature scales",
+}
 
 
 # ----------------------------------------------------------------------------------------
@@ -49,14 +79,31 @@ class Component:
     df: float = np.inf
 
 
+def _draw_component(rng: np.random.Generator, c: Component, m: int) -> np.ndarray:
+    z = rng.standard_normal((m, c.mean.shape[0]))
+    if np.isfinite(c.df):
+        z /= np.sqrt(rng.chisquare(c.df, m) / c.df)[:, None]
+    return c.mean + z @ c.chol.T
+
+
+def _draw_mixture(rng: np.random.Generator, comps: Sequence[Component], m: int) -> np.ndarray:
+    weights = np.array([c.weight for c in comps], dtype=float)
+    which = rng.choice(len(comps), size=m, p=weights / weights.sum())
+    X = np.empty((m, comps[0].mean.shape[0]))
+    for j, c in enumerate(comps):
+        rows = which == j
+        X[rows] = _draw_component(rng, c, int(rows.sum()))
+    return X
+
+
 @dataclass(frozen=True)
 class Population:
     """Classes as mixtures of components, an optional transform, optional training outliers.
 
     ``outliers`` is ``(fraction, magnitude, mode, classes)``: in each listed class a
-    ``fraction`` of training rows is moved ``magnitude`` pooled standard deviations away
-    from its class mean, along its own random direction (``mode="scattered"``) or along one
-    shared direction with little spread (``mode="clustered"``).
+    ``fraction`` of training rows is moved ``magnitude`` pooled standard deviations (times
+    sqrt(p)) away from its class mean, along its own random direction (``mode="scattered"``)
+    or along one shared direction with little spread (``mode="clustered"``).
     """
 
     classes: tuple[tuple[Component, ...], ...]
@@ -70,28 +117,46 @@ class Population:
     def sample(
         self, rng: np.random.Generator, counts: Sequence[int], contaminate: bool
     ) -> tuple[np.ndarray, np.ndarray]:
-        p = self.n_features
-        blocks, labels = [], []
-        for k, (comps, n_k) in enumerate(zip(self.classes, counts)):
-            weights = np.array([c.weight for c in comps], dtype=float)
-            which = rng.choice(len(comps), size=n_k, p=weights / weights.sum())
-            X = np.empty((n_k, p))
-            for j, c in enumerate(comps):
-                rows = which == j
-                m = int(rows.sum())
-                z = rng.standard_normal((m, p))
-                if np.isfinite(c.df):
-                    z /= np.sqrt(rng.chisquare(c.df, m) / c.df)[:, None]
-                X[rows] = c.mean + z @ c.chol.T
-            blocks.append(X)
-            labels.append(np.full(n_k, k))
-        X, y = np.vstack(blocks), np.concatenate(labels)
+        blocks = [_draw_mixture(rng, comps, int(n_k)) for comps, n_k in zip(self.classes, counts)]
+        y = np.concatenate([np.full(int(n_k), k) for k, n_k in enumerate(counts)])
+        X = np.vstack(blocks)
         if self.transform is not None:
             X = self.transform(X, rng)
         if contaminate and self.outliers is not None:
             X = _contaminate(X, y, rng, *self.outliers)
         order = rng.permutation(len(y))
         return X[order], y[order]
+
+
+@dataclass(frozen=True)
+class LogitPopulation:
+    """Features from a (non-Gaussian) distribution, labels from a multinomial logistic model.
+
+    ``features(rng, m)`` draws ``m`` feature rows; ``coef`` (p x K) and ``intercept`` (K) give
+    the class log-odds. Class counts are random (``counts`` only sets the total).
+    """
+
+    features: Callable[[np.random.Generator, int], np.ndarray]
+    coef: np.ndarray
+    intercept: np.ndarray
+
+    @property
+    def n_features(self) -> int:
+        return self.coef.shape[0]
+
+    def sample(
+        self, rng: np.random.Generator, counts: Sequence[int], contaminate: bool
+    ) -> tuple[np.ndarray, np.ndarray]:
+        m = int(sum(counts))
+        X = self.features(rng, m)
+        eta = X @ self.coef + self.intercept
+        eta -= eta.max(axis=1, keepdims=True)
+        prob = np.exp(eta)
+        prob /= prob.sum(axis=1, keepdims=True)
+        u = rng.random(m)
+        y = (u[:, None] > np.cumsum(prob, axis=1)).sum(axis=1)
+        y = np.minimum(y, prob.shape[1] - 1)
+        return X, y
 
 
 def _contaminate(X, y, rng, fraction, magnitude, mode, classes):
@@ -125,9 +190,22 @@ def random_rotation(rng: np.random.Generator, p: int) -> np.ndarray:
     return Q * np.sign(np.diag(R))
 
 
+def small_rotation(rng: np.random.Generator, p: int, size: float) -> np.ndarray:
+    """A random rotation near the identity: the exponential of a skew-symmetric matrix."""
+    G = rng.standard_normal((p, p))
+    return expm(size * (G - G.T) / 2)
+
+
 def chain_correlation(p: int, rho: float) -> np.ndarray:
     idx = np.arange(p)
     return rho ** np.abs(idx[:, None] - idx[None, :])
+
+
+def spectrum_cov(rng: np.random.Generator, p: int, ratio: float) -> np.ndarray:
+    """A random-orientation covariance whose eigenvalues spread log-evenly over [1/ratio, ratio]^(1/2)."""
+    lam = np.exp(np.linspace(-0.5, 0.5, p) * np.log(ratio))
+    Q = random_rotation(rng, p)
+    return (Q * lam) @ Q.T
 
 
 def spread_means(rng: np.random.Generator, cov: np.ndarray, K: int, delta: float) -> np.ndarray:
@@ -145,6 +223,18 @@ def spread_means(rng: np.random.Generator, cov: np.ndarray, K: int, delta: float
     return Z @ L.T
 
 
+def means_along(rng: np.random.Generator, cov: np.ndarray, dirs: np.ndarray, K: int, delta: float) -> np.ndarray:
+    """K class means differing only within the span of ``dirs`` (p x r), mean Mahalanobis distance ``delta``."""
+    Z = rng.standard_normal((K, dirs.shape[1]))
+    if K == 2:
+        Z = np.vstack([-Z[0], Z[0]])
+    M = Z @ dirs.T
+    M -= M.mean(axis=0)
+    P = np.linalg.inv(cov)
+    dists = [np.sqrt((M[i] - M[j]) @ P @ (M[i] - M[j])) for i in range(K) for j in range(i + 1, K)]
+    return M * (delta / np.mean(dists))
+
+
 def perturbed_covariances(
     rng: np.random.Generator, base: np.ndarray, K: int, spread: float, turn: float
 ) -> list[np.ndarray]:
@@ -154,10 +244,20 @@ def perturbed_covariances(
     out = []
     for _ in range(K):
         scales = np.exp(spread * rng.standard_normal(p))
-        G = rng.standard_normal((p, p))
-        R = expm(turn * (G - G.T) / 2)  # exponential of a skew-symmetric matrix: a rotation
-        M = L @ R @ np.diag(scales)
+        M = L @ small_rotation(rng, p, turn) @ np.diag(scales)
         out.append(M @ M.T)
+    return out
+
+
+def turned_covariances(rng: np.random.Generator, base: np.ndarray, K: int, turn: float | None) -> list[np.ndarray]:
+    """K covariances with exactly the eigenvalues of ``base``: ``R base R'`` for random rotations R
+    (near the identity with size ``turn``, or uniformly random when ``turn`` is None)."""
+    p = base.shape[0]
+    out = []
+    for _ in range(K):
+        R = random_rotation(rng, p) if turn is None else small_rotation(rng, p, turn)
+        S = R @ base @ R.T
+        out.append((S + S.T) / 2)
     return out
 
 
@@ -167,38 +267,72 @@ def gaussian_classes(
     return tuple((Component(np.asarray(m, float), np.linalg.cholesky(c), 1.0, df),) for m, c in zip(means, covs))
 
 
+# ranges ---------------------------------------------------------------------------------
+
+
+def U(rng: np.random.Generator, a: float, b: float) -> float:
+    return float(rng.uniform(a, b))
+
+
+def LU(rng: np.random.Generator, a: float, b: float) -> float:
+    """Log-uniform on [a, b]."""
+    return float(np.exp(rng.uniform(np.log(a), np.log(b))))
+
+
+def I(rng: np.random.Generator, a: int, b: int) -> int:  # noqa: E743 - a short name reads best in the tables below
+    """Integer uniform on [a, b] inclusive."""
+    return int(rng.integers(a, b + 1))
+
+
+def LI(rng: np.random.Generator, a: int, b: int) -> int:
+    """Integer log-uniform on [a, b]."""
+    return int(round(LU(rng, a, b)))
+
+
 # ----------------------------------------------------------------------------------------
-# The scenario record
+# The family record
 # ----------------------------------------------------------------------------------------
 
 
 @dataclass(frozen=True)
-class Scenario:
-    """A named population recipe with default training sizes.
+class Design:
+    """One concrete population with its training class sizes and test size."""
+
+    population: Population | LogitPopulation
+    counts: tuple[int, ...]
+    n_test: int = 0  # 0: TEST_ROWS, or TEST_ROWS_WIDE when p >= 45
+
+
+@dataclass(frozen=True)
+class Family:
+    """A named kind of population.
 
     Attributes
     ----------
-    name : str
+    name, category : str
+        ``category`` is a key of ``CATEGORIES``.
     territory : str
-        What it covers, in a few words (shown in the report).
-    build : callable
-        ``build(rng) -> Population``.
-    n_per_class : tuple of int
-        Default training rows per class.
-    n_test : int
-        Test rows, split over classes in the training proportions.
+        What it covers and the ranges its parameters are drawn from (shown in the report).
+    draw : callable
+        ``draw(rng) -> Design``.
+    kept : bool
+        Carried over from the earlier design of the study (seen while earlier rules were tuned).
     """
 
     name: str
+    category: str
     territory: str
-    build: Callable[[np.random.Generator], Population]
-    n_per_class: tuple[int, ...]
-    n_test: int = TEST_ROWS
+    draw: Callable[[np.random.Generator], Design]
+    kept: bool = False
     tags: tuple[str, ...] = field(default_factory=tuple)
 
     @property
-    def n_classes(self) -> int:
-        return len(self.n_per_class)
+    def number(self) -> int:
+        return int(hashlib.sha256(self.name.encode()).hexdigest()[:8], 16)
+
+    def design(self, seed: int) -> Design:
+        pop_ss = np.random.SeedSequence([self.number, seed]).spawn(3)[0]
+        return self.draw(np.random.default_rng(pop_ss))
 
     def make(
         self,
@@ -214,324 +348,870 @@ class Scenario:
         seed : int
             Seeds the population, the test set and (unless ``train_seed``) the training set.
         n_train_per_class : int or sequence of int, optional
-            Training rows per class; defaults to ``n_per_class``.
+            Training rows per class; defaults to the drawn sizes.
         train_seed : int, optional
             Re-draw only the training set (same population and test set).
         """
+        pop_ss, test_ss, train_ss = np.random.SeedSequence([self.number, seed]).spawn(3)
+        if train_seed is not None:
+            train_ss = np.random.SeedSequence([self.number, seed, train_seed])
+        d = self.draw(np.random.default_rng(pop_ss))
         if n_train_per_class is None:
-            counts = self.n_per_class
+            counts = d.counts
         elif np.isscalar(n_train_per_class):
-            counts = (int(n_train_per_class),) * self.n_classes
+            counts = (int(n_train_per_class),) * len(d.counts)
         else:
             counts = tuple(int(c) for c in n_train_per_class)
-        pop_ss, test_ss, train_ss = np.random.SeedSequence(seed).spawn(3)
-        if train_seed is not None:
-            train_ss = np.random.SeedSequence([seed, train_seed])
-        population = self.build(np.random.default_rng(pop_ss))
-        share = np.asarray(self.n_per_class, float) / sum(self.n_per_class)
-        test_counts = np.maximum(1, np.round(share * self.n_test)).astype(int)
-        X_test, y_test = population.sample(np.random.default_rng(test_ss), test_counts, contaminate=False)
-        X_train, y_train = population.sample(np.random.default_rng(train_ss), counts, contaminate=True)
+        p = d.population.n_features
+        n_test = d.n_test or (TEST_ROWS_WIDE if p >= 45 else TEST_ROWS)
+        share = np.asarray(d.counts, float) / sum(d.counts)
+        test_counts = np.maximum(1, np.round(share * n_test)).astype(int)
+        X_test, y_test = d.population.sample(np.random.default_rng(test_ss), test_counts, contaminate=False)
+        X_train, y_train = d.population.sample(np.random.default_rng(train_ss), counts, contaminate=True)
         return X_train, y_train, X_test, y_test
 
 
+_LIST: list[Family] = []
+
+
+def family(name: str, category: str, territory: str, *, kept: bool = False, tags: tuple[str, ...] = ()):
+    def register(fn: Callable[[np.random.Generator], Design]) -> Callable[[np.random.Generator], Design]:
+        _LIST.append(Family(name, category, territory, fn, kept, tags))
+        return fn
+
+    return register
+
+
+def _gauss(means, covs, counts, df=np.inf, **kw) -> Design:
+    return Design(Population(gaussian_classes(means, covs, df), **kw), tuple(int(c) for c in counts))
+
+
+def _equal(rng, K, p, n_k, delta, strength, df=np.inf, **kw) -> Design:
+    cov = random_correlation(rng, p, strength)
+    counts = n_k if isinstance(n_k, (tuple, list)) else (n_k,) * K
+    return _gauss(spread_means(rng, cov, K, delta), [cov] * K, counts, df, **kw)
+
+
+def _unequal(rng, K, p, n_k, delta, spread, turn, strength=1.0, df=np.inf, **kw) -> Design:
+    base = random_correlation(rng, p, strength)
+    counts = n_k if isinstance(n_k, (tuple, list)) else (n_k,) * K
+    covs = perturbed_covariances(rng, base, K, spread, turn)
+    return _gauss(spread_means(rng, base, K, delta), covs, counts, df, **kw)
+
+
 # ----------------------------------------------------------------------------------------
-# Population builders (one per scenario)
+# equal_gaussian
 # ----------------------------------------------------------------------------------------
 
 
-def _shared(p: int, K: int, delta: float, strength: float = 1.0, df: float = np.inf) -> Callable:
-    def build(rng):
-        cov = random_correlation(rng, p, strength)
-        means = spread_means(rng, cov, K, delta)
-        return Population(gaussian_classes(means, [cov] * K, df))
-
-    return build
+@family("tidy_pair_small", "equal_gaussian", "K=2, p 3-6, 30-60 rows per class, distance 1.5-2.8", kept=True)
+def _tidy_pair_small(rng):
+    return _equal(rng, 2, I(rng, 3, 6), I(rng, 30, 60), U(rng, 1.5, 2.8), U(rng, 0.2, 1.5))
 
 
-def _spread(p: int, K: int, delta: float, spread: float, turn: float, strength: float = 1.0) -> Callable:
-    def build(rng):
-        base = random_correlation(rng, p, strength)
-        means = spread_means(rng, base, K, delta)
-        covs = perturbed_covariances(rng, base, K, spread, turn)
-        return Population(gaussian_classes(means, covs))
-
-    return build
+@family("tidy_trio", "equal_gaussian", "K=3, p 6-10, 100-250 rows per class, distance 2-3", kept=True)
+def _tidy_trio(rng):
+    return _equal(rng, 3, I(rng, 6, 10), I(rng, 100, 250), U(rng, 2.0, 3.0), U(rng, 0.5, 1.5))
 
 
-def _same_centre(rng):
-    p = 4
-    base = random_correlation(rng, p, 0.5)
-    Q = random_rotation(rng, p)
-    other = 3.0 * Q @ base @ Q.T
-    covs = [base, (other + other.T) / 2]
-    means = np.zeros((2, p)) + 0.2 * rng.standard_normal(p) * np.array([[0.0], [1.0]])
-    return Population(gaussian_classes(means, covs))
+@family(
+    "tidy_pair_huge",
+    "equal_gaussian",
+    "K=2, p 5-10, 8k-20k rows per class, distance 1-2",
+    kept=True,
+    tags=("large",),
+)
+def _tidy_pair_huge(rng):
+    return _equal(rng, 2, I(rng, 5, 10), LI(rng, 8000, 20000), U(rng, 1.0, 2.0), U(rng, 0.5, 2.0))
 
 
-def _crowded(p: int, K: int, delta: float) -> Callable:
-    def build(rng):
-        cov = random_correlation(rng, p, 2.0)
-        return Population(gaussian_classes(spread_means(rng, cov, K, delta), [cov] * K))
+@family("equal_varied", "equal_gaussian", "K 2-4, p 3-15, 60-600 rows per class, distance 1.2-3.5")
+def _equal_varied(rng):
+    return _equal(rng, I(rng, 2, 4), I(rng, 3, 15), LI(rng, 60, 600), U(rng, 1.2, 3.5), U(rng, 0.0, 3.0))
 
-    return build
+
+@family(
+    "equal_correlated_large",
+    "equal_gaussian",
+    "K 2-3, p 5-12, strong correlation, 1000-5000 rows per class, distance 1-2.5",
+)
+def _equal_correlated_large(rng):
+    return _equal(rng, I(rng, 2, 3), I(rng, 5, 12), LI(rng, 1000, 5000), U(rng, 1.0, 2.5), U(rng, 3.0, 8.0))
+
+
+@family("equal_modest_rows", "equal_gaussian", "K 2-3, p 8-20, 4-8 rows per class per feature, distance 2-3.5")
+def _equal_modest_rows(rng):
+    p = I(rng, 8, 20)
+    return _equal(rng, I(rng, 2, 3), p, int(round(U(rng, 4, 8) * p)), U(rng, 2.0, 3.5), U(rng, 0.3, 2.0))
+
+
+# ----------------------------------------------------------------------------------------
+# quiet_signal
+# ----------------------------------------------------------------------------------------
 
 
 def _factor_cov(rng, p, n_factors, loading, noise):
     B = rng.standard_normal((p, n_factors)) * loading
-    cov = B @ B.T + noise * np.eye(p)
-    return cov
+    return B @ B.T + noise * np.eye(p)
 
 
-def _factor_signal(loud: bool) -> Callable:
-    """Strongly collinear features (3 dominant factors); the class difference lies along the
-    leading eigen-directions (``loud``) or along the trailing ones."""
-
-    def build(rng):
-        p = 20
-        cov = _factor_cov(rng, p, 3, 3.0, 0.05)
-        w, V = np.linalg.eigh(cov)  # ascending
-        dirs = V[:, -3:] if loud else V[:, :3]
-        coef = rng.standard_normal(3)
-        d = dirs @ coef
-        maha = np.sqrt(d @ np.linalg.solve(cov, d))
-        d *= 2.5 / maha
-        return Population(gaussian_classes(np.vstack([-d / 2, d / 2]), [cov, cov]))
-
-    return build
+def _along_eigen(rng, cov, n_dirs, trailing, K, delta):
+    w, V = np.linalg.eigh(cov)  # ascending
+    dirs = V[:, :n_dirs] if trailing else V[:, -n_dirs:]
+    return means_along(rng, cov, dirs, K, delta)
 
 
-def _chain(rng):
-    p = 15
-    cov = chain_correlation(p, 0.97)
-    return Population(gaussian_classes(spread_means(rng, cov, 2, 2.0), [cov, cov]))
+@family(
+    "factor_signal_quiet",
+    "quiet_signal",
+    "2-4 dominant factors, p 12-30, difference along the lowest-variance directions, 3-6 rows per class per feature",
+    kept=True,
+)
+def _factor_signal_quiet(rng):
+    p, f = I(rng, 12, 30), I(rng, 2, 4)
+    cov = _factor_cov(rng, p, f, U(rng, 2.0, 4.0), U(rng, 0.02, 0.1))
+    means = _along_eigen(rng, cov, f, True, 2, U(rng, 2.0, 3.0))
+    return _gauss(means, [cov, cov], (int(round(U(rng, 3, 6) * p)),) * 2)
 
 
-def _lognormal(K: int, p: int, delta: float, sd: float) -> Callable:
-    def build(rng):
-        cov = random_correlation(rng, p, 0.7)
-        means = spread_means(rng, cov, K, delta)
-        covs = [sd**2 * cov * np.exp(0.3 * (k - (K - 1) / 2)) for k in range(K)]
-        return Population(gaussian_classes(means, covs), transform=lambda X, r: np.exp(X))
+@family(
+    "factor_signal_loud",
+    "quiet_signal",
+    "2-4 dominant factors, p 12-30, difference along the highest-variance directions, 1.5-4 rows per class per feature",
+    kept=True,
+)
+def _factor_signal_loud(rng):
+    p, f = I(rng, 12, 30), I(rng, 2, 4)
+    cov = _factor_cov(rng, p, f, U(rng, 2.0, 4.0), U(rng, 0.02, 0.1))
+    means = _along_eigen(rng, cov, f, False, 2, U(rng, 2.0, 3.0))
+    return _gauss(means, [cov, cov], (int(round(U(rng, 1.5, 4) * p)),) * 2)
 
-    return build
+
+@family(
+    "quiet_few_rows",
+    "quiet_signal",
+    "decaying spectrum (condition 30-3000), p 10-30, difference along the lowest-variance third, "
+    "1.3-3 rows per class per feature",
+)
+def _quiet_few_rows(rng):
+    p = I(rng, 10, 30)
+    cov = spectrum_cov(rng, p, LU(rng, 30, 3000))
+    means = _along_eigen(rng, cov, max(2, p // 3), True, 2, U(rng, 2.0, 3.5))
+    return _gauss(means, [cov, cov], (int(round(U(rng, 1.3, 3) * p)),) * 2)
 
 
-def _binary(rng):
-    p = 15
+@family(
+    "quiet_chain_trio",
+    "quiet_signal",
+    "K=3, AR(1) correlation 0.8-0.97, p 8-24, difference mostly along the lowest-variance directions, "
+    "2-5 rows per class per feature",
+)
+def _quiet_chain_trio(rng):
+    p = I(rng, 8, 24)
+    cov = chain_correlation(p, U(rng, 0.8, 0.97))
+    w, V = np.linalg.eigh(cov)
+    mix = U(rng, 0.0, 0.3)
+    dirs = np.hstack([V[:, : max(2, p // 4)], mix * rng.standard_normal((p, 1))])
+    means = means_along(rng, cov, dirs, 3, U(rng, 2.0, 3.5))
+    return _gauss(means, [cov] * 3, (int(round(U(rng, 2, 5) * p)),) * 3)
+
+
+# ----------------------------------------------------------------------------------------
+# small_class_spread
+# ----------------------------------------------------------------------------------------
+
+
+@family(
+    "lopsided_spread",
+    "small_class_spread",
+    "K=3, sizes 800-2500 / 200-500 / 50-100, p 4-7, unequal covariances",
+    kept=True,
+)
+def _lopsided_spread(rng):
+    counts = (LI(rng, 800, 2500), LI(rng, 200, 500), LI(rng, 50, 100))
+    return _unequal(rng, 3, I(rng, 4, 7), counts, U(rng, 1.5, 2.5), U(rng, 0.4, 0.7), U(rng, 0.4, 1.0))
+
+
+@family(
+    "small_class_scaled",
+    "small_class_spread",
+    "K=2, sizes 300-1000 vs 30-100, p 3-8, the small class 3-12 times more (or less) spread and turned",
+)
+def _small_class_scaled(rng):
+    p = I(rng, 3, 8)
+    base = random_correlation(rng, p, U(rng, 0.3, 1.5))
+    c = LU(rng, 3.0, 12.0) ** (1 if rng.random() < 0.5 else -1)
+    R = small_rotation(rng, p, U(rng, 0.5, 1.5))
+    other = c * R @ base @ R.T
+    means = spread_means(rng, base, 2, U(rng, 1.5, 3.0))
+    return _gauss(means, [base, (other + other.T) / 2], (LI(rng, 300, 1000), LI(rng, 30, 100)))
+
+
+@family(
+    "small_class_trio",
+    "small_class_spread",
+    "K=3, two classes of 300-1000 rows and one of 2-5 rows per feature, p 4-10, strongly unequal covariances",
+)
+def _small_class_trio(rng):
+    p = I(rng, 4, 10)
+    counts = (LI(rng, 300, 1000), LI(rng, 300, 1000), int(round(U(rng, 2, 5) * p)))
+    return _unequal(rng, 3, p, counts, U(rng, 1.5, 3.0), U(rng, 0.7, 1.0), U(rng, 0.6, 1.2))
+
+
+@family(
+    "small_class_elongated",
+    "small_class_spread",
+    "K=2, sizes 300-1000 vs 40-120, p 3-8, the small class elongated (condition 10-50) along its own axes",
+)
+def _small_class_elongated(rng):
+    p = I(rng, 3, 8)
+    base = random_correlation(rng, p, U(rng, 0.2, 1.0))
+    small = spectrum_cov(rng, p, LU(rng, 10, 50))
+    means = spread_means(rng, base, 2, U(rng, 1.5, 3.0))
+    return _gauss(means, [base, small], (LI(rng, 300, 1000), LI(rng, 40, 120)))
+
+
+# ----------------------------------------------------------------------------------------
+# orientation_only
+# ----------------------------------------------------------------------------------------
+
+
+@family(
+    "turned_pair",
+    "orientation_only",
+    "K=2, p 3-8, same eigenvalues (condition 3-30), independent random orientations, distance 0.5-2, "
+    "150-1000 rows per class",
+)
+def _turned_pair(rng):
+    p = I(rng, 3, 8)
+    base = spectrum_cov(rng, p, LU(rng, 3, 30))
+    covs = turned_covariances(rng, base, 2, None)
+    return _gauss(spread_means(rng, base, 2, U(rng, 0.5, 2.0)), covs, (LI(rng, 150, 1000),) * 2)
+
+
+@family(
+    "turned_trio",
+    "orientation_only",
+    "K=3, p 3-7, same eigenvalues (condition 5-50), rotations of size 0.5-1.5, distance 1-2.5, 100-600 rows per class",
+)
+def _turned_trio(rng):
+    p = I(rng, 3, 7)
+    base = spectrum_cov(rng, p, LU(rng, 5, 50))
+    covs = turned_covariances(rng, base, 3, U(rng, 0.5, 1.5))
+    return _gauss(spread_means(rng, base, 3, U(rng, 1.0, 2.5)), covs, (LI(rng, 100, 600),) * 3)
+
+
+@family(
+    "turned_few_rows",
+    "orientation_only",
+    "K=2, p 6-14, same eigenvalues (condition 5-40), random orientations, 3-8 rows per class per feature",
+)
+def _turned_few_rows(rng):
+    p = I(rng, 6, 14)
+    base = spectrum_cov(rng, p, LU(rng, 5, 40))
+    covs = turned_covariances(rng, base, 2, None)
+    n = int(round(U(rng, 3, 8) * p))
+    return _gauss(spread_means(rng, base, 2, U(rng, 1.0, 2.5)), covs, (n, n))
+
+
+# ----------------------------------------------------------------------------------------
+# size_only
+# ----------------------------------------------------------------------------------------
+
+
+def _scaled(rng, K, p, n_k, delta, factors) -> Design:
+    base = random_correlation(rng, p, U(rng, 0.2, 2.0))
+    return _gauss(spread_means(rng, base, K, delta), [f * base for f in factors], (n_k,) * K)
+
+
+@family(
+    "scaled_pair",
+    "size_only",
+    "K=2, p 3-10, second covariance 1.5-6 times the first, distance 1-2.5, 150-1000 rows per class",
+)
+def _scaled_pair(rng):
+    return _scaled(rng, 2, I(rng, 3, 10), LI(rng, 150, 1000), U(rng, 1.0, 2.5), (1.0, LU(rng, 1.5, 6.0)))
+
+
+@family(
+    "scaled_trio",
+    "size_only",
+    "K=3, p 3-8, covariances scaled by exp(+-0.9), distance 1.5-3, 100-600 rows per class",
+)
+def _scaled_trio(rng):
+    factors = tuple(np.exp(rng.uniform(-0.9, 0.9, 3)))
+    return _scaled(rng, 3, I(rng, 3, 8), LI(rng, 100, 600), U(rng, 1.5, 3.0), factors)
+
+
+@family(
+    "scaled_few_rows",
+    "size_only",
+    "K=2, p 8-16, second covariance 2-5 times the first, 3-6 rows per class per feature",
+)
+def _scaled_few_rows(rng):
+    p = I(rng, 8, 16)
+    return _scaled(rng, 2, p, int(round(U(rng, 3, 6) * p)), U(rng, 1.5, 3.0), (1.0, LU(rng, 2.0, 5.0)))
+
+
+# ----------------------------------------------------------------------------------------
+# unequal_general
+# ----------------------------------------------------------------------------------------
+
+
+@family(
+    "spread_pair_medium",
+    "unequal_general",
+    "K=2, p 4-8, 200-500 rows per class, moderately unequal covariances",
+    kept=True,
+)
+def _spread_pair_medium(rng):
+    return _unequal(rng, 2, I(rng, 4, 8), LI(rng, 200, 500), U(rng, 1.0, 2.0), U(rng, 0.25, 0.5), U(rng, 0.2, 0.5))
+
+
+@family(
+    "same_centre_spread",
+    "unequal_general",
+    "K=2, p 3-6, nearly equal means, one covariance 2-4 times the other and turned, 200-600 rows per class",
+    kept=True,
+)
+def _same_centre_spread(rng):
+    p = I(rng, 3, 6)
+    base = random_correlation(rng, p, 0.5)
+    Q = random_rotation(rng, p)
+    other = U(rng, 2.0, 4.0) * Q @ base @ Q.T
+    means = np.vstack([np.zeros(p), 0.2 * rng.standard_normal(p)])
+    return _gauss(means, [base, (other + other.T) / 2], (LI(rng, 200, 600),) * 2)
+
+
+@family(
+    "spread_varied",
+    "unequal_general",
+    "K 2-4, p 3-12, 80-2000 rows per class, log-scale spread 0.1-0.8, turn 0-1",
+)
+def _spread_varied(rng):
+    K, p = I(rng, 2, 4), I(rng, 3, 12)
+    return _unequal(rng, K, p, LI(rng, 80, 2000), U(rng, 1.0, 3.0), U(rng, 0.1, 0.8), U(rng, 0.0, 1.0))
+
+
+@family(
+    "spread_many_rows",
+    "unequal_general",
+    "K 2-3, p 4-10, 3000-8000 rows per class, log-scale spread 0.2-0.6",
+    tags=("large",),
+)
+def _spread_many_rows(rng):
+    K, p = I(rng, 2, 3), I(rng, 4, 10)
+    return _unequal(rng, K, p, LI(rng, 3000, 8000), U(rng, 1.0, 2.0), U(rng, 0.2, 0.6), U(rng, 0.2, 0.8))
+
+
+# ----------------------------------------------------------------------------------------
+# heavy_tails
+# ----------------------------------------------------------------------------------------
+
+
+@family(
+    "heavy_tails_wild",
+    "heavy_tails",
+    "multivariate t with 1.2-2 degrees of freedom, K=3, p 4-7, 200-400 rows per class",
+    kept=True,
+)
+def _heavy_tails_wild(rng):
+    return _equal(rng, 3, I(rng, 4, 7), I(rng, 200, 400), U(rng, 2.0, 3.0), 1.0, df=U(rng, 1.2, 2.0))
+
+
+@family(
+    "heavy_tails_varied",
+    "heavy_tails",
+    "multivariate t with 1.5-8 degrees of freedom, shared scatter, K 2-4, p 3-10, 100-800 rows per class",
+)
+def _heavy_tails_varied(rng):
+    K, p = I(rng, 2, 4), I(rng, 3, 10)
+    return _equal(rng, K, p, LI(rng, 100, 800), U(rng, 1.5, 3.0), U(rng, 0.2, 2.0), df=LU(rng, 1.5, 8.0))
+
+
+@family(
+    "heavy_tails_spread",
+    "heavy_tails",
+    "multivariate t with 2-5 degrees of freedom, unequal scatter, K 2-3, p 3-8, 150-800 rows per class",
+)
+def _heavy_tails_spread(rng):
+    K, p = I(rng, 2, 3), I(rng, 3, 8)
+    return _unequal(
+        rng, K, p, LI(rng, 150, 800), U(rng, 1.5, 3.0), U(rng, 0.4, 0.7), U(rng, 0.3, 1.0), df=U(rng, 2.0, 5.0)
+    )
+
+
+@family(
+    "heavy_tails_few_rows",
+    "heavy_tails",
+    "multivariate t with 2-4 degrees of freedom, K=2, p 8-16, 2.5-5 rows per class per feature",
+)
+def _heavy_tails_few_rows(rng):
+    p = I(rng, 8, 16)
+    return _equal(rng, 2, p, int(round(U(rng, 2.5, 5) * p)), U(rng, 2.0, 3.5), U(rng, 0.3, 1.5), df=U(rng, 2.0, 4.0))
+
+
+# ----------------------------------------------------------------------------------------
+# discrete
+# ----------------------------------------------------------------------------------------
+
+
+@family(
+    "likert_scores",
+    "discrete",
+    "K=3, p 5-10 five-level ordinal features (latent Gaussian, random cut points), 150-300 rows per class",
+    kept=True,
+)
+def _likert_scores(rng):
+    p = I(rng, 5, 10)
     cov = random_correlation(rng, p, 1.0)
-    means = spread_means(rng, cov, 2, 1.5)
-    cuts = rng.normal(0.0, 0.6, p)
-    return Population(gaussian_classes(means, [cov, cov]), transform=lambda X, r: (cuts < X).astype(float))
-
-
-def _likert(rng):
-    p = 8
-    cov = random_correlation(rng, p, 1.0)
-    means = spread_means(rng, cov, 3, 2.0)
+    means = spread_means(rng, cov, 3, U(rng, 1.5, 2.5))
     cuts = np.sort(rng.normal(0.0, 0.8, (p, 4)), axis=1)
 
     def to_levels(X, r):
         return 1.0 + (X[:, :, None] > cuts[None, :, :]).sum(axis=2)
 
-    return Population(gaussian_classes(means, [cov] * 3), transform=to_levels)
+    return Design(Population(gaussian_classes(means, [cov] * 3), transform=to_levels), (I(rng, 150, 300),) * 3)
 
 
-def _counts(rng):
-    p = 6
-    cov = 0.3 * random_correlation(rng, p, 0.5)
-    means = spread_means(rng, cov, 2, 2.0) + rng.uniform(0.0, 1.5, p)
-    return Population(gaussian_classes(means, [cov, cov]), transform=lambda X, r: r.poisson(np.exp(X)).astype(float))
-
-
-def _mixed_types(rng):
-    p = 12
-    cov = random_correlation(rng, p, 1.0)
-    means = spread_means(rng, cov, 2, 1.2)
-    cuts = rng.normal(0.0, 0.5, 4)
+@family(
+    "ordinal_binary_mix",
+    "discrete",
+    "K 2-3, p 6-16: ordinal features with 3-7 levels, binary features and a few continuous ones, "
+    "150-600 rows per class",
+)
+def _ordinal_binary_mix(rng):
+    K, p = I(rng, 2, 3), I(rng, 6, 16)
+    cov = random_correlation(rng, p, U(rng, 0.5, 2.0))
+    means = spread_means(rng, cov, K, U(rng, 1.5, 3.0))
+    kind = rng.choice(3, size=p, p=[0.45, 0.4, 0.15])  # 0 ordinal, 1 binary, 2 continuous
+    levels = rng.integers(3, 8, size=p)
+    cuts = [np.sort(rng.normal(0.0, 0.9, levels[j] - 1)) for j in range(p)]
+    bin_cut = rng.normal(0.0, 0.7, p)
 
     def mix(X, r):
         out = X.copy()
-        out[:, 6:10] = (X[:, 6:10] > cuts).astype(float)
-        out[:, 10:12] = r.poisson(np.exp(0.5 * X[:, 10:12] + 1.0)).astype(float)
+        for j in range(p):
+            if kind[j] == 0:
+                out[:, j] = 1.0 + (X[:, j, None] > cuts[j][None, :]).sum(axis=1)
+            elif kind[j] == 1:
+                out[:, j] = (X[:, j] > bin_cut[j]).astype(float)
         return out
 
-    return Population(gaussian_classes(means, [cov, cov]), transform=mix)
+    return Design(Population(gaussian_classes(means, [cov] * K), transform=mix), (LI(rng, 150, 600),) * K)
 
 
+@family(
+    "binary_sparse",
+    "discrete",
+    "K=2, p 10-30 binary features, most of them rare (prevalence 3-30%), 150-500 rows per class",
+)
+def _binary_sparse(rng):
+    p = I(rng, 10, 30)
+    cov = random_correlation(rng, p, U(rng, 0.3, 1.5))
+    means = spread_means(rng, cov, 2, U(rng, 1.5, 3.0))
+    cuts = rng.uniform(0.5, 1.9, p)
+
+    def to_bits(X, r):
+        return (cuts < X).astype(float)
+
+    return Design(Population(gaussian_classes(means, [cov, cov]), transform=to_bits), (LI(rng, 150, 500),) * 2)
+
+
+@family(
+    "count_mix",
+    "discrete",
+    "K 2-3, p 5-12: Poisson counts (log-means from a latent Gaussian) and binary features, 150-600 rows per class",
+)
+def _count_mix(rng):
+    K, p = I(rng, 2, 3), I(rng, 5, 12)
+    cov = 0.3 * random_correlation(rng, p, U(rng, 0.3, 1.5))
+    means = spread_means(rng, cov, K, U(rng, 1.5, 3.0)) + rng.uniform(0.0, 2.0, p)
+    is_bin = rng.random(p) < 0.3
+    cut = means.mean(axis=0)
+
+    def to_counts(X, r):
+        out = r.poisson(np.exp(X)).astype(float)
+        out[:, is_bin] = (X[:, is_bin] > cut[is_bin]).astype(float)
+        return out
+
+    return Design(Population(gaussian_classes(means, [cov] * K), transform=to_counts), (LI(rng, 150, 600),) * K)
+
+
+# ----------------------------------------------------------------------------------------
+# many_classes
+# ----------------------------------------------------------------------------------------
+
+
+@family("tidy_six", "many_classes", "K=6, p 6-10, equal covariances, 40-80 rows per class", kept=True)
+def _tidy_six(rng):
+    return _equal(rng, 6, I(rng, 6, 10), I(rng, 40, 80), U(rng, 2.5, 3.5), 1.0)
+
+
+@family(
+    "many_small_classes",
+    "many_classes",
+    "K 8-15, p 3-10, equal covariances, 15-40 rows per class (at least p + 5)",
+)
+def _many_small_classes(rng):
+    K, p = I(rng, 8, 15), I(rng, 3, 10)
+    return _equal(rng, K, p, max(p + 5, I(rng, 15, 40)), U(rng, 2.5, 4.0), U(rng, 0.3, 2.0))
+
+
+@family(
+    "many_classes_spread",
+    "many_classes",
+    "K 6-10, p 3-8, unequal covariances (spread 0.4-0.7), 40-100 rows per class",
+)
+def _many_classes_spread(rng):
+    K, p = I(rng, 6, 10), I(rng, 3, 8)
+    return _unequal(rng, K, p, LI(rng, 40, 100), U(rng, 2.5, 4.0), U(rng, 0.4, 0.7), U(rng, 0.3, 1.0))
+
+
+@family(
+    "many_classes_few_features",
+    "many_classes",
+    "K 8-12, p 2-4, mildly unequal covariances, 30-150 rows per class",
+)
+def _many_classes_few_features(rng):
+    K, p = I(rng, 8, 12), I(rng, 2, 4)
+    return _unequal(rng, K, p, LI(rng, 30, 150), U(rng, 2.5, 4.0), U(rng, 0.0, 0.4), U(rng, 0.0, 0.6))
+
+
+# ----------------------------------------------------------------------------------------
+# imbalance
+# ----------------------------------------------------------------------------------------
+
+
+@family(
+    "lopsided_pair",
+    "imbalance",
+    "K=2, 800-2000 vs 60-150 rows, p 4-8, equal covariances, distance 1.5-2.5",
+    kept=True,
+)
+def _lopsided_pair(rng):
+    return _equal(rng, 2, I(rng, 4, 8), (LI(rng, 800, 2000), LI(rng, 60, 150)), U(rng, 1.5, 2.5), 1.0)
+
+
+@family(
+    "rare_class_pair",
+    "imbalance",
+    "K=2, ratio 10:1 to 30:1 (rare class 40-100 rows), p 3-10, equal covariances, distance 2-3.5",
+)
+def _rare_class_pair(rng):
+    small = LI(rng, 40, 100)
+    counts = (int(small * LU(rng, 10, 30)), small)
+    return _equal(rng, 2, I(rng, 3, 10), counts, U(rng, 2.0, 3.5), U(rng, 0.2, 1.5))
+
+
+@family(
+    "rare_classes_multi",
+    "imbalance",
+    "K=4, two common classes and two rare ones (10-40 times fewer rows, at least p + 10), p 3-8, equal covariances",
+)
+def _rare_classes_multi(rng):
+    p = I(rng, 3, 8)
+    big = LI(rng, 600, 2000)
+    rare = [max(p + 10, int(big / LU(rng, 10, 40))) for _ in range(2)]
+    return _equal(rng, 4, p, (big, LI(rng, 400, big), *rare), U(rng, 2.0, 3.5), U(rng, 0.2, 1.5))
+
+
+@family(
+    "rare_class_faint",
+    "imbalance",
+    "K=2, ratio 5:1 to 15:1, weak signal (distance 1.2-2.2), p 3-8, mildly unequal covariances",
+)
+def _rare_class_faint(rng):
+    small = LI(rng, 40, 120)
+    counts = (int(small * LU(rng, 5, 15)), small)
+    return _unequal(rng, 2, I(rng, 3, 8), counts, U(rng, 1.2, 2.2), U(rng, 0.1, 0.3), U(rng, 0.0, 0.4))
+
+
+# ----------------------------------------------------------------------------------------
+# outliers
+# ----------------------------------------------------------------------------------------
+
+
+@family(
+    "scattered_outliers",
+    "outliers",
+    "K=2, p 4-8, 2-6% of each class moved 6-10 SD in random directions, 100-300 rows per class",
+    kept=True,
+)
+def _scattered_outliers(rng):
+    out = (U(rng, 0.02, 0.06), U(rng, 6.0, 10.0), "scattered", (0, 1))
+    return _equal(rng, 2, I(rng, 4, 8), I(rng, 100, 300), U(rng, 1.5, 2.5), 1.0, outliers=out)
+
+
+@family(
+    "contaminated_varied",
+    "outliers",
+    "K 2-3, p 3-10, 2-15% of some classes moved 3-12 SD (scattered or clustered), 100-600 rows per class",
+)
+def _contaminated_varied(rng):
+    K = I(rng, 2, 3)
+    hit = tuple(int(k) for k in np.flatnonzero(rng.random(K) < 0.6)) or (0,)
+    mode = "clustered" if rng.random() < 0.5 else "scattered"
+    out = (U(rng, 0.02, 0.15), U(rng, 3.0, 12.0), mode, hit)
+    return _equal(rng, K, I(rng, 3, 10), LI(rng, 100, 600), U(rng, 1.5, 3.0), U(rng, 0.2, 2.0), outliers=out)
+
+
+@family(
+    "contaminated_spread",
+    "outliers",
+    "K=2, p 3-8, unequal covariances, 3-8% of each class moved 5-10 SD at random, 150-800 rows per class",
+)
+def _contaminated_spread(rng):
+    out = (U(rng, 0.03, 0.08), U(rng, 5.0, 10.0), "scattered", (0, 1))
+    return _unequal(
+        rng, 2, I(rng, 3, 8), LI(rng, 150, 800), U(rng, 1.5, 2.5), U(rng, 0.3, 0.6), U(rng, 0.3, 0.8), outliers=out
+    )
+
+
+@family(
+    "contaminated_cluster",
+    "outliers",
+    "K 2-4, p 4-10, 5-12% of one class replaced by a tight far cluster (4-8 SD), 150-500 rows per class",
+)
+def _contaminated_cluster(rng):
+    K = I(rng, 2, 4)
+    out = (U(rng, 0.05, 0.12), U(rng, 4.0, 8.0), "clustered", (I(rng, 0, K - 1),))
+    return _equal(rng, K, I(rng, 4, 10), LI(rng, 150, 500), U(rng, 2.0, 3.0), U(rng, 0.3, 1.5), outliers=out)
+
+
+# ----------------------------------------------------------------------------------------
+# dimension
+# ----------------------------------------------------------------------------------------
+
+
+@family(
+    "crowded_pair",
+    "dimension",
+    "K=2, p 30-50, rows per class p/2 + 3-10 (p near N - K), equal covariances",
+    kept=True,
+)
+def _crowded_pair(rng):
+    p = I(rng, 30, 50)
+    return _equal(rng, 2, p, p // 2 + I(rng, 3, 10), U(rng, 2.5, 3.5), 2.0)
+
+
+@family(
+    "wide_moderate",
+    "dimension",
+    "K=2, p 60-100, 200-300 rows per class, equal covariances",
+    kept=True,
+)
+def _wide_moderate(rng):
+    return _equal(rng, 2, I(rng, 60, 100), I(rng, 200, 300), U(rng, 2.5, 3.5), 2.0)
+
+
+def _ratio_sizes(rng, K):
+    ratio = LU(rng, 0.05, 0.8)  # p / N
+    p = I(rng, 5, 60)
+    n_k = int(np.clip(round(p / ratio / K), 8, 1500))
+    return p, n_k
+
+
+@family(
+    "ratio_sweep_equal",
+    "dimension",
+    "K 2-3, p 5-60 with p/N log-uniform on 0.05-0.8, equal covariances, distance 2-4",
+)
+def _ratio_sweep_equal(rng):
+    K = I(rng, 2, 3)
+    p, n_k = _ratio_sizes(rng, K)
+    return _equal(rng, K, p, n_k, U(rng, 2.0, 4.0), U(rng, 0.3, 3.0))
+
+
+@family(
+    "ratio_sweep_spread",
+    "dimension",
+    "K 2-3, p 5-60 with p/N log-uniform on 0.05-0.8, unequal covariances (spread 0.2-0.5), distance 2-4",
+)
+def _ratio_sweep_spread(rng):
+    K = I(rng, 2, 3)
+    p, n_k = _ratio_sizes(rng, K)
+    return _unequal(rng, K, p, n_k, U(rng, 2.0, 4.0), U(rng, 0.2, 0.5), U(rng, 0.2, 0.6), U(rng, 0.3, 2.0))
+
+
+# ----------------------------------------------------------------------------------------
+# logit_only
+# ----------------------------------------------------------------------------------------
+
+
+def _logit(rng, features, p, K, slope) -> LogitPopulation:
+    """Coefficients scaled so the sd of each linear predictor over the feature distribution is
+    ``slope``; each intercept puts the class's log-odds against class 0 at zero at a random
+    quantile (0.3-0.7) of its linear predictor, so no class is very rare."""
+    X = features(rng, 20_000)
+    coef = rng.standard_normal((p, K))
+    coef[:, 0] = 0.0
+    eta = X @ coef
+    sd = eta[:, 1:].std(axis=0)
+    coef[:, 1:] *= slope / sd
+    eta = X @ coef
+    intercept = np.zeros(K)
+    intercept[1:] = -np.quantile(eta[:, 1:], rng.uniform(0.3, 0.7, K - 1), axis=0).diagonal()
+    return LogitPopulation(features, coef, intercept)
+
+
+def _logit_rows(rng, p) -> tuple[int, ...]:
+    return (LI(rng, 300, 1500),)  # total training rows; class counts are random
+
+
+@family(
+    "logit_lognormal",
+    "logit_only",
+    "K 2-3, p 3-8 correlated log-normal features (log-sd 0.8-1.2), labels from a logistic model "
+    "(linear-predictor sd 3-8), 300-1500 rows",
+)
+def _logit_lognormal(rng):
+    p, K = I(rng, 3, 8), (2 if rng.random() < 0.7 else 3)
+    L = np.linalg.cholesky(random_correlation(rng, p, 1.0))
+    sd = U(rng, 0.8, 1.2)
+
+    def features(r, m):
+        return np.exp(sd * r.standard_normal((m, p)) @ L.T)
+
+    return Design(_logit(rng, features, p, K, U(rng, 3.0, 8.0)), _logit_rows(rng, p))
+
+
+@family(
+    "logit_gamma",
+    "logit_only",
+    "K=2, p 3-8 independent gamma features (shapes 0.5-2), labels from a logistic model "
+    "(linear-predictor sd 3-8), 300-1500 rows",
+)
+def _logit_gamma(rng):
+    p = I(rng, 3, 8)
+    shape = rng.uniform(0.5, 2.0, p)
+
+    def features(r, m):
+        return r.gamma(shape, 1.0, (m, p))
+
+    return Design(_logit(rng, features, p, 2, U(rng, 3.0, 8.0)), _logit_rows(rng, p))
+
+
+@family(
+    "logit_clusters",
+    "logit_only",
+    "K=2, p 3-8 features from a mixture of 2-4 Gaussian clusters, labels from a logistic model "
+    "(linear-predictor sd 3-8), 300-1500 rows",
+)
+def _logit_clusters(rng):
+    p, M = I(rng, 3, 8), I(rng, 2, 4)
+    comps = tuple(
+        Component(rng.normal(0.0, 2.5, p), np.diag(np.exp(rng.uniform(-1.0, 0.5, p))), float(w))
+        for w in rng.dirichlet(2.0 * np.ones(M))
+    )
+
+    def features(r, m):
+        return _draw_mixture(r, comps, m)
+
+    return Design(_logit(rng, features, p, 2, U(rng, 3.0, 8.0)), _logit_rows(rng, p))
+
+
+# ----------------------------------------------------------------------------------------
+# shape_other
+# ----------------------------------------------------------------------------------------
+
+
+@family(
+    "skewed_lognormal",
+    "shape_other",
+    "log-normal features from Gaussian classes (log-sd 0.7-1.1, slightly unequal), K 2-3, p 3-6, 200-500 rows per class",
+    kept=True,
+)
+def _skewed_lognormal(rng):
+    K, p = I(rng, 2, 3), I(rng, 3, 6)
+    cov = random_correlation(rng, p, 0.7)
+    means = spread_means(rng, cov, K, U(rng, 1.5, 2.5))
+    sd = U(rng, 0.7, 1.1)
+    covs = [sd**2 * cov * np.exp(0.3 * (k - (K - 1) / 2)) for k in range(K)]
+    return Design(Population(gaussian_classes(means, covs), transform=lambda X, r: np.exp(X)), (LI(rng, 200, 500),) * K)
+
+
+@family(
+    "split_class",
+    "shape_other",
+    "K=2, p 3-6: one class is two clusters either side of the other (offset 2-3.5), 200-600 rows per class",
+    kept=True,
+)
 def _split_class(rng):
-    p = 4
+    p = I(rng, 3, 6)
     cov = random_correlation(rng, p, 0.5)
     L = np.linalg.cholesky(cov)
     u = L @ rng.standard_normal(p)
-    u *= 2.5 / np.sqrt(u @ np.linalg.solve(cov, u))
+    u *= U(rng, 2.0, 3.5) / np.sqrt(u @ np.linalg.solve(cov, u))
     centre = Component(np.zeros(p), L)
     sides = (Component(u, L, 0.5), Component(-u, L, 0.5))
-    return Population(((centre,), sides))
+    return Design(Population(((centre,), sides)), (LI(rng, 200, 600),) * 2)
 
 
-def _lopsided_mixture(rng):
-    p = 6
-    cov = random_correlation(rng, p, 1.0)
+@family(
+    "near_separable",
+    "shape_other",
+    "K=2, p 3-8, classes 4-6 Mahalanobis units apart, 40-100 rows per class",
+    kept=True,
+)
+def _near_separable(rng):
+    return _equal(rng, 2, I(rng, 3, 8), I(rng, 40, 100), U(rng, 4.0, 6.0), 1.0)
+
+
+@family(
+    "wild_scales",
+    "shape_other",
+    "feature scales from 1e-4 to 1e4, K 2-3, p 4-8, equal or mildly unequal covariances, 150-400 rows per class",
+    kept=True,
+)
+def _wild_scales(rng):
+    K, p = I(rng, 2, 3), I(rng, 4, 8)
+    base = random_correlation(rng, p, 1.0)
+    means = spread_means(rng, base, K, U(rng, 1.5, 2.5))
+    covs = perturbed_covariances(rng, base, K, U(rng, 0.0, 0.3), U(rng, 0.0, 0.3))
+    scales = 10.0 ** rng.uniform(-4, 4, p)
+    scales[0], scales[-1] = 1e-4, 1e4
+    pop = Population(gaussian_classes(means, covs), transform=lambda X, r: X * scales)
+    return Design(pop, (LI(rng, 150, 400),) * K)
+
+
+@family(
+    "cluster_classes",
+    "shape_other",
+    "K 2-3, p 3-8, every class a mixture of 1-3 Gaussian clusters (random weights, offsets 1.5-3.5), "
+    "200-800 rows per class",
+)
+def _cluster_classes(rng):
+    K, p = I(rng, 2, 3), I(rng, 3, 8)
+    cov = random_correlation(rng, p, U(rng, 0.3, 1.5))
     L = np.linalg.cholesky(cov)
-    means = spread_means(rng, cov, 3, 2.5)
-    far = means[2] + L @ rng.standard_normal(p) * 1.5
-    classes = (
-        (Component(means[0], L),),
-        (Component(means[1], L),),
-        (Component(means[2], L, 0.8), Component(far, 0.6 * L, 0.2)),
-    )
-    return Population(classes)
+    centres = spread_means(rng, cov, K, U(rng, 2.0, 3.5))
+    classes = []
+    for k in range(K):
+        M = I(rng, 1, 3)
+        w = rng.dirichlet(2.0 * np.ones(M))
+        comps = []
+        for j in range(M):
+            off = L @ rng.standard_normal(p)
+            off *= (U(rng, 1.5, 3.5) if j else 0.0) / max(1e-9, np.sqrt(off @ np.linalg.solve(cov, off)))
+            comps.append(Component(centres[k] + off, U(rng, 0.6, 1.2) * L, float(w[j])))
+        classes.append(tuple(comps))
+    return Design(Population(tuple(classes)), (LI(rng, 200, 800),) * K)
 
 
-def _outlying(K: int, p: int, fraction: float, magnitude: float, mode: str, classes: tuple[int, ...]) -> Callable:
-    def build(rng):
-        cov = random_correlation(rng, p, 1.0)
-        means = spread_means(rng, cov, K, 2.0)
-        return Population(gaussian_classes(means, [cov] * K), outliers=(fraction, magnitude, mode, classes))
-
-    return build
-
-
-def _wild_scales(K: int, p: int, spread: float, turn: float) -> Callable:
-    def build(rng):
-        base = random_correlation(rng, p, 1.0)
-        means = spread_means(rng, base, K, 2.0)
-        covs = perturbed_covariances(rng, base, K, spread, turn) if spread > 0 else [base] * K
-        scales = 10.0 ** rng.uniform(-4, 4, p)
-        scales[0], scales[-1] = 1e-4, 1e4
-        return Population(gaussian_classes(means, covs), transform=lambda X, r: X * scales)
-
-    return build
+@family(
+    "separable_varied",
+    "shape_other",
+    "K 2-3, p 5-25, classes 4-7 Mahalanobis units apart, 25-100 rows per class (often completely separable)",
+)
+def _separable_varied(rng):
+    K, p = I(rng, 2, 3), I(rng, 5, 25)
+    return _equal(rng, K, p, max(p + 3, LI(rng, 25, 100)), U(rng, 4.0, 7.0), U(rng, 0.3, 2.0))
 
 
-# ----------------------------------------------------------------------------------------
-# The scenarios
-# ----------------------------------------------------------------------------------------
-
-_LIST = [
-    # equal covariances, Gaussian
-    Scenario("tidy_pair_small", "equal covariances, K=2, p=4, 40 per class", _shared(4, 2, 2.0), (40, 40)),
-    Scenario("tidy_trio", "equal covariances, K=3, p=8, 150 per class", _shared(8, 3, 2.5), (150,) * 3),
-    Scenario(
-        "tidy_pair_huge",
-        "equal covariances, K=2, p=8, 20k per class",
-        _shared(8, 2, 1.5),
-        (20_000,) * 2,
-        tags=("large",),
-    ),
-    Scenario("tidy_six", "equal covariances, K=6, p=10, 60 per class", _shared(10, 6, 3.0), (60,) * 6),
-    Scenario("faint_signal", "equal covariances, weak signal, K=2, p=10", _shared(10, 2, 0.6), (100, 100)),
-    # unequal covariances
-    Scenario(
-        "spread_pair_large", "unequal covariances, K=2, p=6, 5000 per class", _spread(6, 2, 1.0, 0.5, 0.6), (5000,) * 2
-    ),
-    Scenario(
-        "spread_trio_huge",
-        "unequal covariances, K=3, p=5, 10k per class",
-        _spread(5, 3, 1.5, 0.6, 0.8),
-        (10_000,) * 3,
-        tags=("large",),
-    ),
-    Scenario(
-        "spread_pair_few",
-        "unequal covariances, few rows: K=2, p=12, 30 per class",
-        _spread(12, 2, 2.0, 0.3, 0.3),
-        (30, 30),
-    ),
-    Scenario(
-        "spread_pair_medium",
-        "moderately unequal covariances, K=2, p=6, 300 per class",
-        _spread(6, 2, 1.5, 0.35, 0.3),
-        (300, 300),
-    ),
-    Scenario("same_centre_spread", "equal means, covariances differ only, K=2, p=4", _same_centre, (400, 400)),
-    Scenario("spread_five", "unequal covariances, K=5, p=4, 800 per class", _spread(4, 5, 2.0, 0.5, 0.8), (800,) * 5),
-    # dimensionality
-    Scenario("crowded_pair", "p near N-K: K=2, p=45, 25 per class", _crowded(45, 2, 3.0), (25, 25), TEST_ROWS_WIDE),
-    Scenario(
-        "crowded_trio_wide", "p > N-K: K=3, p=100, 30 per class", _crowded(100, 3, 4.0), (30,) * 3, TEST_ROWS_WIDE
-    ),
-    Scenario("wide_moderate", "p=100 with 250 per class, K=2", _crowded(100, 2, 3.0), (250, 250), TEST_ROWS_WIDE),
-    # collinearity
-    Scenario(
-        "factor_signal_loud",
-        "collinear, class difference along high-variance directions, p=20",
-        _factor_signal(True),
-        (50, 50),
-    ),
-    Scenario(
-        "factor_signal_quiet",
-        "collinear, class difference along low-variance directions, p=20",
-        _factor_signal(False),
-        (100, 100),
-    ),
-    Scenario("chain_correlated", "AR(1) correlation 0.97, K=2, p=15, 200 per class", _chain, (200, 200)),
-    # shape
-    Scenario("heavy_tails_mild", "multivariate t, df=4, K=2, p=6", _shared(6, 2, 2.0, df=4.0), (200, 200)),
-    Scenario("heavy_tails_wild", "multivariate t, df=1.5, K=3, p=5", _shared(5, 3, 2.5, df=1.5), (300,) * 3),
-    Scenario("skewed_lognormal", "log-normal features, K=2, p=5", _lognormal(2, 5, 1.5, 1.0), (300, 300)),
-    Scenario(
-        "skewed_lognormal_trio",
-        "log-normal features, unequal spreads, K=3, p=4",
-        _lognormal(3, 4, 2.0, 0.8),
-        (500,) * 3,
-    ),
-    Scenario("binary_answers", "15 binary features, K=2", _binary, (150, 150)),
-    Scenario("likert_scores", "8 five-level ordinal features, K=3", _likert, (200,) * 3),
-    Scenario("count_features", "6 Poisson count features, K=2", _counts, (250, 250)),
-    Scenario(
-        "mixed_types_huge",
-        "continuous + binary + counts, K=2, 15k per class",
-        _mixed_types,
-        (15_000,) * 2,
-        tags=("large",),
-    ),
-    Scenario("split_class", "one class is two clusters either side of the other, p=4", _split_class, (400, 400)),
-    Scenario("lopsided_mixture", "one class is an 80/20 mix of two clusters, K=3, p=6", _lopsided_mixture, (250,) * 3),
-    # outliers
-    Scenario(
-        "scattered_outliers",
-        "4% gross outliers in each class, scattered, K=2, p=6",
-        _outlying(2, 6, 0.04, 8.0, "scattered", (0, 1)),
-        (150, 150),
-    ),
-    Scenario(
-        "clustered_outliers",
-        "5% of one class replaced by a far cluster, K=3, p=8",
-        _outlying(3, 8, 0.05, 6.0, "clustered", (0,)),
-        (200,) * 3,
-    ),
-    # separation
-    Scenario(
-        "near_separable", "classes 7 Mahalanobis units apart, K=2, p=5, 60 per class", _shared(5, 2, 7.0), (60, 60)
-    ),
-    Scenario(
-        "separable_wide", "completely separable training set, K=2, p=20, 40 per class", _shared(20, 2, 6.0), (40, 40)
-    ),
-    # scales
-    Scenario(
-        "wild_scales",
-        "feature scales from 1e-4 to 1e4, equal covariances, K=3, p=6",
-        _wild_scales(3, 6, 0.0, 0.0),
-        (200,) * 3,
-    ),
-    Scenario(
-        "wild_scales_spread",
-        "feature scales from 1e-4 to 1e4, unequal covariances, K=2, p=5",
-        _wild_scales(2, 5, 0.6, 0.8),
-        (2000, 2000),
-    ),
-    # imbalance
-    Scenario("lopsided_pair", "imbalanced 1500 vs 60, equal covariances, p=6", _shared(6, 2, 2.5), (1500, 60)),
-    Scenario(
-        "lopsided_spread",
-        "imbalanced 2000/400/80, unequal covariances, p=5",
-        _spread(5, 3, 2.0, 0.5, 0.6),
-        (2000, 400, 80),
-    ),
-]
-
-SCENARIOS: dict[str, Scenario] = {s.name: s for s in _LIST}
-if len(SCENARIOS) != len(_LIST):  # pragma: no cover - guards against a duplicated name
-    raise RuntimeError("duplicate scenario name")
+FAMILIES: dict[str, Family] = {f.name: f for f in _LIST}
+if len(FAMILIES) != len(_LIST):  # pragma: no cover - guards against a duplicated name
+    raise RuntimeError("duplicate family name")
+if any(f.category not in CATEGORIES for f in _LIST):  # pragma: no cover
+    raise RuntimeError("unknown category")
+SCENARIOS = FAMILIES  # the earlier name

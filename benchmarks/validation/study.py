@@ -1,23 +1,30 @@
-"""The validation study: does the audit's recommendation predict as well as the best model?
+"""The validation study: does the audit's recommendation predict as well as the best model on
+kinds of data it was not tuned on?
 
-Run ``make validate`` (or ``python benchmarks/validation/study.py``). For every simulated
-scenario (``scenarios.py``) and seed, and for every open data set (``open_data.py``), it
+Run ``make validate`` (or ``python benchmarks/validation/study.py``): the **tuning** split.
+For every case of the chosen split (a family of ``scenarios.py`` at one of ``split.SEEDS``, or
+an open data set of ``open_data.py``) it
 
-1. runs ``discaudit.preflight`` on the training rows and times it;
-2. takes the truth (``truth.py``: test accuracy and log-loss of LDA, regularized LDA, QDA
-   and logistic regression, the acceptable set, the time of a 5-fold CV of the four) from
-   ``truth_cache.json``, computing and caching what is missing;
-3. re-draws the training set (``REDRAWS`` more seeds, same population and test set) to see
+1. takes the truth (``truth.py``: test accuracy of LDA, regularized LDA, QDA and logistic
+   regression, the acceptable set, and a 5-fold CV of the four on the training rows, the
+   "pick by CV" baseline) from ``truth_cache.json``, computing and caching what is missing;
+2. re-draws the training rows once (``REDRAWS``; same population and test set) to see
    whether the acceptable set depends on the draw;
-4. fits ``recommendation.estimator()`` when the Recommendation has that method, and
-   records errors and ConvergenceWarnings;
+3. runs ``discaudit.preflight`` on the training rows, and fits ``recommendation.estimator()``;
 
-and writes ``RESULTS.md`` beside this file and a summary to stdout.
+and writes the report with the recommendation beside the fixed choices and the CV pick.
 
-Seeds: even seeds are the tuning set, odd seeds are held out. Open data sets are a third
-group. Options: ``--refresh`` recomputes every truth entry; ``--only NAME ...`` restricts
-the run to some scenarios / open data sets (RESULTS.md is then not written unless
-``--write``).
+Splits (``split.py``): whole families and open data sets are ``tuning`` or ``held_out``.
+``--split tuning`` (the default) never touches the held-out ones and writes ``RESULTS.md``.
+``--split held_out`` writes ``RESULTS_HELD_OUT.md`` and adds one to the look counter at the
+top of ``RESULTS.md``; ``--split all`` writes both and counts as a look. A held-out run
+restricted by ``--only`` writes no report but is counted as a partial look.
+
+Options: ``--only NAME ...`` restricts to some families / open data sets; ``--refresh``
+recomputes the truth; ``--truth-only`` fills the truth cache and prints nothing about the
+results (only progress and times).
+
+Rule tuning code calls :func:`tuning_cases` for the per-case truth of the tuning split.
 """
 
 from __future__ import annotations
@@ -27,6 +34,8 @@ import hashlib
 import json
 import os
 import platform
+import re
+import subprocess
 import sys
 import time
 import warnings
@@ -42,14 +51,15 @@ sys.path.insert(0, str(HERE))
 import open_data  # noqa: E402
 import quick  # noqa: E402
 import scenarios  # noqa: E402
+import split  # noqa: E402
 import truth  # noqa: E402
 
-SEEDS = (0, 1, 2, 3)
-REDRAWS = (1, 2, 3)
+REDRAWS = (1,)
 CACHE_PATH = HERE / "truth_cache.json"
 RESULTS_PATH = HERE / "RESULTS.md"
+HELD_OUT_PATH = HERE / "RESULTS_HELD_OUT.md"
 SHORT = {"lda": "LDA", "regularized_lda": "rLDA", "qda": "QDA", "logistic_regression": "LR"}
-GROUPS = ("tuning", "held-out", "open data")
+BIG_REGRET_PP = 5.0
 
 
 # ----------------------------------------------------------------------------------------
@@ -58,16 +68,16 @@ GROUPS = ("tuning", "held-out", "open data")
 
 
 def digest(*arrays: Any) -> str:
-    """Fingerprint of a data draw (first 200 rows in float32), to notice changed generators."""
+    """Fingerprint of a data draw: shape and every value (float64 bytes, or text for labels)."""
     h = hashlib.sha256()
     for a in arrays:
         a = np.asarray(a)
         h.update(str(a.shape).encode())
-        head = a[:200]
-        h.update(
-            np.asarray(head, np.float32).tobytes() if head.dtype.kind == "f" else np.asarray(head).astype(str).tobytes()
-        )
-    return h.hexdigest()[:16]
+        if a.dtype.kind in "fiub":
+            h.update(np.ascontiguousarray(a, np.float64).tobytes())
+        else:
+            h.update("\x1f".join(map(str, a.ravel().tolist())).encode())
+    return h.hexdigest()[:20]
 
 
 def _jsonable(obj: Any) -> Any:
@@ -85,37 +95,49 @@ def _jsonable(obj: Any) -> Any:
 
 
 class TruthCache:
-    """``truth_cache.json``: entries keyed by scenario/seed/draw, each with its data digest."""
+    """``truth_cache.json``: entries keyed ``sim/<family>/seed<s>/draw<j>``, ``open/<name>`` or
+    ``quick/<name>``; each holds the digest of its data and the truth settings' fingerprint
+    (``truth.settings_fingerprint``, which includes the scikit-learn version). An entry whose
+    data or settings differ is recomputed."""
 
     def __init__(self, path: Path, refresh: bool):
         import sklearn
 
         self.path = path
-        self.version = sklearn.__version__
-        self.data: dict[str, Any] = {"sklearn_version": self.version, "numpy_version": np.__version__, "entries": {}}
+        self.settings = truth.settings_fingerprint()
+        self.data: dict[str, Any] = {"sklearn_version": sklearn.__version__, "entries": {}}
         if path.exists() and not refresh:
             self.data = json.loads(path.read_text())
+        self.data["sklearn_version"] = sklearn.__version__
+        self.data["numpy_version"] = np.__version__
+        self.data["settings"] = self.settings
         self.computed = 0
         self.seconds = 0.0
 
-    @property
-    def stale_version(self) -> bool:
-        return self.data.get("sklearn_version") != self.version
-
     def get(self, key: str, fingerprint: str, compute) -> dict[str, Any]:
         entry = self.data["entries"].get(key)
-        if entry is not None and entry.get("digest") == fingerprint:
+        if entry is not None and entry.get("digest") == fingerprint and entry.get("settings") == self.settings:
             return entry
         start = time.perf_counter()
-        entry = _jsonable({**compute(), "digest": fingerprint, "sklearn_version": self.version})
-        self.seconds += time.perf_counter() - start
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # the truth records its own warnings
+            result = compute()
+        seconds = time.perf_counter() - start
+        entry = _jsonable({**result, "digest": fingerprint, "settings": self.settings, "seconds": round(seconds, 3)})
+        self.seconds += seconds
         self.computed += 1
         self.data["entries"][key] = entry
-        if self.computed == 1:
-            self.data["sklearn_version"] = self.version
-            self.data["numpy_version"] = np.__version__
         self.save()
         return entry
+
+    def prune(self, keep: set[str]) -> int:
+        """Drop entries no case uses any more (only after a run over every case)."""
+        stale = [k for k in self.data["entries"] if k not in keep]
+        for k in stale:
+            del self.data["entries"][k]
+        if stale:
+            self.save()
+        return len(stale)
 
     def save(self) -> None:
         """Write atomically, one entry per line (compact, and diffs stay readable)."""
@@ -130,6 +152,89 @@ class TruthCache:
         tmp = self.path.with_suffix(".json.tmp")
         tmp.write_text("\n".join(lines) + "\n")
         os.replace(tmp, self.path)
+
+
+# ----------------------------------------------------------------------------------------
+# Cases and their truth
+# ----------------------------------------------------------------------------------------
+
+
+@dataclass
+class Case:
+    """One family at one seed, or one open data set."""
+
+    kind: str  # "simulated" or "open data"
+    name: str  # family or data set
+    seed: int | None
+    split: str
+    category: str
+    source: str = ""
+    seen_before: bool = False  # open data sets scored by the earlier study
+
+    @property
+    def label(self) -> str:
+        return f"{self.name} seed {self.seed}" if self.seed is not None else self.name
+
+    @property
+    def key(self) -> str:
+        return f"sim/{self.name}/seed{self.seed}/draw0" if self.kind == "simulated" else f"open/{self.name}"
+
+    def data(self):
+        """Training rows (what the audit sees) and, for simulated cases, the test rows:
+        ``(X, y, X_test, y_test)``; the test rows are None for open data sets."""
+        if self.kind == "simulated":
+            return scenarios.FAMILIES[self.name].make(self.seed)
+        X, y = open_data.OPEN_DATA[self.name][1]()
+        return X, y, None, None
+
+
+def all_cases(split_name: str = "tuning", only: list[str] | None = None) -> list[Case]:
+    """The cases of a split (``tuning``, ``held_out`` or ``all``), in catalogue order."""
+    sides = split.SPLITS if split_name == "all" else (split_name,)
+    cases = []
+    for fam in scenarios.FAMILIES.values():
+        side = split.split_of(fam.name)
+        if side in sides and (not only or fam.name in only):
+            cases += [Case("simulated", fam.name, s, side, fam.category) for s in split.SEEDS]
+    for name, (source, _) in open_data.OPEN_DATA.items():
+        side = split.split_of(name)
+        if side in sides and (not only or name in only):
+            cases.append(Case("open data", name, None, side, "open data", source, name in split.OPEN_SEEN_BEFORE))
+    return cases
+
+
+def case_truth(cache: TruthCache, case: Case) -> tuple[dict[str, Any], list[list[str]], tuple]:
+    """The truth entry of a case, the acceptable sets of its draws, and its data."""
+    if case.kind == "simulated":
+        fam = scenarios.FAMILIES[case.name]
+        X, y, Xt, yt = fam.make(case.seed)
+        entry = cache.get(
+            case.key,
+            digest(X, y, Xt, yt),
+            lambda: {**truth.evaluate(X, y, Xt, yt), "cv": truth.four_model_cv(X, y)},
+        )
+        draws = [entry["acceptable"]]
+        for j in REDRAWS:
+            Xr, yr, Xt2, yt2 = fam.make(case.seed, train_seed=j)
+            e = cache.get(
+                f"sim/{case.name}/seed{case.seed}/draw{j}",
+                digest(Xr, yr, Xt2, yt2),
+                lambda: truth.evaluate(Xr, yr, Xt2, yt2),
+            )
+            draws.append(e["acceptable"])
+        return entry, draws, (X, y, Xt, yt)
+    X, y = open_data.OPEN_DATA[case.name][1]()
+    Xa, ya = X.to_numpy(float), y.to_numpy()
+    entry = cache.get(
+        case.key, digest(Xa, ya), lambda: {**truth.evaluate_cv(Xa, ya), "cv": truth.four_model_cv(Xa, ya)}
+    )
+    return entry, entry["per_repeat_acceptable"], (X, y, None, None)
+
+
+def cache_keys(case: Case) -> list[str]:
+    if case.kind == "simulated":
+        return [case.key] + [f"sim/{case.name}/seed{case.seed}/draw{j}" for j in REDRAWS]
+    return [case.key]
 
 
 # ----------------------------------------------------------------------------------------
@@ -148,6 +253,7 @@ class AuditRun:
     escaped_warnings: list[str] = field(default_factory=list)
     error: str | None = None
     recommendation: Any = None
+    verdict: Any = None
 
 
 def run_audit(X, y) -> AuditRun:
@@ -171,6 +277,7 @@ def run_audit(X, y) -> AuditRun:
         params=dict(rec.params),
         escaped_warnings=sorted({f"{w.category.__name__}: {str(w.message)[:120]}" for w in caught}),
         recommendation=rec,
+        verdict=v,
     )
 
 
@@ -192,38 +299,27 @@ def check_estimator(run: AuditRun, X, y, X_test=None, y_test=None) -> dict[str, 
         except Exception as exc:
             return {"status": "error", "message": f"{type(exc).__name__}: {str(exc)[:160]}"}
     conv = [str(w.message)[:120] for w in caught if issubclass(w.category, ConvergenceWarning)]
-    other = sorted(
-        {
-            f"{w.category.__name__}: {str(w.message)[:100]}"
-            for w in caught
-            if not issubclass(w.category, ConvergenceWarning)
-        }
-    )
     return {
         "status": "convergence warning" if conv else "ok",
         "message": conv[0] if conv else "",
-        "other_warnings": other,
         "accuracy": acc,
         "seconds": time.perf_counter() - start,
     }
 
 
 # ----------------------------------------------------------------------------------------
-# One record per scenario+seed or open data set
+# One record per case
 # ----------------------------------------------------------------------------------------
 
 
 @dataclass
 class Record:
-    group: str
-    name: str
-    seed: int | None
+    case: Case
     shape: str
     truth: dict[str, Any]
-    audit: AuditRun
     draws: list[list[str]]
-    estimator: dict[str, Any]
-    territory: str = ""
+    audit: AuditRun | None = None
+    estimator: dict[str, Any] = field(default_factory=dict)
 
     @property
     def accuracy(self) -> dict[str, float]:
@@ -243,9 +339,14 @@ class Record:
         return model in self.truth["acceptable"]
 
     @property
-    def cv_pick(self) -> str | None:
-        cv = self.truth.get("cv")
-        return cv["pick"] if cv else None
+    def informative(self) -> bool:
+        """Not every candidate is acceptable: the choice matters."""
+        return set(self.truth["acceptable"]) != set(truth.MODELS)
+
+    @property
+    def cv_pick(self) -> str:
+        cv = self.truth.get("cv") or {}
+        return truth.cv_pick(cv["accuracy"]) if cv.get("accuracy") else "lda"
 
     @property
     def cv_seconds(self) -> float | None:
@@ -262,59 +363,30 @@ class Record:
 
 def _shape(X, y) -> str:
     counts = np.unique(np.asarray(y), return_counts=True)[1]
-    n = f"{counts[0]}" if counts.min() == counts.max() else "/".join(str(c) for c in counts)
+    if len(counts) > 5:
+        n = f"{counts.min()}-{counts.max()}" if counts.min() != counts.max() else f"{counts[0]}"
+    else:
+        n = f"{counts[0]}" if counts.min() == counts.max() else "/".join(str(c) for c in counts)
     return f"n_k={n}, p={np.asarray(X).shape[1]}, K={len(counts)}"
 
 
-def simulated_records(cache: TruthCache, names: list[str], log) -> list[Record]:
+def build_records(cache: TruthCache, cases: list[Case], log, audit: bool = True) -> list[Record]:
     records = []
-    for name in names:
-        scen = scenarios.SCENARIOS[name]
-        for seed in SEEDS:
-            X, y, Xt, yt = scen.make(seed)
-            t0 = time.perf_counter()
-            entry = cache.get(
-                f"sim/{name}/seed{seed}/draw0",
-                digest(X, y, Xt, yt),
-                lambda: {**truth.evaluate(X, y, Xt, yt), "cv": truth.four_model_cv(X, y)},
-            )
-            draws = [entry["acceptable"]]
-            for j in REDRAWS:
-                Xr, yr, Xt2, yt2 = scen.make(seed, train_seed=j)
-                e = cache.get(
-                    f"sim/{name}/seed{seed}/draw{j}", digest(Xr, yr, Xt2, yt2), lambda: truth.evaluate(Xr, yr, Xt2, yt2)
-                )
-                draws.append(e["acceptable"])
-            run = run_audit(X, y)
-            est = check_estimator(run, X, y, Xt, yt)
-            group = "tuning" if seed % 2 == 0 else "held-out"
-            rec = Record(group, name, seed, _shape(X, y), entry, run, draws, est, scen.territory)
-            records.append(rec)
-            log(
-                f"{name:24s} seed {seed}  audit {SHORT.get(run.model, run.model):5s} acceptable {_set(entry['acceptable']):18s} "
-                f"regret {rec.regret(run.model):5.2f} pp  ({time.perf_counter() - t0:5.1f} s)"
-            )
-    return records
-
-
-def open_records(cache: TruthCache, names: list[str], log) -> list[Record]:
-    records = []
-    for name in names:
-        source, load = open_data.OPEN_DATA[name]
-        X, y = load()
+    for i, case in enumerate(cases):
         t0 = time.perf_counter()
-        Xa, ya = X.to_numpy(float), y.to_numpy()
-        entry = cache.get(
-            f"open/{name}", digest(Xa, ya), lambda: {**truth.evaluate_cv(Xa, ya), "cv": truth.four_model_cv(Xa, ya)}
-        )
-        run = run_audit(X, y)
-        est = check_estimator(run, X, y)
-        rec = Record("open data", name, None, _shape(Xa, ya), entry, run, entry["per_repeat_acceptable"], est, source)
+        entry, draws, (X, y, Xt, yt) = case_truth(cache, case)
+        rec = Record(case, _shape(np.asarray(X), np.asarray(y)), entry, draws)
+        if audit:
+            rec.audit = run_audit(X, y)
+            rec.estimator = check_estimator(rec.audit, X, y, Xt, yt)
+            log(
+                f"[{i + 1}/{len(cases)}] {case.label:32s} audit {SHORT.get(rec.audit.model, rec.audit.model):5s} "
+                f"acceptable {_set(entry['acceptable']):18s} regret {rec.regret(rec.audit.model):5.2f} pp "
+                f"({time.perf_counter() - t0:5.1f} s)"
+            )
+        else:
+            log(f"[{i + 1}/{len(cases)}] {case.label:32s} truth ready ({time.perf_counter() - t0:5.1f} s)")
         records.append(rec)
-        log(
-            f"{name:24s} open     audit {SHORT.get(run.model, run.model):5s} acceptable {_set(entry['acceptable']):18s} "
-            f"regret {rec.regret(run.model):5.2f} pp  ({time.perf_counter() - t0:5.1f} s)"
-        )
     return records
 
 
@@ -341,110 +413,208 @@ def quick_records(cache: TruthCache) -> list[dict[str, Any]]:
 
 
 # ----------------------------------------------------------------------------------------
-# Summaries and the report
+# For rule tuning: the tuning split, case by case
 # ----------------------------------------------------------------------------------------
 
-STRATEGIES = ("audit", "lda", "regularized_lda", "qda", "logistic_regression", "cv_pick", "estimator")
+
+@dataclass
+class TuningCase:
+    """What a decision rule can be tuned against, for one case of the tuning split."""
+
+    name: str  # family or open data set
+    seed: int | None
+    kind: str  # "simulated" or "open data"
+    category: str
+    shape: str
+    accuracy: dict[str, float]  # test accuracy (simulated) or repeated-CV accuracy (open data)
+    acceptable: list[str]
+    best: str
+    margin: dict[str, float]
+    cv_pick: str  # the four-model 5-fold CV choice on the training rows
+    cv_accuracy: dict[str, float]
+    draws: list[list[str]]  # acceptable sets of the primary draw and the re-draws / CV repeats
+    recommendation: str | None  # discaudit's current choice (None when audit=False)
+    verdict: Any = None  # the full discaudit verdict (findings, recommendation)
+    case: Case | None = None
+
+    def data(self):
+        """``(X_train, y_train, X_test, y_test)``; the test rows are None for open data sets."""
+        assert self.case is not None
+        return self.case.data()
+
+    def regret(self, model: str) -> float:
+        return 100.0 * (self.accuracy[self.best] - self.accuracy[model])
+
+
+def tuning_cases(
+    only: list[str] | None = None, *, audit: bool = True, cache_path: Path = CACHE_PATH
+) -> list[TuningCase]:
+    """Per-case truth of the **tuning** split (never the held-out one), with the CV pick and
+    discaudit's current recommendation (``audit=False`` skips the audit). Missing truth is
+    computed and cached.
+
+    >>> cases = tuning_cases(audit=False)                          # doctest: +SKIP
+    >>> sum(c.cv_pick in c.acceptable for c in cases) / len(cases) # doctest: +SKIP
+    """
+    from threadpoolctl import threadpool_limits
+
+    cache = TruthCache(cache_path, refresh=False)
+    out = []
+    with threadpool_limits(1):
+        for r in build_records(cache, all_cases("tuning", only), lambda msg: None, audit=audit):
+            c = r.case
+            out.append(
+                TuningCase(
+                    name=c.name,
+                    seed=c.seed,
+                    kind=c.kind,
+                    category=c.category,
+                    shape=r.shape,
+                    accuracy=r.accuracy,
+                    acceptable=list(r.truth["acceptable"]),
+                    best=r.truth["best"],
+                    margin=dict(r.truth["margin"]),
+                    cv_pick=r.cv_pick,
+                    cv_accuracy=dict((r.truth.get("cv") or {}).get("accuracy", {})),
+                    draws=r.draws,
+                    recommendation=r.audit.model if r.audit else None,
+                    verdict=r.audit.verdict if r.audit else None,
+                    case=c,
+                )
+            )
+    return out
+
+
+# ----------------------------------------------------------------------------------------
+# Summaries
+# ----------------------------------------------------------------------------------------
+
+STRATEGIES = ("audit", "lda", "regularized_lda", "qda", "logistic_regression", "cv_pick")
 STRATEGY_LABEL = {
-    "audit": "audit's recommendation",
+    "audit": "**audit's recommendation**",
     "lda": "always LDA",
     "regularized_lda": "always regularized LDA",
     "qda": "always QDA",
     "logistic_regression": "always logistic regression",
-    "cv_pick": "pick by 5-fold CV of the four (reference)",
-    "estimator": "audit's `estimator()` as configured (its own settings, not CV-tuned)",
+    "cv_pick": "pick by 5-fold CV of the four",
 }
 
 
-def _choice(rec: Record, strategy: str) -> str:
+def choice(rec: Record, strategy: str) -> str:
     if strategy == "audit":
-        return rec.audit.model
+        return rec.audit.model if rec.audit else "error"
     if strategy == "cv_pick":
-        return rec.cv_pick or "lda"
+        return rec.cv_pick
     return strategy
 
 
-def summarize(records: list[Record]) -> dict[str, dict[str, dict[str, float]]]:
-    """Acceptable share and regret of each strategy, per group.
+def metrics(records: list[Record], strategy: str) -> dict[str, Any]:
+    """The six figures of a strategy over some records."""
+    ok = [r.acceptable(choice(r, strategy)) for r in records]
+    informative = [r for r in records if r.informative]
+    ok_inf = [r.acceptable(choice(r, strategy)) for r in informative]
+    reg = [r.regret(choice(r, strategy)) for r in records]
+    return {
+        "n": len(records),
+        "n_ok": int(sum(ok)),
+        "acceptable": float(np.mean(ok)) if ok else float("nan"),
+        "n_informative": len(informative),
+        "n_ok_informative": int(sum(ok_inf)),
+        "acceptable_informative": float(np.mean(ok_inf)) if ok_inf else float("nan"),
+        "all_four_share": 1.0 - len(informative) / len(records) if records else float("nan"),
+        "mean_regret": float(np.mean(reg)) if reg else float("nan"),
+        "max_regret": float(np.max(reg)) if reg else float("nan"),
+        "n_big": int(sum(x > BIG_REGRET_PP for x in reg)),
+    }
 
-    The ``estimator`` row scores ``recommendation.estimator()`` as configured by the audit
-    (simulated scenarios only): regret against the best tuned candidate, and "acceptable"
-    when within the margin that applies to the model type it implements.
-    """
-    out: dict[str, dict[str, dict[str, float]]] = {}
-    for group in GROUPS + ("all simulated",):
-        rs = [r for r in records if r.group == group or (group == "all simulated" and r.group != "open data")]
-        if not rs:
-            continue
-        out[group] = {}
-        for s in STRATEGIES:
-            if s == "estimator":
-                scored = [r for r in rs if r.estimator.get("accuracy") is not None]
-                if not scored:
-                    continue
-                reg = [100.0 * (r.best_accuracy - r.estimator["accuracy"]) for r in scored]
-                ok = [
-                    r.best_accuracy - r.estimator["accuracy"]
-                    <= r.truth["margin"].get(r.audit.model, truth.MIN_MARGIN) + 1e-12
-                    for r in scored
-                ]
-            else:
-                ok = [r.acceptable(_choice(r, s)) for r in rs]
-                reg = [r.regret(_choice(r, s)) for r in rs]
-            out[group][s] = {
-                "n": len(ok),
-                "acceptable": float(np.mean(ok)),
-                "n_ok": int(np.sum(ok)),
-                "mean_regret": float(np.mean(reg)),
-                "max_regret": float(np.max(reg)),
-            }
+
+def groups(records: list[Record], split_name: str) -> list[tuple[str, list[Record]]]:
+    sims = [r for r in records if r.case.split == split_name and r.case.kind == "simulated"]
+    opens = [r for r in records if r.case.split == split_name and r.case.kind == "open data"]
+    out = []
+    if sims:
+        n_fam = len({r.case.name for r in sims})
+        out.append((f"{split_name}: simulated ({n_fam} families, {len(sims)} cases)", sims))
+    if opens:
+        out.append((f"{split_name}: open data ({len(opens)})", opens))
+        fresh = [r for r in opens if not r.case.seen_before]
+        if split_name == "held_out" and fresh and len(fresh) < len(opens):
+            out.append((f"{split_name}: open data never scored before ({len(fresh)})", fresh))
     return out
 
 
-def _set(models: list[str]) -> str:
-    return ",".join(SHORT[m] for m in truth.MODELS if m in models) or "-"
+def _pct(x: float) -> str:
+    return "-" if not np.isfinite(x) else f"{100 * x:.1f}%"
 
 
-def _draw_text(rec: Record) -> str:
-    counts, d = rec.draw_counts(), len(rec.draws)
-    unstable = [f"{SHORT[m]} {c}/{d}" for m, c in counts.items() if 0 < c < d]
-    return ("sensitive: " + ", ".join(unstable)) if unstable else f"stable ({d} draws)"
-
-
-def _fmt_s(x: float | None) -> str:
-    if x is None:
-        return "-"
-    return f"{x:.3f}" if x < 10 else f"{x:.1f}"
-
-
-def _findings_line(run: AuditRun) -> str:
-    if run.error:
-        return f"audit raised {run.error}"
-    notes = [
-        f"{k} {st}" + (f" ({fig})" if fig else "") for k, (st, fig, _) in run.findings.items() if st in ("warn", "fail")
+def summary_table(records: list[Record], split_name: str) -> list[str]:
+    L = [
+        "| group | strategy | acceptable (all cases) | acceptable (informative cases) | all four acceptable | "
+        "mean regret pp | max regret pp | regret > 5 pp |",
+        "|---|---|---|---|---|---|---|---|",
     ]
-    rules = ", ".join(run.rules) or "none"
-    return f"rules fired: {rules}; warn/fail findings: " + ("; ".join(notes) if notes else "none")
+    for label, rs in groups(records, split_name):
+        for s in STRATEGIES:
+            if s == "audit" and any(r.audit is None for r in rs):
+                continue
+            m = metrics(rs, s)
+            L.append(
+                f"| {label} | {STRATEGY_LABEL[s]} | {_pct(m['acceptable'])} ({m['n_ok']}/{m['n']}) | "
+                f"{_pct(m['acceptable_informative'])} ({m['n_ok_informative']}/{m['n_informative']}) | "
+                f"{_pct(m['all_four_share'])} | {m['mean_regret']:.2f} | {m['max_regret']:.2f} | {m['n_big']} |"
+            )
+    return L
 
 
-def target_lines(summary) -> list[str]:
-    lines = []
-    held = summary.get("held-out")
-    if not held:
-        return lines
-    a = held["audit"]
-    share = a["acceptable"]
-    gap = 0.90 - share
-    lines.append(
-        f"- Held-out acceptable share: {100 * share:.1f}% ({a['n_ok']}/{a['n']}); target 90%: "
-        + (
-            "**met**."
-            if gap <= 1e-12
-            else f"**missed by {100 * gap:.1f} percentage points** "
-            f"({int(np.ceil(0.9 * a['n'] - a['n_ok']))} more acceptable choices needed)."
+def category_table(records: list[Record]) -> list[str]:
+    sims = [r for r in records if r.case.kind == "simulated"]
+    cats = [c for c in scenarios.CATEGORIES if any(r.case.category == c for r in sims)]
+    L = [
+        "| category | families | cases (informative) | audit | always LR | CV pick |",
+        "|---|---|---|---|---|---|",
+    ]
+    for c in cats:
+        rs = [r for r in sims if r.case.category == c]
+        cells = []
+        for s in ("audit", "logistic_regression", "cv_pick"):
+            m = metrics(rs, s)
+            cells.append(f"{_pct(m['acceptable'])}, {m['mean_regret']:.2f} pp")
+        n_inf = sum(r.informative for r in rs)
+        L.append(f"| {c} | {len({r.case.name for r in rs})} | {len(rs)} ({n_inf}) | " + " | ".join(cells) + " |")
+    L.append("\nCells: share acceptable, mean regret.\n")
+    return L
+
+
+def family_table(records: list[Record]) -> list[str]:
+    sims = [r for r in records if r.case.kind == "simulated"]
+    L = [
+        "| family | category | audit acceptable | audit mean regret pp | audit chose | acceptable sets |",
+        "|---|---|---|---|---|---|",
+    ]
+    for name in dict.fromkeys(r.case.name for r in sims):
+        rs = [r for r in sims if r.case.name == name]
+        ok = sum(r.acceptable(choice(r, "audit")) for r in rs)
+        chose = ", ".join(SHORT.get(choice(r, "audit"), choice(r, "audit")) for r in rs)
+        sets = "; ".join(_set(r.truth["acceptable"]) for r in rs)
+        L.append(
+            f"| {name} | {rs[0].case.category} | {ok}/{len(rs)} | "
+            f"{np.mean([r.regret(choice(r, 'audit')) for r in rs]):.2f} | {chose} | {sets} |"
         )
-    )
-    fixed = {s: held[s]["mean_regret"] for s in ("lda", "regularized_lda", "qda", "logistic_regression")}
+    L.append("")
+    return L
+
+
+def target_lines(records: list[Record]) -> list[str]:
+    held = [r for r in records if r.case.split == "held_out" and r.case.kind == "simulated"]
+    if not held or any(r.audit is None for r in held):
+        return []
+    a = metrics(held, "audit")
+    gap = 0.90 - a["acceptable"]
+    lines = [
+        f"- Held-out acceptable share (simulated): {_pct(a['acceptable'])} ({a['n_ok']}/{a['n']}); target 90%: "
+        + ("**met**." if gap <= 1e-12 else f"**missed by {100 * gap:.1f} percentage points**.")
+    ]
+    fixed = {s: metrics(held, s)["mean_regret"] for s in ("lda", "regularized_lda", "qda", "logistic_regression")}
     best_fixed = min(fixed, key=fixed.get)
     beat = a["mean_regret"] < fixed[best_fixed]
     lines.append(
@@ -459,224 +629,36 @@ def target_lines(summary) -> list[str]:
     return lines
 
 
-def _summary_table(summary) -> list[str]:
-    lines = ["| group | strategy | acceptable | mean regret (pp) | max regret (pp) |", "|---|---|---|---|---|"]
-    for group, block in summary.items():
-        for s in STRATEGIES:
-            if s not in block:
-                continue
-            b = block[s]
-            lines.append(
-                f"| {group} (n={b['n']}) | {STRATEGY_LABEL[s]} | {100 * b['acceptable']:.1f}% ({b['n_ok']}/{b['n']}) | "
-                f"{b['mean_regret']:.2f} | {b['max_regret']:.2f} |"
-            )
-    return lines
+def _set(models: list[str]) -> str:
+    return ",".join(SHORT[m] for m in truth.MODELS if m in models) or "-"
 
 
-def write_report(records, quick_rows, summary, cache: TruthCache, elapsed: float, path: Path) -> str:
-    import sklearn
-
-    import discaudit
-
-    sims = [r for r in records if r.group != "open data"]
-    opens = [r for r in records if r.group == "open data"]
-    est_available = any(r.estimator.get("status") != "n/a" for r in records)
-    L: list[str] = []
-    L.append("# Validation study results\n")
-    L.append(
-        f"Written by `benchmarks/validation/study.py` (`make validate`) on {time.strftime('%Y-%m-%d %H:%M')} "
-        f"with discaudit {discaudit.__version__}, scikit-learn {sklearn.__version__}, numpy {np.__version__}, "
-        f"Python {platform.python_version()}. Truth cache: scikit-learn {cache.data.get('sklearn_version')}"
-        + (" (**differs from the installed version: run with `--refresh`**)" if cache.stale_version else "")
-        + f"; {cache.computed} entries computed in this run ({cache.seconds:.0f} s). Study wall time {elapsed:.0f} s.\n"
-    )
-    L.append(
-        f"{len(scenarios.SCENARIOS)} simulated scenarios x {len(SEEDS)} seeds (even seeds = tuning, odd = held out), "
-        f"{len(opens)} open data sets. Regret = best test accuracy minus the chosen model's, in percentage points. "
-        "Acceptable = within max(1 pp, 2 SE of the paired accuracy difference) of the best (see README.md). "
-        "The `estimator()` row scores the audit's configured estimator on the test set against the best CV-tuned "
-        "candidate, with the margin of the model type it implements (approximate: no paired SE for it).\n"
-    )
-    L.append("## Summary\n")
-    L += _summary_table(summary)
-    L.append("")
-    L.append("### Targets (issue 5)\n")
-    L += target_lines(summary)
-    L.append("")
-    wrong = [r for r in records if not r.acceptable(r.audit.model)]
-    L.append(f"## Where the audit's choice is not acceptable ({len(wrong)} of {len(records)})\n")
-    for r in wrong:
-        where = f"{r.name} seed {r.seed}" if r.seed is not None else f"{r.name} (open)"
-        L.append(
-            f"- **{where}** [{r.group}]: chose {SHORT.get(r.audit.model, r.audit.model)}, acceptable "
-            f"{_set(r.truth['acceptable'])}, regret {r.regret(r.audit.model):.2f} pp. {_findings_line(r.audit)}"
-        )
-    L.append("")
-    L += _why_section(wrong)
-    L += _settings_section(sims)
-    L.append("## Simulated scenarios, per seed\n")
-    L.append(
-        "Accuracies are on the independent test set. Draws: the acceptable set over the primary training draw and "
-        f"{len(REDRAWS)} re-draws (same population and test set); a model acceptable in some draws but not all makes "
-        "the scenario draw-sensitive. Times: the audit's wall time vs. a 5-fold CV of the four candidates "
-        "(each with its inner tuning), both single-threaded.\n"
-    )
-    L.append(
-        "| scenario | seed | shape | audit | acceptable | acc LDA / rLDA / QDA / LR | regret pp | audit s | 4-model CV s | CV pick | draws |"
-        + (" estimator() |" if est_available else "")
-    )
-    L.append("|---|---|---|---|---|---|---|---|---|---|---|" + ("---|" if est_available else ""))
-    for r in sims:
-        acc = " / ".join(
-            f"{100 * r.accuracy[m]:.1f}" + ("*" if r.truth["models"][m]["failed"] else "") for m in truth.MODELS
-        )
-        mark = "" if r.acceptable(r.audit.model) else " **x**"
-        L.append(
-            f"| {r.name} | {r.seed} | {r.shape} | {SHORT.get(r.audit.model, r.audit.model)}{mark} | {_set(r.truth['acceptable'])} | "
-            f"{acc} | {r.regret(r.audit.model):.2f} | {_fmt_s(r.audit.seconds)} | {_fmt_s(r.cv_seconds)} | "
-            f"{SHORT.get(r.cv_pick, '-')} | {_draw_text(r)} |"
-            + (f" {_est_text(r.estimator)} |" if est_available else "")
-        )
-    L.append(
-        "\n`*` = the model could not be fit (scikit-learn's QDA refuses a class with no more rows than features); "
-        "it is scored as the trivial rule (largest training class) and is never acceptable.\n"
-    )
-    L.append("## Open data sets (repeated stratified cross-validation)\n")
-    L.append(
-        "| data set | source | shape | audit | acceptable | acc LDA / rLDA / QDA / LR | regret pp | audit s | 4-model CV s | CV pick | repeats |"
-        + (" estimator() |" if est_available else "")
-    )
-    L.append("|---|---|---|---|---|---|---|---|---|---|---|" + ("---|" if est_available else ""))
-    for r in opens:
-        acc = " / ".join(
-            f"{100 * r.accuracy[m]:.1f}" + ("*" if r.truth["models"][m]["failed"] else "") for m in truth.MODELS
-        )
-        mark = "" if r.acceptable(r.audit.model) else " **x**"
-        L.append(
-            f"| {r.name} | {r.territory} | {r.shape} | {SHORT.get(r.audit.model, r.audit.model)}{mark} | {_set(r.truth['acceptable'])} | "
-            f"{acc} | {r.regret(r.audit.model):.2f} | {_fmt_s(r.audit.seconds)} | {_fmt_s(r.cv_seconds)} | "
-            f"{SHORT.get(r.cv_pick, '-')} | {_draw_text(r)} |"
-            + (f" {_est_text(r.estimator)} |" if est_available else "")
-        )
-    scheme = opens[0].truth.get("scheme", "") if opens else ""
-    L.append(
-        f"\nScheme: {scheme}, per-row correctness averaged over repeats; 'repeats' compares the acceptable set of each "
-        "repeat alone. The audit sees the whole data set; the 4-model CV time is one 5-fold CV on the whole data set.\n"
-    )
-    sens = sorted({r.name for r in records if r.draw_sensitive})
-    L.append(f"## Draw-sensitive scenarios ({len(sens)})\n")
-    L.append(", ".join(sens) if sens else "none")
-    L.append("")
-    L.append("## `recommendation.estimator()` check\n")
-    if not est_available:
-        L.append("Skipped: this version's `Recommendation` has no `estimator()` method yet.\n")
-    else:
-        bad = [r for r in records if r.estimator.get("status") not in ("ok", "n/a")]
-        L.append(
-            f"Fitted on the training rows of every scenario+seed and on every open data set: {len(records) - len(bad)} ok, "
-            f"{len(bad)} with an error or a ConvergenceWarning.\n"
-        )
-        for r in bad:
-            L.append(f"- {r.name} seed {r.seed}: {r.estimator['status']}: {r.estimator.get('message', '')}")
-        L.append("")
-    L.append("## Quick scenarios (`quick.py`, for the end-to-end test)\n")
-    L.append(
-        "| case | shape | expected | acc LDA / rLDA / QDA / LR | acceptable | expected minus mean of others (pp) | audit today |"
-    )
-    L.append("|---|---|---|---|---|---|---|")
-    for q in quick_rows:
-        acc = " / ".join(f"{100 * q['accuracy'][m]:.1f}" for m in truth.MODELS)
-        L.append(
-            f"| {q['name']} | {q['shape']} | {SHORT[q['expected']]} | {acc} | {_set(q['acceptable'])} | "
-            f"{100 * q['gap_to_others_mean']:.1f} | {SHORT.get(q['audit'], q['audit'])} |"
-        )
-    L.append("")
-    L.append("## Scenario catalogue\n")
-    L.append("| scenario | territory | training rows per class | test rows |")
-    L.append("|---|---|---|---|")
-    for s in scenarios.SCENARIOS.values():
-        L.append(f"| {s.name} | {s.territory} | {'/'.join(map(str, s.n_per_class))} | {s.n_test} |")
-    L.append("")
-    escaped = sorted({w for r in records for w in r.audit.escaped_warnings})
-    if escaped:
-        L.append("## Warnings that escaped `preflight`\n")
-        L += [f"- {w}" for w in escaped]
-        L.append("")
-    conv = sorted(
-        {
-            f"{r.name}: {m}: {w}"
-            for r in records
-            for m, v in r.truth["models"].items()
-            for w in v.get("convergence_warnings", [])
-        }
-    )
-    L.append("## Truth fits: convergence\n")
-    L.append("No ConvergenceWarning in any truth fit." if not conv else "\n".join(f"- {c}" for c in conv))
-    L.append("")
-    text = "\n".join(L)
-    path.write_text(text)
-    return text
+def _draw_text(rec: Record) -> str:
+    counts, d = rec.draw_counts(), len(rec.draws)
+    unstable = [f"{SHORT[m]} {c}/{d}" for m, c in counts.items() if 0 < c < d]
+    return ("sensitive: " + ", ".join(unstable)) if unstable else f"stable ({d})"
 
 
-def _why_section(wrong: list[Record]) -> list[str]:
-    """Misses grouped by the model chosen and the rule that chose it (the first that fired)."""
-    groups: dict[tuple[str, str], list[Record]] = {}
-    for r in wrong:
-        groups.setdefault((r.audit.model, r.audit.rules[0] if r.audit.rules else "no rule fired"), []).append(r)
-    if not groups:
-        return []
-    L = [
-        "### Why: misses by the rule that chose the model\n",
-        "| chosen | deciding rule | misses (tuning / held-out / open) | total regret pp | truth preferred | scenarios |",
-        "|---|---|---|---|---|---|",
+def _fmt_s(x: float | None) -> str:
+    if x is None:
+        return "-"
+    return f"{x:.3f}" if x < 10 else f"{x:.1f}"
+
+
+def _findings_line(run: AuditRun | None) -> str:
+    if run is None:
+        return ""
+    if run.error:
+        return f"audit raised {run.error}"
+    notes = [
+        f"{k} {st}" + (f" ({fig})" if fig else "") for k, (st, fig, _) in run.findings.items() if st in ("warn", "fail")
     ]
-    for (model, rule), rs in sorted(groups.items(), key=lambda kv: -sum(r.regret(r.audit.model) for r in kv[1])):
-        counts = " / ".join(str(sum(r.group == g for r in rs)) for g in GROUPS)
-        preferred = {}
-        for r in rs:
-            preferred[r.truth["best"]] = preferred.get(r.truth["best"], 0) + 1
-        pref = ", ".join(f"{SHORT[m]} {c}" for m, c in sorted(preferred.items(), key=lambda kv: -kv[1]))
-        names = ", ".join(sorted({r.name for r in rs}))
-        L.append(
-            f"| {SHORT.get(model, model)} | {rule} | {counts} | {sum(r.regret(r.audit.model) for r in rs):.1f} | "
-            f"best: {pref} | {names} |"
-        )
-    L.append("")
-    return L
-
-
-def _settings_section(sims: list[Record]) -> list[str]:
-    """How the audit's suggested settings compare with the CV-tuned candidate of the same type."""
-    rows: dict[str, list[tuple[float, Record]]] = {}
-    for r in sims:
-        acc = r.estimator.get("accuracy")
-        if acc is None or r.audit.model not in r.accuracy or r.truth["models"][r.audit.model]["failed"]:
-            continue
-        rows.setdefault(r.audit.model, []).append((100.0 * (r.accuracy[r.audit.model] - acc), r))
-    if not rows:
-        return []
-    L = [
-        "### Suggested settings vs. CV-tuned settings\n",
-        "Test accuracy of the CV-tuned candidate minus that of `recommendation.estimator()` (same model type, the "
-        "audit's own settings), simulated scenarios; positive = the suggested settings lose accuracy.\n",
-        "| model | n | mean pp | worst pp (scenario seed) |",
-        "|---|---|---|---|",
-    ]
-    for model in truth.MODELS:
-        if model not in rows:
-            continue
-        diffs = rows[model]
-        worst = max(diffs, key=lambda t: t[0])
-        L.append(
-            f"| {SHORT[model]} | {len(diffs)} | {np.mean([d for d, _ in diffs]):.2f} | "
-            f"{worst[0]:.2f} ({worst[1].name} {worst[1].seed}) |"
-        )
-    L.append("")
-    return L
+    rules = ", ".join(run.rules) or "none"
+    return f"rules fired: {rules}; warn/fail findings: " + ("; ".join(notes) if notes else "none")
 
 
 def _est_text(e: dict[str, Any]) -> str:
-    if e.get("status") == "n/a":
+    if not e or e.get("status") == "n/a":
         return "n/a"
     if e.get("status") != "ok":
         return e["status"]
@@ -684,19 +666,254 @@ def _est_text(e: dict[str, Any]) -> str:
 
 
 # ----------------------------------------------------------------------------------------
+# The look counter
+# ----------------------------------------------------------------------------------------
+
+LOOKS_RE = re.compile(r"Times the held-out families were looked at: \*\*(\d+)\*\*")
+PARTIAL_RE = re.compile(r"Partial looks \(held-out runs restricted by `--only`\): \*\*(\d+)\*\*")
+LOG_HEAD = "Looks so far:"
+
+
+def read_looks(path: Path = RESULTS_PATH) -> tuple[int, int, list[str]]:
+    text = path.read_text() if path.exists() else ""
+    full = LOOKS_RE.search(text)
+    part = PARTIAL_RE.search(text)
+    log = []
+    if LOG_HEAD in text:
+        tail = text.split(LOG_HEAD, 1)[1]
+        for line in tail.splitlines()[1:]:
+            if line.startswith("- "):
+                log.append(line)
+            elif line.strip() or log:
+                break
+    return (int(full.group(1)) if full else 0, int(part.group(1)) if part else 0, log)
+
+
+def looks_section(full: int, partial: int, log: list[str]) -> list[str]:
+    L = [
+        "## Held-out looks\n",
+        f"Times the held-out families were looked at: **{full}**\n",
+        f"Partial looks (held-out runs restricted by `--only`): **{partial}**\n",
+        "`study.py` adds one to the first counter each time it writes a full held-out report "
+        "(`--split held_out` or `--split all`, written to `RESULTS_HELD_OUT.md`), and one to the second for a "
+        "held-out run restricted by `--only`. The split itself is fixed in `split.py`.\n",
+    ]
+    if log:
+        L += [LOG_HEAD, "", *log, ""]
+    return L
+
+
+def _commit() -> str:
+    try:
+        out = subprocess.run(
+            ["git", "-C", str(HERE), "rev-parse", "--short", "HEAD"], capture_output=True, text=True, timeout=10
+        )
+        return out.stdout.strip() or "unknown"
+    except (OSError, subprocess.SubprocessError):
+        return "unknown"
+
+
+def record_look(kind: str, path: Path = RESULTS_PATH) -> int:
+    """Add one to the held-out look counter in RESULTS.md (``kind`` 'full' or 'partial')."""
+    import discaudit
+
+    full, partial, log = read_looks(path)
+    if kind == "full":
+        full += 1
+    else:
+        partial += 1
+    log.append(
+        f"- {time.strftime('%Y-%m-%d %H:%M')}: {kind} held-out look (discaudit {discaudit.__version__}, commit {_commit()})"
+    )
+    section = looks_section(full, partial, log)
+    text = path.read_text() if path.exists() else "# Validation study results\n\n"
+    start = text.find("## Held-out looks")
+    if start < 0:
+        text = text.rstrip("\n") + "\n\n" + "\n".join(section) + "\n"
+    else:
+        end = text.find("\n## ", start + 5)
+        text = text[:start] + "\n".join(section) + "\n" + (text[end + 1 :] if end >= 0 else "")
+    path.write_text(text)
+    return full
+
+
+# ----------------------------------------------------------------------------------------
+# The report
+# ----------------------------------------------------------------------------------------
+
+
+def report(records, split_name: str, quick_rows, cache: TruthCache, elapsed: float, looks: list[str]) -> str:
+    import sklearn
+
+    import discaudit
+
+    rs = [r for r in records if r.case.split == split_name]
+    sims = [r for r in rs if r.case.kind == "simulated"]
+    opens = [r for r in rs if r.case.kind == "open data"]
+    L: list[str] = []
+    title = "tuning split" if split_name == "tuning" else "held-out split"
+    L.append(f"# Validation study results: {title}\n")
+    L.append(
+        f"Written by `benchmarks/validation/study.py --split {split_name}` on {time.strftime('%Y-%m-%d %H:%M')} "
+        f"with discaudit {discaudit.__version__} (commit {_commit()}), scikit-learn {sklearn.__version__}, "
+        f"numpy {np.__version__}, Python {platform.python_version()}. Truth settings {cache.settings}; "
+        f"{cache.computed} truth entries computed in this run ({cache.seconds:.0f} s). Study wall time {elapsed:.0f} s.\n"
+    )
+    L += looks
+    L.append(
+        f"{len({r.case.name for r in sims})} families x {len(split.SEEDS)} seeds (every seed a different population "
+        f"of the family's kind) and {len(opens)} open data sets of the **{split_name}** split (`split.py`). "
+        "Acceptable = within max(1 pp, 2 SE of the paired accuracy difference) of the best candidate; informative "
+        "cases = not all four candidates acceptable; regret = best accuracy minus the chosen model's, in percentage "
+        "points. Pick by CV = the best mean accuracy of a 5-fold stratified CV of the four on the training rows, ties "
+        "to the simpler model (LDA, regularized LDA, logistic regression, QDA).\n"
+    )
+    L.append("## Summary\n")
+    L += summary_table(records, split_name)
+    L.append("")
+    if split_name == "held_out":
+        L.append("### Targets (issue 5)\n")
+        L += target_lines(rs)
+        L.append("")
+    L.append("## By category (simulated)\n")
+    L += category_table(rs)
+    L.append("## By family\n")
+    L += family_table(rs)
+    wrong = [r for r in rs if r.audit and not r.acceptable(r.audit.model)]
+    L.append(f"## Where the audit's choice is not acceptable ({len(wrong)} of {len(rs)})\n")
+    for r in sorted(wrong, key=lambda r: -r.regret(r.audit.model)):
+        L.append(
+            f"- **{r.case.label}** [{r.case.category}]: chose {SHORT.get(r.audit.model, r.audit.model)}, acceptable "
+            f"{_set(r.truth['acceptable'])}, regret {r.regret(r.audit.model):.2f} pp. {_findings_line(r.audit)}"
+        )
+    L.append("")
+    L.append("## Simulated cases\n")
+    L.append(
+        "Accuracies on the independent test set. Draws: the acceptable set of the primary training draw and "
+        f"{len(REDRAWS)} re-draw(s) of the training rows (same population and test set). Times: the audit's wall "
+        "time vs. a 5-fold CV of the four candidates (each with its inner tuning), both single-threaded.\n"
+    )
+    L.append(
+        "| family | seed | shape | audit | acceptable | acc LDA / rLDA / QDA / LR | regret pp | CV pick | "
+        "audit s | 4-model CV s | draws | estimator() |"
+    )
+    L.append("|---|---|---|---|---|---|---|---|---|---|---|---|")
+    for r in sims:
+        acc = " / ".join(
+            f"{100 * r.accuracy[m]:.1f}" + ("*" if r.truth["models"][m]["failed"] else "") for m in truth.MODELS
+        )
+        model = r.audit.model if r.audit else "-"
+        mark = "" if r.acceptable(model) else " **x**"
+        L.append(
+            f"| {r.case.name} | {r.case.seed} | {r.shape} | {SHORT.get(model, model)}{mark} | "
+            f"{_set(r.truth['acceptable'])} | {acc} | {r.regret(model):.2f} | {SHORT[r.cv_pick]} | "
+            f"{_fmt_s(r.audit.seconds if r.audit else None)} | {_fmt_s(r.cv_seconds)} | {_draw_text(r)} | "
+            f"{_est_text(r.estimator)} |"
+        )
+    L.append(
+        "\n`*` = the model could not be fit (scikit-learn's QDA refuses a class with no more rows than features); "
+        "it is scored as the trivial rule (largest training class) and is never acceptable.\n"
+    )
+    if opens:
+        L.append("## Open data sets (repeated stratified cross-validation)\n")
+        L.append(
+            "| data set | source | shape | audit | acceptable | acc LDA / rLDA / QDA / LR | regret pp | CV pick | "
+            "audit s | 4-model CV s | repeats | scored before |"
+        )
+        L.append("|---|---|---|---|---|---|---|---|---|---|---|---|")
+        for r in opens:
+            acc = " / ".join(
+                f"{100 * r.accuracy[m]:.1f}" + ("*" if r.truth["models"][m]["failed"] else "") for m in truth.MODELS
+            )
+            model = r.audit.model if r.audit else "-"
+            mark = "" if r.acceptable(model) else " **x**"
+            L.append(
+                f"| {r.case.name} | {r.case.source} | {r.shape} | {SHORT.get(model, model)}{mark} | "
+                f"{_set(r.truth['acceptable'])} | {acc} | {r.regret(model):.2f} | {SHORT[r.cv_pick]} | "
+                f"{_fmt_s(r.audit.seconds if r.audit else None)} | {_fmt_s(r.cv_seconds)} | {_draw_text(r)} | "
+                f"{'yes' if r.case.seen_before else 'no'} |"
+            )
+        scheme = opens[0].truth.get("scheme", "")
+        L.append(
+            f"\nScheme: {scheme}, per-row correctness averaged over repeats; 'repeats' compares the acceptable set "
+            "of each repeat alone. The audit sees the whole data set; the CV pick is one 5-fold CV on the whole data "
+            "set. 'Scored before': the earlier design of the study had already reported this data set.\n"
+        )
+    sens = sorted({r.case.name for r in rs if r.draw_sensitive})
+    L.append(f"## Draw-sensitive families and data sets ({len(sens)})\n")
+    L.append(", ".join(sens) if sens else "none")
+    L.append("")
+    bad = [r for r in rs if r.estimator and r.estimator.get("status") not in ("ok", "n/a")]
+    L.append("## `recommendation.estimator()` check\n")
+    L.append(
+        f"Fitted on the training rows of every case: {len(rs) - len(bad)} ok, {len(bad)} with an error or a "
+        "ConvergenceWarning.\n"
+    )
+    L += [f"- {r.case.label}: {r.estimator['status']}: {r.estimator.get('message', '')}" for r in bad]
+    L.append("")
+    if quick_rows:
+        L.append("## Quick scenarios (`quick.py`, for the end-to-end test)\n")
+        L.append(
+            "| case | shape | expected | acc LDA / rLDA / QDA / LR | acceptable | lead over the others' mean pp | audit |"
+        )
+        L.append("|---|---|---|---|---|---|---|")
+        for q in quick_rows:
+            acc = " / ".join(f"{100 * q['accuracy'][m]:.1f}" for m in truth.MODELS)
+            L.append(
+                f"| {q['name']} | {q['shape']} | {SHORT[q['expected']]} | {acc} | {_set(q['acceptable'])} | "
+                f"{100 * q['gap_to_others_mean']:.1f} | {SHORT.get(q['audit'], q['audit'])} |"
+            )
+        L.append("")
+    L.append("## Families of this split\n")
+    L.append("| family | category | kept from the earlier design | territory (parameter ranges per seed) |")
+    L.append("|---|---|---|---|")
+    for f in scenarios.FAMILIES.values():
+        if split.split_of(f.name) == split_name:
+            L.append(f"| {f.name} | {f.category} | {'yes' if f.kept else 'no'} | {f.territory} |")
+    L.append("")
+    escaped = sorted({w for r in rs if r.audit for w in r.audit.escaped_warnings})
+    if escaped:
+        L.append("## Warnings that escaped `preflight`\n")
+        L += [f"- {w}" for w in escaped]
+        L.append("")
+    conv = sorted(
+        {
+            f"{r.case.label}: {m}: {w}"
+            for r in rs
+            for m, v in r.truth["models"].items()
+            for w in v.get("convergence_warnings", [])
+        }
+    )
+    L.append("## Truth fits: convergence\n")
+    L.append("No ConvergenceWarning in any truth fit." if not conv else "\n".join(f"- {c}" for c in conv))
+    L.append("")
+    return "\n".join(L)
+
+
+# ----------------------------------------------------------------------------------------
 
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("--split", choices=("tuning", "held_out", "all"), default="tuning")
+    parser.add_argument("--only", nargs="+", metavar="NAME", help="restrict to these families / open data sets")
     parser.add_argument("--refresh", action="store_true", help="recompute every truth entry")
-    parser.add_argument("--only", nargs="+", metavar="NAME", help="restrict to these scenarios / open data sets")
-    parser.add_argument("--write", action="store_true", help="write RESULTS.md even with --only")
-    parser.add_argument("--quiet", action="store_true", help="no per-scenario progress lines")
-    parser.add_argument("--results", type=Path, default=RESULTS_PATH, help="report file (default: RESULTS.md here)")
     parser.add_argument(
-        "--cache", type=Path, default=CACHE_PATH, help="truth cache file (default: truth_cache.json here)"
+        "--truth-only", action="store_true", help="fill the truth cache; print no result (safe for held_out)"
     )
+    parser.add_argument("--quiet", action="store_true", help="no per-case progress lines")
+    parser.add_argument("--cache", type=Path, default=CACHE_PATH, help="truth cache (default: truth_cache.json here)")
     args = parser.parse_args(argv)
+
+    split.check(list(scenarios.FAMILIES.values()), list(open_data.OPEN_DATA))
+    known = set(scenarios.FAMILIES) | set(open_data.OPEN_DATA)
+    if args.only:
+        unknown = sorted(set(args.only) - known)
+        if unknown:
+            parser.error(f"unknown names: {', '.join(unknown)}")
+        outside = sorted(n for n in args.only if args.split != "all" and split.split_of(n) != args.split)
+        if outside:
+            parser.error(f"not in the {args.split} split: {', '.join(outside)} (the split is fixed in split.py)")
 
     from threadpoolctl import threadpool_limits
 
@@ -708,25 +925,47 @@ def main(argv: list[str] | None = None) -> int:
         if not args.quiet:
             print(msg, flush=True)
 
-    sim_names = [n for n in scenarios.SCENARIOS if not args.only or n in args.only]
-    open_names = [n for n in open_data.OPEN_DATA if not args.only or n in args.only]
-    records = simulated_records(cache, sim_names, log) + open_records(cache, open_names, log)
-    quick_rows = quick_records(cache)
-    summary = summarize(records)
+    cases = all_cases(args.split, args.only)
+    if args.truth_only:
+        build_records(cache, cases, log, audit=False)
+        if not args.only:
+            quick_records(cache)
+        if args.split == "all" and not args.only:
+            keep = {k for c in cases for k in cache_keys(c)} | {f"quick/{q[0]}" for q in quick.unambiguous_cases()}
+            dropped = cache.prune(keep)
+            print(f"dropped {dropped} stale cache entries")
+        print(
+            f"{cache.computed} truth entries computed in {cache.seconds:.0f} s; wall time {time.perf_counter() - start:.0f} s"
+        )
+        return 0
+
+    records = build_records(cache, cases, log, audit=True)
+    quick_rows = quick_records(cache) if args.split in ("tuning", "all") and not args.only else []
     elapsed = time.perf_counter() - start
-    if not args.only or args.write:
-        write_report(records, quick_rows, summary, cache, elapsed, args.results)
-    print()
-    print("\n".join(_summary_table(summary)))
-    print()
-    print("\n".join(target_lines(summary)))
-    wrong = [r for r in records if not r.acceptable(r.audit.model)]
+    sides = split.SPLITS if args.split == "all" else (args.split,)
+    if "held_out" in sides:
+        record_look("partial" if args.only else "full")
+    full, partial, looks_log = read_looks()
+    looks = looks_section(full, partial, looks_log)
+    if not args.only:
+        if "tuning" in sides:
+            body = report(records, "tuning", quick_rows, cache, elapsed, looks)
+            RESULTS_PATH.write_text(body)
+        if "held_out" in sides:
+            HELD_OUT_PATH.write_text(report(records, "held_out", [], cache, elapsed, looks))
+            print(f"Held-out report written to {HELD_OUT_PATH.name}; held-out look counter now {full}.")
+    elif "held_out" in sides:
+        print(f"Partial held-out look recorded in {RESULTS_PATH.name} (now {partial}).")
+    for side in sides:
+        print()
+        print("\n".join(summary_table(records, side)))
+    print("\n".join(target_lines(records)))
+    wrong = [r for r in records if r.audit and not r.acceptable(r.audit.model)]
     print(f"\nNot acceptable: {len(wrong)} of {len(records)}")
     for r in wrong:
-        where = f"seed {r.seed}" if r.seed is not None else "(open)"
         print(
-            f"  {r.name} {where} [{r.group}]: {SHORT.get(r.audit.model, r.audit.model)} vs {_set(r.truth['acceptable'])} "
-            f"({r.regret(r.audit.model):.2f} pp)"
+            f"  {r.case.label} [{r.case.split}]: {SHORT.get(r.audit.model, r.audit.model)} vs "
+            f"{_set(r.truth['acceptable'])} ({r.regret(r.audit.model):.2f} pp)"
         )
     for q in quick_rows:
         print(

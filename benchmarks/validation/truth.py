@@ -45,11 +45,41 @@ from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import StandardScaler
 
 MODELS = ("lda", "regularized_lda", "qda", "logistic_regression")
+# Order of simplicity, for ties in the pick by cross-validation: LDA has the fewest free
+# settings, then LDA with one shrinkage intensity, then logistic regression (as many
+# coefficients as LDA, plus its penalty), then QDA (a covariance per class).
+SIMPLEST_FIRST = ("lda", "regularized_lda", "logistic_regression", "qda")
 REG_GRID = (0.0, 0.01, 0.05, 0.1, 0.3, 0.6, 0.9)
 C_GRID = (1e-3, 1e-2, 1e-1, 1.0, 10.0, 100.0)
 QDA_FALLBACK_REG = 0.6  # used when no grid value survives every inner fold
 MAX_ITER = 20_000
 MIN_MARGIN = 0.01
+CV_FOLDS = 5
+OPEN_REPEATS = 3
+
+
+def settings_fingerprint() -> str:
+    """A short digest of everything that defines the truth (grids, margins, folds, versions):
+    a cached entry computed under other settings is recomputed."""
+    import hashlib
+
+    import sklearn
+
+    text = repr(
+        (
+            MODELS,
+            REG_GRID,
+            C_GRID,
+            QDA_FALLBACK_REG,
+            MAX_ITER,
+            MIN_MARGIN,
+            CV_FOLDS,
+            OPEN_REPEATS,
+            SIMPLEST_FIRST,
+            sklearn.__version__,
+        )
+    )
+    return hashlib.sha256(text.encode()).hexdigest()[:12]
 
 
 def inner_splits(y: np.ndarray, wanted: int = 5) -> int:
@@ -220,7 +250,7 @@ def evaluate(X_train, y_train, X_test, y_test, random_state: int = 0) -> dict[st
     return {"models": models, **verdict, "trivial_accuracy": trivial}
 
 
-def evaluate_cv(X, y, n_repeats: int = 3, n_splits: int = 5, random_state: int = 0) -> dict[str, Any]:
+def evaluate_cv(X, y, n_repeats: int = OPEN_REPEATS, n_splits: int = CV_FOLDS, random_state: int = 0) -> dict[str, Any]:
     """Truth on an open data set by repeated stratified K-fold CV.
 
     Returns accuracies averaged over repeats, the pooled acceptable set, and the acceptable
@@ -274,11 +304,22 @@ def _summarize_chosen(items: list[dict[str, float]]) -> dict[str, Any]:
     return {k: sorted({d[k] for d in items if k in d}) for k in keys}
 
 
-def four_model_cv(X, y, n_splits: int = 5, random_state: int = 0) -> dict[str, Any]:
-    """Wall time of a plain 5-fold CV of the four candidates (as a user would run it to choose).
+def cv_pick(accuracy: dict[str, float]) -> str:
+    """The candidate with the best CV accuracy; ties (within 1e-12) go to the simpler model
+    (``SIMPLEST_FIRST``). A candidate that failed in a fold (NaN) is never picked."""
+    usable = {m: a for m, a in accuracy.items() if a is not None and np.isfinite(a)}
+    if not usable:
+        return SIMPLEST_FIRST[0]
+    top = max(usable.values())
+    return next(m for m in SIMPLEST_FIRST if m in usable and usable[m] >= top - 1e-12)
 
-    Each candidate keeps its own inner tuning, so this is nested CV. Also returns the mean
-    CV accuracy of each, i.e. the choice a user who picks by CV would make.
+
+def four_model_cv(X, y, n_splits: int = CV_FOLDS, random_state: int = 0) -> dict[str, Any]:
+    """A plain 5-fold stratified CV of the four candidates on the training rows, as a user
+    would run it to choose: its wall time, each candidate's mean CV accuracy and the pick
+    (``cv_pick``: best CV accuracy, ties to the simpler model).
+
+    Each candidate keeps its own inner tuning, so this is nested CV.
     """
     X, y = np.asarray(X, float), np.asarray(y)
     folds = list(StratifiedKFold(n_splits, shuffle=True, random_state=random_state).split(X, y))
@@ -294,6 +335,4 @@ def four_model_cv(X, y, n_splits: int = 5, random_state: int = 0) -> dict[str, A
             float(np.nanmean(scores)) if np.isfinite(scores).any() and not np.isnan(scores).any() else float("nan")
         )
     seconds = time.perf_counter() - start
-    usable = {m: a for m, a in acc.items() if np.isfinite(a)}
-    pick = max(MODELS, key=lambda m: usable.get(m, -1.0))
-    return {"seconds": round(seconds, 4), "accuracy": acc, "pick": pick}
+    return {"seconds": round(seconds, 4), "accuracy": acc, "pick": cv_pick(acc)}
