@@ -28,6 +28,7 @@ pytestmark = pytest.mark.filterwarnings("error::RuntimeWarning")
 
 GRID = (0.0, 0.01, 0.1, 0.6)
 SHRINKAGE = 0.3
+SHRINKAGE_GRID = (0.05, 0.5)
 
 
 def _moments(X: np.ndarray, codes: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -90,17 +91,24 @@ def _cancer8():
     return d.data[:, :8], d.target.astype(np.intp)
 
 
-def _check_against_brute_force(X, codes, rows, *, scale=None, X_fit=None, unfit_grid=()) -> None:
+def _check_against_brute_force(
+    X, codes, rows, *, scale=None, X_fit=None, unfit_grid=(), shrinkage: float | tuple[float, ...] = SHRINKAGE
+) -> None:
     """Every candidate, per row and in summary, equals scikit-learn refit without the row.
 
     ``X_fit`` is what the reference estimators see (X / scale when a scale is given);
-    ``unfit_grid`` lists the reg_param values at which scikit-learn cannot fit QDA at all.
+    ``unfit_grid`` lists the reg_param values at which scikit-learn cannot fit QDA at all;
+    ``shrinkage`` is one value (candidate ``regularized_lda``) or a grid (one candidate per value).
     """
     X_fit = X if X_fit is None else X_fit
     counts, means, scatter = _moments(X, codes)
-    scorer = LeaveOneOutScorer.from_moments(counts, means, scatter, shrinkage=SHRINKAGE, qda_reg_grid=GRID, scale=scale)
+    scorer = LeaveOneOutScorer.from_moments(counts, means, scatter, shrinkage=shrinkage, qda_reg_grid=GRID, scale=scale)
     grid = tuple(r for r in GRID if r not in unfit_grid)
-    assert scorer.names == ("lda", "regularized_lda", *(f"qda(reg_param={r:g})" for r in grid))
+    if isinstance(shrinkage, tuple):
+        rlda = tuple(f"regularized_lda(shrinkage={a:g})" for a in shrinkage)
+    else:
+        rlda = ("regularized_lda",)
+    assert scorer.names == ("lda", *rlda, *(f"qda(reg_param={r:g})" for r in grid))
     for r in unfit_grid:
         assert f"qda(reg_param={r:g})" in scorer.skipped
         with pytest.raises(linalg.LinAlgError):  # source: scikit-learn refuses the fit
@@ -135,11 +143,45 @@ def _check_against_brute_force(X, codes, rows, *, scale=None, X_fit=None, unfit_
     qda = [f"qda(reg_param={r:g})" for r in grid]
     best = grid[int(np.argmin([reference[name][1].mean() for name in qda]))]
     assert result.best_qda_reg_param() == best
+    shrink = shrinkage if isinstance(shrinkage, tuple) else (shrinkage,)
+    best_nll = shrink[int(np.argmin([reference[name][1].mean() for name in rlda]))]
+    assert result.best_shrinkage() == best_nll
+    best_acc = shrink[int(np.argmax([reference[name][0].mean() for name in rlda]))]
+    assert result.best_shrinkage("accuracy") == best_acc
 
 
 def test_iris_every_row_matches_sklearn_refits() -> None:
     X, y = _iris()
     _check_against_brute_force(X, y, np.arange(y.size))
+
+
+def test_iris_shrinkage_grid_matches_sklearn_refits_per_value() -> None:
+    # Given in descending order, so the log-loss winner (0.05, by the brute force) is not the first value.
+    X, y = _iris()
+    _check_against_brute_force(X, y, np.arange(y.size), shrinkage=SHRINKAGE_GRID[::-1])
+
+
+def test_wine_five_features_with_a_shrinkage_grid_match_sklearn_refits() -> None:
+    # The metrics disagree here (by the brute force): log-loss picks 0.05, accuracy 0.5.
+    X, y = _wine5()
+    rows = np.sort(np.random.default_rng(12).choice(y.size, 60, replace=False))
+    _check_against_brute_force(X, y, rows, shrinkage=SHRINKAGE_GRID)
+
+
+def test_shrinkage_names_and_validation() -> None:
+    X, y = _iris()
+    counts, means, scatter = _moments(X, y)
+    one = LeaveOneOutScorer.from_moments(counts, means, scatter, shrinkage=[0.2], qda_reg_grid=())
+    assert one.names == ("lda", "regularized_lda(shrinkage=0.2)")  # a sequence of one is still a grid
+    plain = LeaveOneOutScorer.from_moments(counts, means, scatter, shrinkage=0.2, qda_reg_grid=())
+    assert plain.names == ("lda", "regularized_lda")
+    none = LeaveOneOutScorer.from_moments(counts, means, scatter, shrinkage=(), qda_reg_grid=())
+    assert none.names == ("lda",)
+    res = none.tally(array_blocks(X, y)).result()
+    assert res.best_shrinkage() is None
+    for bad in ((0.1, 0.1), (0.2, 1.5), -0.1, [[0.1]]):
+        with pytest.raises(DataError, match="shrinkage"):
+            LeaveOneOutScorer.from_moments(counts, means, scatter, shrinkage=bad)
 
 
 def test_wine_five_features_match_sklearn_refits() -> None:

@@ -9,7 +9,7 @@ scikit-learn 1.9 estimator refit on the other n - 1 rows.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Iterable, Iterator, Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from types import MappingProxyType
 from typing import Literal
@@ -28,6 +28,7 @@ BoolArray = npt.NDArray[np.bool_]
 Block = tuple[npt.ArrayLike, npt.ArrayLike]
 Blocks = Iterable[Block] | Callable[[], Iterable[Block]]
 Metric = Literal["accuracy", "log_loss"]
+Shrinkage = float | Sequence[float] | None
 
 #: Default ``tol`` of scikit-learn's LinearDiscriminantAnalysis and QuadraticDiscriminantAnalysis (1.9):
 #: singular values (LDA, svd solver) or regularized class-covariance eigenvalues (QDA) at or below it
@@ -140,7 +141,8 @@ class LeaveOneOutResult:
     Attributes
     ----------
     names : tuple[str, ...]
-        Scored candidates: ``"lda"``, ``"regularized_lda"``, ``"qda(reg_param=r)"``.
+        Scored candidates: ``"lda"``, ``"regularized_lda"`` (one shrinkage value) or
+        ``"regularized_lda(shrinkage=a)"`` (a grid of them), ``"qda(reg_param=r)"``.
     models : tuple[str, ...]
         ``"lda"``, ``"regularized_lda"`` or ``"qda"`` for each name.
     settings : tuple[float | None, ...]
@@ -189,6 +191,17 @@ class LeaveOneOutResult:
         None when no QDA setting was scored.
         """
         idx = [i for i, m in enumerate(self.models) if m == "qda"]
+        if not idx:
+            return None
+        values = self.log_loss[idx] if _check_metric(metric) == "log_loss" else -self.accuracy[idx]
+        return self.settings[idx[int(np.argmin(values))]]
+
+    def best_shrinkage(self, metric: Metric = "log_loss") -> float | None:
+        """Regularized LDA's shrinkage with the lowest leave-one-out log-loss (or highest accuracy); first of ties.
+
+        None when no shrinkage value was scored.
+        """
+        idx = [i for i, m in enumerate(self.models) if m == "regularized_lda"]
         if not idx:
             return None
         values = self.log_loss[idx] if _check_metric(metric) == "log_loss" else -self.accuracy[idx]
@@ -353,7 +366,7 @@ class LeaveOneOutScorer:
     scale: FloatArray | None
     centre: FloatArray
     tol: float
-    shrinkage: float | None
+    shrinkage_grid: tuple[float, ...]
     qda_grid: tuple[float, ...]
     # LDA (svd solver): eigenbasis of the within-class scatter in correlation units.
     lda_sd: FloatArray
@@ -377,7 +390,7 @@ class LeaveOneOutScorer:
         means: npt.ArrayLike,
         scatter: npt.ArrayLike,
         *,
-        shrinkage: float | None = None,
+        shrinkage: Shrinkage = None,
         qda_reg_grid: Iterable[float] = DEFAULT_QDA_REG_GRID,
         scale: npt.ArrayLike | None = None,
         tol: float = SKLEARN_TOL,
@@ -386,7 +399,7 @@ class LeaveOneOutScorer:
 
         Parameters are those of :func:`leave_one_out`.
         """
-        n, M, S, sc, grid = _check_moments(counts, means, scatter, shrinkage, qda_reg_grid, scale, tol)
+        n, M, S, sc, shrink_grid, grid = _check_moments(counts, means, scatter, shrinkage, qda_reg_grid, scale, tol)
         K, p = M.shape
         if sc is not None:
             M = M / sc
@@ -419,15 +432,17 @@ class LeaveOneOutScorer:
         else:
             skipped["lda"] = lda_reason
 
-        # Regularized LDA, lsqr solver: Sigma = (1 - a) W / N + a trace(W) / (N p) I.
+        # Regularized LDA, lsqr solver: Sigma = (1 - a) W / N + a trace(W) / (N p) I. One eigenbasis of W
+        # serves every shrinkage value.
         within_values, within_vectors = symmetric_eigh(W)
-        if shrinkage is not None:
+        for a in shrink_grid:
+            name = f"regularized_lda(shrinkage={a:g})" if _is_grid(shrinkage) else "regularized_lda"
             if singletons:
-                skipped["regularized_lda"] = _singleton_reason(singletons, n)
+                skipped[name] = _singleton_reason(singletons, n)
             else:
-                names.append("regularized_lda")
+                names.append(name)
                 models.append("regularized_lda")
-                settings.append(float(shrinkage))
+                settings.append(a)
                 reasons.append("the shrunk covariance is singular at scipy.linalg.lstsq's rank cutoff")
 
         # QDA, svd solver: Sigma_k = (1 - r) S_k / n_k + r I.
@@ -456,7 +471,9 @@ class LeaveOneOutScorer:
             scale=sc,
             centre=centre,
             tol=float(tol),
-            shrinkage=None if shrinkage is None else float(shrinkage),
+            shrinkage_grid=tuple(
+                a for a, m in zip(settings, models, strict=True) if m == "regularized_lda" and a is not None
+            ),
             qda_grid=tuple(r for r, m in zip(settings, models, strict=True) if m == "qda" and r is not None),
             lda_sd=sd_safe,
             lda_values=lda_values,
@@ -532,7 +549,8 @@ class LeaveOneOutScorer:
             correct[:, j] = (np.argmax(scores, axis=1) == ca) & ~fail
             nll[:, j] = np.where(fail, 0.0, logsumexp(scores, axis=1) - scores[rows, ca])
 
-        for j, model in enumerate(self.models):
+        shared: tuple[FloatArray, FloatArray, FloatArray] | None = None  # rotation shared by the shrinkage values
+        for j, (model, setting) in enumerate(zip(self.models, self.settings, strict=True)):
             if model == "lda":
                 z = ((Xa - self.centre) / self.lda_sd) @ self.lda_vectors
                 w = z - self.lda_means[ca]
@@ -540,12 +558,13 @@ class LeaveOneOutScorer:
                 forms = _linear_forms(z, self.lda_means, ca, self.lda_values, gamma, gamma, fail)
                 record(j, log_prior - 0.5 * (N - 1.0) * forms, fail)
             elif model == "regularized_lda":
-                a = float(self.shrinkage or 0.0)
+                a = float(setting or 0.0)
                 p = self.n_features
-                z = (Xa - self.centre) @ self.within_vectors
-                w = z - self.within_means[ca]
-                w2 = w * w
-                trace = self.within_trace - gamma * w2.sum(axis=1)
+                if shared is None:
+                    z = (Xa - self.centre) @ self.within_vectors
+                    w2 = (z - self.within_means[ca]) ** 2
+                    shared = (z, w2, self.within_trace - gamma * w2.sum(axis=1))
+                z, w2, trace = shared
                 diag = (1.0 - a) * self.within_values[None, :] + (a / p) * trace[:, None]
                 beta = (1.0 - a) * gamma
                 fail = ~_stays_above(diag, beta, w2, LSTSQ_RCOND * diag.max(axis=1))
@@ -633,11 +652,11 @@ def _check_moments(
     counts: npt.ArrayLike,
     means: npt.ArrayLike,
     scatter: npt.ArrayLike,
-    shrinkage: float | None,
+    shrinkage: Shrinkage,
     qda_reg_grid: Iterable[float],
     scale: npt.ArrayLike | None,
     tol: float,
-) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray | None, tuple[float, ...]]:
+) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray | None, tuple[float, ...], tuple[float, ...]]:
     c = np.asarray(counts)
     M = np.asarray(means, dtype=np.float64)
     S = np.asarray(scatter, dtype=np.float64)
@@ -654,8 +673,12 @@ def _check_moments(
         raise DataError(f"scatter must have shape (K, p, p) = ({K}, {p}, {p}); got {S.shape}.")
     if not (np.all(np.isfinite(M)) and np.all(np.isfinite(S))):
         raise DataError("means and scatter must be finite.")
-    if shrinkage is not None and not 0.0 <= shrinkage <= 1.0:
-        raise DataError(f"shrinkage must lie in [0, 1] (scikit-learn's range); got {shrinkage}.")
+    values = np.asarray(() if shrinkage is None else shrinkage, dtype=np.float64)
+    if values.ndim > 1:
+        raise DataError(f"shrinkage must be a number or a flat sequence of numbers; got shape {values.shape}.")
+    shrink_grid = tuple(float(a) for a in values.ravel())
+    if any(not 0.0 <= a <= 1.0 for a in shrink_grid) or len(set(shrink_grid)) != len(shrink_grid):
+        raise DataError(f"shrinkage must hold distinct values in [0, 1] (scikit-learn's range); got {shrinkage}.")
     grid = tuple(float(r) for r in qda_reg_grid)
     if any(not 0.0 <= r <= 1.0 for r in grid) or len(set(grid)) != len(grid):
         raise DataError(f"qda_reg_grid must hold distinct values in [0, 1] (scikit-learn's range); got {grid}.")
@@ -667,7 +690,12 @@ def _check_moments(
         if sc.shape != (p,) or not np.all(np.isfinite(sc)) or np.any(sc <= 0.0):
             raise DataError(f"scale must hold {p} finite positive values; got shape {sc.shape}.")
     S = (S + np.swapaxes(S, 1, 2)) / 2.0
-    return n, M, S, sc, grid
+    return n, M, S, sc, shrink_grid, grid
+
+
+def _is_grid(shrinkage: Shrinkage) -> bool:
+    """True for a sequence of shrinkage values (named per value), False for one number or None."""
+    return shrinkage is not None and np.ndim(shrinkage) > 0
 
 
 def _singleton_reason(singletons: list[int], n: FloatArray) -> str:
@@ -733,7 +761,7 @@ def leave_one_out(
     scatter: npt.ArrayLike,
     blocks: Blocks,
     *,
-    shrinkage: float | None = None,
+    shrinkage: Shrinkage = None,
     qda_reg_grid: Iterable[float] = DEFAULT_QDA_REG_GRID,
     scale: npt.ArrayLike | None = None,
     tol: float = SKLEARN_TOL,
@@ -750,8 +778,10 @@ def leave_one_out(
         Centred within-class sums of squares and cross-products, sum_i (x_i - m_k)(x_i - m_k)'.
     blocks : iterable of (X_block, codes_block), or a callable returning one
         Every row of the data exactly once: X_block (b, p) float64 and codes_block (b,) in 0..K-1.
-    shrinkage : float in [0, 1], optional
-        Intensity of the regularized LDA candidate; None leaves it out.
+    shrinkage : float in [0, 1], sequence of floats in [0, 1], or None
+        Intensity of the regularized LDA candidate, named ``"regularized_lda"``; or a grid of distinct
+        intensities, one candidate each, named ``"regularized_lda(shrinkage=a)"`` (``a`` formatted with
+        ``:g``), even for a sequence of one. None (or an empty sequence) leaves the candidate out.
     qda_reg_grid : iterable of float in [0, 1]
         QDA ``reg_param`` values to score.
     scale : array-like, shape (p,), optional
@@ -785,11 +815,12 @@ def leave_one_out(
       within-class test per row, lambda_min(D^-1/2 (W - gamma u u') D^-1/2) > tol^2 with D = diag(W)
       of all rows, is sufficient (the refit's own correlation matrix has eigenvalues at least as large),
       so a nearly singular W can be skipped although scikit-learn would keep full rank.
-    - ``regularized_lda``: ``LinearDiscriminantAnalysis(solver="lsqr", shrinkage=a)``. It shrinks each
-      class's covariance with divisor n_k toward mu_k I (mu_k = trace / p) and weights them by the
-      priors; shrinkage being linear, Sigma = (1 - a) W / N + a trace(W) / (N p) I. The identity term
-      changes with the row (trace(W) - gamma ||u||^2), so the downdate is a diagonal shift plus a rank
-      one term, solved in the eigenbasis of W by Sherman-Morrison.
+    - ``regularized_lda``, at each shrinkage value a: ``LinearDiscriminantAnalysis(solver="lsqr",
+      shrinkage=a)``. It shrinks each class's covariance with divisor n_k toward mu_k I (mu_k = trace / p)
+      and weights them by the priors; shrinkage being linear, Sigma = (1 - a) W / N + a trace(W) / (N p) I.
+      The identity term changes with the row (trace(W) - gamma ||u||^2), so the downdate is a diagonal
+      shift plus a rank one term, solved in the eigenbasis of W by Sherman-Morrison. That eigenbasis, and
+      each row's rotation into it, serve every value of a grid.
     - ``qda(reg_param=r)``: ``QuadraticDiscriminantAnalysis(reg_param=r)`` (svd solver). scikit-learn
       1.9 takes the class covariance with divisor n_k (earlier releases used n_k - 1), regularized as
       (1 - r) S_k / n_k + r I; scores ln pi_k - (Mahalanobis + ln det Sigma_k) / 2. A setting is skipped
@@ -807,8 +838,9 @@ def leave_one_out(
     N - 2 rows); no unbiased estimator of the variance of a cross-validation mean exists (Bengio &
     Grandvalet 2004), so they are a guide. Paired standard errors use the per-row differences.
 
-    Cost: one rotation of each row per eigenbasis, O(N (K + 2) p^2), plus O(K p^3) for the
-    factorizations; rows are processed in blocks of ROW_BLOCK, and no N x N object is formed.
+    Cost: one rotation of each row per eigenbasis, O(N (K + 2) p^2), plus O(N K p) per shrinkage value
+    and per reg_param, plus O(K p^3) for the factorizations; rows are processed in blocks of ROW_BLOCK,
+    and no N x N object is formed.
 
     References
     ----------
