@@ -29,7 +29,7 @@ from discaudit.dataset import AuditData, RowBlock
 from discaudit.findings import Finding, fmt, skipped
 from discaudit.stats.leave_one_out import LeaveOneOutResult, LeaveOneOutScorer, LeaveOneOutTally
 from discaudit.stats.logistic import cross_validated_logistic
-from discaudit.stats.seeds import LOGISTIC, stream_rng
+from discaudit.stats.seeds import LOGISTIC_CV, stream_rng
 
 if TYPE_CHECKING:
     from discaudit.config import Config
