@@ -25,7 +25,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import study  # noqa: E402
 
 ORDER = ("lda", "regularized_lda", "qda", "logistic_regression")
-Z_GRID = (0.0, 0.5, 1.0, 1.5, 2.0, 2.5, 3.0)
+Z_GRID = (0.0, 0.25, 0.5, 0.75, 1.0, 1.5, 2.0, 3.0)
 
 
 def replay(details: dict, z: float) -> str:
@@ -46,6 +46,7 @@ def replay(details: dict, z: float) -> str:
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser()
     ap.add_argument("--only", nargs="*")
+    ap.add_argument("--z", type=float, default=0.5, help="list the misses of this rule")
     args = ap.parse_args(argv)
     import discaudit
 
@@ -76,11 +77,12 @@ def main(argv: list[str] | None = None) -> int:
 
     for z in Z_GRID:
         line(f"z = {z:g}", [replay(d, z) for _, d, _ in rows])
+    line("log-loss", [min(d["candidates"], key=lambda m: d["candidates"][m]["log_loss"]) for _, d, _ in rows])
     line("audit", [m for _, _, m in rows])
     line("cv pick", [c.cv_pick for c, _, _ in rows])
-    misses = [(c, replay(d, 2.0)) for c, d, _ in rows if replay(d, 2.0) not in c.acceptable]
+    misses = [(c, replay(d, args.z)) for c, d, _ in rows if replay(d, args.z) not in c.acceptable]
     for c, p in sorted(misses, key=lambda t: -t[0].regret(t[1])):
-        print(f"  miss at z=2: {c.name} seed {c.seed}: chose {p}, acceptable {c.acceptable}, regret {c.regret(p):.1f}")
+        print(f"  miss at z: {c.name} seed {c.seed}: chose {p}, acceptable {c.acceptable}, regret {c.regret(p):.1f}")
     return 0
 
 

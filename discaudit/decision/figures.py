@@ -59,6 +59,8 @@ PAIRED = Figure("expected_performance", ("paired",))
 BEST = Figure("expected_performance", ("best",))
 MOST_EFFICIENT_WITHIN_NOISE = Figure("expected_performance", ("most_efficient_within_noise",))
 SWITCH_SE = Figure("expected_performance", ("switch_se",))
+BEATS_MAJORITY = Figure("expected_performance", ("beats_majority_rule",))
+MAJORITY_ACCURACY = Figure("expected_performance", ("majority_rule_accuracy",))
 
 #: Every figure the decision reads.
 FIGURES: tuple[Figure, ...] = (
@@ -77,4 +79,11 @@ FIGURES: tuple[Figure, ...] = (
     ANY_COMPLETE_SEPARATION,
     ANY_QUASI_COMPLETE_SEPARATION,
     DISCRETE_FEATURES,
+    CANDIDATE_FIGURES,
+    PAIRED,
+    BEST,
+    MOST_EFFICIENT_WITHIN_NOISE,
+    SWITCH_SE,
+    BEATS_MAJORITY,
+    MAJORITY_ACCURACY,
 )
