@@ -22,7 +22,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-import study  # noqa: E402
+import study
 
 ORDER = ("lda", "regularized_lda", "qda", "logistic_regression")
 Z_GRID = (0.0, 0.25, 0.5, 0.75, 1.0, 1.5, 2.0, 3.0)
