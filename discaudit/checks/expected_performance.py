@@ -239,14 +239,26 @@ def _judge(
     if not scored:
         return skipped(KEY, "No candidate could be scored: " + "; ".join(f"{c}: {r}" for c, r in not_scored.items()))
     z = config.performance_switch_se
-    best = max(scored, key=lambda c: (figures[c]["accuracy"], -CANDIDATES.index(c)))
     paired = {a: {b: _difference(scores, loo, a, b) for b in scored if b != a} for a in scored}
     for pairs in paired.values():
         for d in pairs.values():
             d["within_noise"] = bool(abs(d["accuracy_difference"]) <= z * d["accuracy_se"])
+    # Competitive: log-loss not worse than the lowest by more than Config.log_loss_guard_se paired
+    # SE. A candidate whose accuracy is high by chance while its predictive probabilities have
+    # collapsed (p close to N - K) is not a contender, whatever its accuracy.
+    lowest = min(scored, key=lambda c: (figures[c]["log_loss"], CANDIDATES.index(c)))
+    g = config.log_loss_guard_se
+    competitive = [
+        c
+        for c in scored
+        if c == lowest or paired[c][lowest]["log_loss_difference"] <= g * paired[c][lowest]["log_loss_se"]
+    ]
+    best = max(competitive, key=lambda c: (figures[c]["accuracy"], -CANDIDATES.index(c)))
     versus_best = {c: paired[best][c] for c in scored if c != best}
     within = [
-        c for c in scored if c == best or versus_best[c]["accuracy_difference"] <= z * versus_best[c]["accuracy_se"]
+        c
+        for c in competitive
+        if c == best or versus_best[c]["accuracy_difference"] <= z * versus_best[c]["accuracy_se"]
     ]
     counts = data.moments.counts
     majority = float(counts.max() / counts.sum())
@@ -263,13 +275,16 @@ def _judge(
         "best": best,
         "within_noise_of_best": within,
         "most_efficient_within_noise": efficient,
+        "lowest_log_loss": lowest,
+        "competitive_by_log_loss": competitive,
         "majority_rule_accuracy": majority,
         "beats_majority_rule": beats_majority,
         "paired": paired,
         "switch_se": z,
-        "switch_rule": f"a candidate is within noise of the best when its accuracy is lower by at most {z:g} paired "
-        "standard errors (Config.performance_switch_se); candidates are ordered from the most to the least "
-        "efficient: " + ", ".join(CANDIDATES),
+        "switch_rule": f"candidates whose log-loss exceeds the lowest by more than {g:g} paired standard errors "
+        "(Config.log_loss_guard_se) are not contenders; among the others, one is within noise of the best when its "
+        f"accuracy is lower by at most {z:g} paired standard errors (Config.performance_switch_se); the most "
+        "efficient candidate within noise is kept, in the order " + ", ".join(CANDIDATES),
         "rows_scored": {"leave_one_out": loo.n_used, "logistic_subsample": scores.n_common},
         "sample_note": None if data.sample is None or data.all_rows is not None else "scored on the per-class sample",
     }

@@ -18,7 +18,9 @@ from discaudit.decision.figures import (
     BEATS_MAJORITY,
     BEST,
     CANDIDATE_FIGURES,
+    COMPETITIVE,
     DELTA_BIC,
+    LOWEST_LOG_LOSS,
     MAJORITY_ACCURACY,
     MOST_EFFICIENT_WITHIN_NOISE,
     PAIRED,
@@ -119,6 +121,17 @@ def choose(findings: Findings) -> Choice:
             f"less than the {fmt(SWITCH_SE.read(findings))} SE needed to switch; {NAMES[model]} "
             f"is preferred because {_EFFICIENCY[model]}."
         )
+    competitive = COMPETITIVE.read(findings) or list(candidates)
+    lowest = LOWEST_LOG_LOSS.read(findings)
+    for c in ORDER:
+        if c in candidates and c not in competitive and candidates[c]["accuracy"] >= candidates[model]["accuracy"]:
+            d = versus(c, lowest)
+            reasons.append(
+                f"{_cap(NAMES[c])} predicts as many rows right, but its log-loss is worse than {NAMES[lowest]}'s by "
+                f"{fmt(d['log_loss_difference'], 2)} (paired SE {fmt(d['log_loss_se'], 2)}): its predicted "
+                "probabilities are overconfident, a sign of a covariance estimated from too few rows, so it is not "
+                "a contender."
+            )
     for check, (argued, words, statuses) in _ARGUES_FOR.items():
         if status(findings, check) not in statuses:
             continue

@@ -59,6 +59,8 @@ PAIRED = Figure("expected_performance", ("paired",))
 BEST = Figure("expected_performance", ("best",))
 MOST_EFFICIENT_WITHIN_NOISE = Figure("expected_performance", ("most_efficient_within_noise",))
 SWITCH_SE = Figure("expected_performance", ("switch_se",))
+COMPETITIVE = Figure("expected_performance", ("competitive_by_log_loss",))
+LOWEST_LOG_LOSS = Figure("expected_performance", ("lowest_log_loss",))
 BEATS_MAJORITY = Figure("expected_performance", ("beats_majority_rule",))
 MAJORITY_ACCURACY = Figure("expected_performance", ("majority_rule_accuracy",))
 
@@ -86,4 +88,6 @@ FIGURES: tuple[Figure, ...] = (
     SWITCH_SE,
     BEATS_MAJORITY,
     MAJORITY_ACCURACY,
+    COMPETITIVE,
+    LOWEST_LOG_LOSS,
 )
