@@ -281,6 +281,7 @@ def _judge(
         "beats_majority_rule": beats_majority,
         "paired": paired,
         "switch_se": z,
+        "log_loss_guard_se": g,
         "switch_rule": f"candidates whose log-loss exceeds the lowest by more than {g:g} paired standard errors "
         "(Config.log_loss_guard_se) are not contenders; among the others, one is within noise of the best when its "
         f"accuracy is lower by at most {z:g} paired standard errors (Config.performance_switch_se); the most "
