@@ -8,11 +8,12 @@ data came from.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import time
 import warnings
 from typing import Any
 
-from discaudit import checks
+from discaudit import checks, remedy_effects
 from discaudit._threads import one_blas_thread
 from discaudit.config import Config
 from discaudit.dataset import AuditData
@@ -21,6 +22,7 @@ from discaudit.decision.gate import gate_status
 from discaudit.findings import Finding, skipped
 from discaudit.jsonable import label
 from discaudit.sources import open_source
+from discaudit.sources.what_if import Change, apply
 from discaudit.verdict import Verdict
 
 
@@ -96,9 +98,34 @@ def audit(data: AuditData, config: Config, random_state: int | None) -> Verdict:
 def _assemble(
     findings: dict[str, Finding], data: AuditData, config: Config, random_state: int | None, timings: dict[str, float]
 ) -> Verdict:
-    """Findings -> recommendation, gate status and metadata: the one place a verdict is built."""
+    """Findings -> recommendation, gate status, remedies and metadata: the one place a verdict is built."""
     meta = _meta(data, config, random_state)
-    return Verdict(findings, recommend(findings, config), gate_status(findings, config), meta, timings)
+    recommendation = recommend(findings, config)
+    start = time.perf_counter()
+    with one_blas_thread():
+        remedies = remedy_effects.evaluate(findings, recommendation.model, data, config, random_state, _run_check)
+    timings["remedies"] = time.perf_counter() - start
+    return Verdict(
+        findings,
+        recommendation,
+        gate_status(findings, config),
+        meta,
+        timings,
+        remedies=remedies,
+        data=data,
+        rerun=functools.partial(what_if, data, config, random_state),
+    )
+
+
+def what_if(data: AuditData, config: Config, random_state: int | None, **changes: Any) -> Verdict:
+    """The verdict of ``data`` changed as ``changes`` says (``Verdict.what_if``'s keywords), audited afresh.
+
+    The what-if source (:mod:`discaudit.sources.what_if`) updates the moments exactly and changes the
+    rows held and the row pass with them; every check then runs on the result as on any input.
+    """
+    return audit(
+        apply(data, Change.of(**changes), few_distinct_values=config.few_distinct_values), config, random_state
+    )
 
 
 def _run_check(
@@ -138,6 +165,7 @@ def _meta(data: AuditData, config: Config, random_state: int | None) -> dict[str
         "severity": {k: config.severity_of(k) for k in checks.CHECK_KEYS},
         "config": config.to_dict(),
         "fingerprint": _fingerprint(data),
+        **({"what_if": list(data.changes)} if data.changes else {}),
     }
 
 

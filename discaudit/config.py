@@ -199,6 +199,32 @@ class Config:
         "Folds of the stratified cross-validation of logistic regression (fewer when a class has fewer rows).",
         "Kohavi (1995, IJCAI): 10-fold cross-validation is a good compromise of bias and variance",
     )
+    remedy_candidates: int = _threshold(
+        6,
+        "Proposed remedies whose effect is evaluated on the changed data (the most pressing first).",
+        "design choice (one proposal per kind of remedy fits; each costs the moment-based checks once)",
+    )
+    remedy_gross_outlier_ratio: float = _threshold(
+        2.0,
+        "A flagged row is a gross outlier, proposed for removal, when its squared robust distance is at least this "
+        "many times its class's cut-off (and only when the outliers check judged the flagged rows influential).",
+        "design choice (twice the chi-square(p) 0.975 quantile has a Gaussian tail probability of 1.5e-3 at p = 1, "
+        "6e-4 at p = 2 and 1e-5 at p = 10)",
+    )
+    remedy_performance: bool = _threshold(
+        False,
+        "Recompute the predicted performance (the expected_performance check) on the data changed by each evaluated "
+        "remedy, to report the accuracy of the recommended model and whether the recommendation changes.",
+        "design choice: off by default because each recomputation costs about as much as the audit's own "
+        "expected_performance check, most of an audit below 10,000 rows (bounded by remedy_rows_per_class above); "
+        "Verdict.what_if and --what-if always recompute it",
+    )
+    remedy_rows_per_class: int = _threshold(
+        2000,
+        "Rows per class the checks that read rows see when a remedy is evaluated (a seeded sample of larger "
+        "classes; moments stay exact over every row).",
+        "design choice (bounds the cost of ranking at any n; exact when no class is larger)",
+    )
     severity: dict[str, str] = field(
         default_factory=dict,
         metadata={

@@ -119,6 +119,9 @@ class AuditData:
     all_rows : RowPass or None
         Every row of the input in blocks; None when the input cannot be read again (a
         one-shot iterable of chunks).
+    changes : tuple of dict
+        What-if changes applied to the source's data (:mod:`discaudit.sources.what_if`), in the
+        order applied, as plain values; empty for data as the source read them.
     """
 
     values: FloatArray
@@ -131,6 +134,7 @@ class AuditData:
     distinct_counts: dict[str, int] = field(default_factory=dict)
     sample: SampleInfo | None = None
     all_rows: RowPass | None = field(default=None, repr=False, compare=False)
+    changes: tuple[dict[str, Any], ...] = ()
 
     @property
     def n(self) -> int:

@@ -54,6 +54,18 @@ ANY_COMPLETE_SEPARATION = Figure("separation", ("any_complete",))
 ANY_QUASI_COMPLETE_SEPARATION = Figure("separation", ("any_quasi_complete",))
 DISCRETE_FEATURES = Figure("normality", ("discrete_features",))
 
+# Read by the remedies (decision/remedies.py).
+N_TOTAL = Figure("sample_size", ("n_total",))
+SD_RATIO = Figure("scale_disparity", ("sd_ratio",))
+REMOVAL_PLAN = Figure("collinearity", ("removal_plan",))
+OUTLIER_PER_CLASS = Figure("outliers", ("per_class",))
+OUTLIER_N_FLAGGED = Figure("outliers", ("n_flagged",))
+OUTLIER_MAX_SHIFT = Figure("outliers", ("max_mean_shift",))
+OUTLIER_LOGDET_EXCESS = Figure("outliers", ("pooled_logdet_excess_per_feature",))
+NORMALITY_PER_CLASS = Figure("normality", ("per_class",))
+PAIRWISE = Figure("discriminant_signal", ("pairwise",))
+WILKS_LAMBDA = Figure("discriminant_signal", ("wilks_lambda",))
+
 CANDIDATE_FIGURES = Figure("expected_performance", ("candidates",))
 PAIRED = Figure("expected_performance", ("paired",))
 BEST = Figure("expected_performance", ("best",))
@@ -90,4 +102,14 @@ FIGURES: tuple[Figure, ...] = (
     MAJORITY_ACCURACY,
     COMPETITIVE,
     LOWEST_LOG_LOSS,
+    N_TOTAL,
+    SD_RATIO,
+    REMOVAL_PLAN,
+    OUTLIER_PER_CLASS,
+    OUTLIER_N_FLAGGED,
+    OUTLIER_MAX_SHIFT,
+    OUTLIER_LOGDET_EXCESS,
+    NORMALITY_PER_CLASS,
+    PAIRWISE,
+    WILKS_LAMBDA,
 )
