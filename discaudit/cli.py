@@ -72,6 +72,7 @@ examples:
   discaudit check data.parquet --target label --format json --output audit.json
   discaudit check data.csv.gz --target label --exclude batch,operator --fail-on warn
   discaudit check data.csv --target label --format junit --output discaudit.xml --config ci/discaudit.toml
+  discaudit check flakes.csv --target family --index-col flake_id --what-if "drop=nir_1340,nir_1400;standardize"
 
 exit status:
   0  the gate passed: the verdict's status is below --fail-on (advisory checks never count)
@@ -150,6 +151,13 @@ def build_parser() -> argparse.ArgumentParser:
         help="read the file in batches with bounded memory (automatic for files larger than a quarter of RAM)",
     )
     check.add_argument("--batch-rows", type=int, default=200_000, metavar="N", help="rows per batch when streaming")
+    check.add_argument(
+        "--what-if",
+        metavar="SPEC",
+        help="also audit the data changed as SPEC says and print both verdicts side by side (text, json or "
+        "markdown; the exit status is the original audit's): 'drop=a,b;drop_rows=12,40;merge=x+y;standardize;"
+        "transform=a,b'",
+    )
     check.set_defaults(run=run_check)
     return parser
 
@@ -182,8 +190,12 @@ def run_check(args: argparse.Namespace) -> int:
             verdict = _stream_audit(args, config)  # reads while it audits: parse errors count as reading
         else:
             verdict = _in_memory_audit(args, config)
+        if getattr(args, "what_if", None):
+            stage, where = "auditing the what-if", "--what-if"
+            report = _what_if_report(verdict, args.what_if, args.format)
+        else:
+            report = FORMATS[args.format](verdict, fail_on)
         stage, where = "writing the report", args.output or "<stdout>"
-        report = FORMATS[args.format](verdict, fail_on)
         failed = fails_gate(verdict.status, fail_on)
         if args.output:
             Path(args.output).write_text(report, encoding="utf-8")
@@ -253,6 +265,20 @@ def _stream_audit(args: argparse.Namespace, config: Config) -> Verdict:
             bar.update(done[0])
 
         return preflight_chunks(source, args.target, config=config, random_state=args.seed, progress=advance)
+
+
+def _what_if_report(verdict: Verdict, spec: str, fmt: str) -> str:
+    """The audit and its what-if side by side (see :mod:`discaudit.report.what_if`)."""
+    from discaudit.report.what_if import RENDERERS
+    from discaudit.sources.what_if import Change
+
+    if fmt not in RENDERERS:
+        raise DataError(f"--what-if prints {', '.join(RENDERERS)}; got --format {fmt}.")
+    change = Change.parse(spec)
+    if change.is_empty():
+        raise DataError(f"--what-if {spec!r} changes nothing; e.g. --what-if 'drop=a,b'.")
+    after = verdict.what_if(**change.to_kwargs())
+    return RENDERERS[fmt](verdict, after, change.to_spec())
 
 
 def _larger_than_memory_share(path: Path, share: float = 0.25) -> bool:

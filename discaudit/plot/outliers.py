@@ -18,6 +18,7 @@ from scipy import stats as sps
 
 from discaudit.findings import fmt
 from discaudit.plot import _common as c
+from discaudit.plot._remedies import dropped_rows
 
 KEY = "outliers"
 #: At most this many flagged rows per class are labelled, farthest first (per-class panels).
@@ -80,6 +81,19 @@ def _draw_class(ax: Axes, verdict: Any, k: int, name: str, rows: np.ndarray, cap
         gid=f"flagged:{k}",
     )
     ax.axhline(cut, color=colour, linestyle="--", linewidth=1.0, gid=f"cutoff:{k}")
+    _, drop = dropped_rows(verdict)
+    removed = ok & np.isin(np.array([str(v) for v in labels], dtype=object), list(drop)) if drop else None
+    if removed is not None and removed.any():  # what the remedy would remove
+        ax.scatter(
+            x[removed],
+            y[removed],
+            s=80,
+            marker="o",
+            facecolors="none",
+            edgecolors="black",
+            linewidths=1.2,
+            gid=f"remedy-rows:{k}",
+        )
     chosen = np.flatnonzero(ok & flagged)
     chosen = chosen[np.argsort(-y[chosen], kind="stable")][:cap]
     return [(float(x[i]), float(y[i]), c.short(labels[i], 16), f"flag-label:{k}") for i in chosen]
@@ -190,6 +204,20 @@ def draw(verdict: Any, ax: Axes) -> None:
         Line2D([], [], color=c.GREY, linestyle="--", label="cut-off (per class)"),
         Line2D([], [], marker="o", color="black", linestyle="none", label="flagged (filled, labelled)"),
     ]
+    rank, drop = dropped_rows(verdict)
+    if drop:
+        handles.append(
+            Line2D(
+                [],
+                [],
+                marker="o",
+                markerfacecolor="none",
+                markeredgecolor="black",
+                linestyle="none",
+                markersize=9,
+                label=f"removed by remedy {rank}",
+            )
+        )
     ax.legend(handles=handles, fontsize=7, loc="lower right")
     c.status_title(ax, "Outliers: robust vs classical distance", verdict, KEY)
 

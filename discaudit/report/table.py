@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
-from discaudit.report.labels import CAUTION
+from discaudit.report.labels import CAUTION, MODEL_NAMES
 
 if TYPE_CHECKING:
     from discaudit.verdict import Verdict
@@ -18,6 +18,23 @@ class TableRow:
     figure: str
     summary: str
     severity: str
+
+
+@dataclass(frozen=True)
+class RemedyRow:
+    """One remedy of the "What would help" section, in words."""
+
+    rank: int
+    description: str
+    addresses: str
+    changes: list[str]
+    clears_addressed: bool
+    accuracy: str | None
+    recommendation: str | None
+    spec: str
+    needs_row_pass: bool
+    rows: str
+    helps: bool = True
 
 
 @dataclass(frozen=True)
@@ -34,6 +51,7 @@ class VerdictTable:
     notes: list[str]
     close_to: list[str]
     param_notes: dict[str, str]
+    remedies: list[RemedyRow] = field(default_factory=list)
 
 
 def build(verdict: Verdict) -> VerdictTable:
@@ -62,4 +80,37 @@ def build(verdict: Verdict) -> VerdictTable:
         notes,
         list(rec.close_to),
         dict(rec.param_notes),
+        [_remedy_row(r) for r in getattr(verdict, "remedies", ())],
+    )
+
+
+def _remedy_row(remedy: Any) -> RemedyRow:
+    """The words of one remedy: what to do, what it addresses, the statuses it is predicted to change."""
+    effect = remedy.effect
+    changes = [f"{k} {a.upper()} -> {b.upper()}" for k, (a, b) in effect.changed.items()]
+    accuracy = None
+    if effect.accuracy is not None:
+        acc = effect.accuracy
+        accuracy = (
+            f"predicted accuracy of {MODEL_NAMES.get(acc['model'], acc['model'])} "
+            f"{100 * acc['before']:.1f}% -> {100 * acc['after']:.1f}%"
+        )
+    recommendation = None
+    if effect.recommendation is not None:
+        a, b = effect.recommendation
+        recommendation = (
+            "recommendation unchanged" if a == b else f"recommendation would change to {MODEL_NAMES.get(b, b)}"
+        )
+    return RemedyRow(
+        rank=remedy.rank,
+        description=remedy.description,
+        addresses=remedy.addresses,
+        changes=changes,
+        clears_addressed=remedy.clears_addressed,
+        accuracy=accuracy,
+        recommendation=recommendation,
+        spec=remedy.spec,
+        needs_row_pass=remedy.needs_row_pass,
+        rows=effect.rows,
+        helps=remedy.helps,
     )
