@@ -52,10 +52,12 @@ package: $(STAMP)
 validate: $(STAMP)
 	$(PY) benchmarks/validation/study.py
 
-# Speed and memory of the audit against its peers (benchmarks/README.md); writes benchmarks/RESULTS.md.
+# Speed and memory of the audit against its peers (benchmarks/README.md); writes benchmarks/RESULTS.md;
+# then the cost of a what-if and of ranking the remedies (printed).
 # Not part of `make test`. The MCD-only benchmark is `$(PY) benchmarks/bench_mcd.py`.
 bench: $(STAMP)
 	$(PY) benchmarks/bench_preflight.py
+	$(PY) benchmarks/bench_what_if.py
 
 clean:
 	rm -rf $(VENV) build dist *.egg-info .pytest_cache

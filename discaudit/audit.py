@@ -102,8 +102,12 @@ def _assemble(
     meta = _meta(data, config, random_state)
     recommendation = recommend(findings, config)
     start = time.perf_counter()
-    with one_blas_thread():
-        remedies = remedy_effects.evaluate(findings, recommendation.model, data, config, random_state, _run_check)
+    try:
+        with one_blas_thread():
+            remedies = remedy_effects.evaluate(findings, recommendation.model, data, config, random_state, _run_check)
+    except Exception as exc:  # remedies are advice: a failure to find them never costs the verdict
+        remedies = ()
+        meta["remedies_error"] = f"{type(exc).__name__}: {exc}"
     timings["remedies"] = time.perf_counter() - start
     return Verdict(
         findings,

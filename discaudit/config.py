@@ -13,13 +13,22 @@ from typing import Any
 from discaudit.checks import CHECK_KEYS
 from discaudit.errors import DataError
 
-__all__ = ["CHECK_KEYS", "MISSING_POLICIES", "NON_NUMERIC_POLICIES", "OUTLIER_CUTOFFS", "SEVERITIES", "Config"]
+__all__ = [
+    "CHECK_KEYS",
+    "MISSING_POLICIES",
+    "NON_NUMERIC_POLICIES",
+    "OUTLIER_CUTOFFS",
+    "REMEDY_EFFECTS",
+    "SEVERITIES",
+    "Config",
+]
 
 
 MISSING_POLICIES = ("error", "drop_rows")
 NON_NUMERIC_POLICIES = ("error", "drop")
 SEVERITIES = ("gate", "advisory", "off")
 OUTLIER_CUTOFFS = ("small_sample_f", "chi2", "hardin_rocke")
+REMEDY_EFFECTS = ("statuses", "performance")
 
 
 def _threshold(default: Any, doc: str, source: str) -> Any:
@@ -207,23 +216,27 @@ class Config:
     remedy_gross_outlier_ratio: float = _threshold(
         2.0,
         "A flagged row is a gross outlier, proposed for removal, when its squared robust distance is at least this "
-        "many times its class's cut-off (and only when the outliers check judged the flagged rows influential).",
+        "many times its class's cut-off (only when the outliers check judged the flagged rows influential, and "
+        "only in classes where such rows are at most outlier_fraction_warn of the class).",
         "design choice (twice the chi-square(p) 0.975 quantile has a Gaussian tail probability of 1.5e-3 at p = 1, "
         "6e-4 at p = 2 and 1e-5 at p = 10)",
     )
-    remedy_performance: bool = _threshold(
-        False,
-        "Recompute the predicted performance (the expected_performance check) on the data changed by each evaluated "
-        "remedy, to report the accuracy of the recommended model and whether the recommendation changes.",
-        "design choice: off by default because each recomputation costs about as much as the audit's own "
-        "expected_performance check, most of an audit below 10,000 rows (bounded by remedy_rows_per_class above); "
-        "Verdict.what_if and --what-if always recompute it",
+    remedy_effects: str = _threshold(
+        "statuses",
+        "What a remedy's predicted effect holds: 'statuses' (the statuses of the checks the change can move) or "
+        "'performance' (also the expected_performance check recomputed on the changed data: the accuracy of the "
+        "recommended model and whether the recommendation changes).",
+        "design choice: 'statuses' by default because each recomputation costs about as much as the audit's own "
+        "expected_performance check, most of an audit below 10,000 rows; Verdict.what_if and --what-if always "
+        "recompute it",
     )
     remedy_rows_per_class: int = _threshold(
-        2000,
+        500,
         "Rows per class the checks that read rows see when a remedy is evaluated (a seeded sample of larger "
-        "classes; moments stay exact over every row).",
-        "design choice (bounds the cost of ranking at any n; exact when no class is larger)",
+        "classes; moments stay exact over every row, and the outlier check still scores every row).",
+        "design choice: keeps ranking the remedies within a fifth of the audit's time at every size measured "
+        "(benchmarks/bench_what_if.py); the row-reading statuses it predicts are exact when no class is larger, "
+        "estimates otherwise (Verdict.what_if gives the exact ones)",
     )
     severity: dict[str, str] = field(
         default_factory=dict,
@@ -238,6 +251,8 @@ class Config:
             raise DataError(f"Config.missing must be one of {MISSING_POLICIES}; got {self.missing!r}.")
         if self.outlier_cutoff not in OUTLIER_CUTOFFS:
             raise DataError(f"Config.outlier_cutoff must be one of {OUTLIER_CUTOFFS}; got {self.outlier_cutoff!r}.")
+        if self.remedy_effects not in REMEDY_EFFECTS:
+            raise DataError(f"Config.remedy_effects must be one of {REMEDY_EFFECTS}; got {self.remedy_effects!r}.")
         if self.non_numeric not in NON_NUMERIC_POLICIES:
             raise DataError(f"Config.non_numeric must be one of {NON_NUMERIC_POLICIES}; got {self.non_numeric!r}.")
         for f in dataclasses.fields(self):

@@ -12,7 +12,7 @@ same checks:
   seeded sample of them (moments stay exact);
 * a power transform only when normality still fails once the gross outliers are removed (when that
   remedy is proposed too), since the skew of a few contaminated rows is not a shape to transform;
-* with ``Config.remedy_performance``, the ``expected_performance`` check on the changed data (on the
+* with ``Config.remedy_effects = "performance"``, the ``expected_performance`` check on the changed data (on the
   same per-class sample, with its own moments, when classes are larger; the audit's figures are then
   recomputed on the same sample of the unchanged data, so before and after see the same rows), so the
   effect says how the predicted accuracy of the recommended model moves and whether the
@@ -27,6 +27,8 @@ from __future__ import annotations
 from collections.abc import Callable, Mapping
 from dataclasses import replace
 from typing import TYPE_CHECKING
+
+import numpy as np
 
 from discaudit import checks
 from discaudit.dataset import AuditData
@@ -77,7 +79,9 @@ def evaluate(
     )
     before = dict(findings)
     before_model = recommended
-    performance = config.remedy_performance and PERFORMANCE in registry and config.severity_of(PERFORMANCE) != "off"
+    performance = (
+        config.remedy_effects == "performance" and PERFORMANCE in registry and config.severity_of(PERFORMANCE) != "off"
+    )
     if performance and capped:
         before[PERFORMANCE] = run_check(
             PERFORMANCE, registry[PERFORMANCE], subsample(data, cap, random_state), config, random_state
@@ -99,7 +103,7 @@ def evaluate(
                 rows_per_class=cap,
                 random_state=random_state,
             )
-        except DataError:
+        except (DataError, ValueError, ArithmeticError, np.linalg.LinAlgError):
             continue  # a change the data do not allow (e.g. it would empty a class) is not a remedy
         keys = [
             k for k in registry if (k in MOMENT_CHECKS or k in proposal.row_checks) and config.severity_of(k) != "off"

@@ -182,7 +182,10 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         }
     )
     if vanishing or float(np.max(vifs)) > config.vif_warn or ci.condition_number > config.condition_index_warn:
-        details["removal_plan"] = _removal_plan(S_used, used, dependencies, vanishing, vifs, config)
+        try:
+            details["removal_plan"] = _removal_plan(S_used, used, dependencies, vanishing, vifs, config)
+        except (np.linalg.LinAlgError, ValueError) as exc:  # the plan is advice: its failure is not the check's
+            details["removal_plan_error"] = f"{type(exc).__name__}: {exc}"
     if vanishing:
         details["rank_deficient_reason"] = "pooled within-class covariance is singular: VIF is infinite"
         return Finding(

@@ -29,7 +29,7 @@ def _pairwise(data: AuditData, alpha: float) -> dict[str, Any]:
     """
     try:
         h = pairwise_hotelling(data.moments)
-    except DataError as exc:
+    except (DataError, np.linalg.LinAlgError, ValueError) as exc:
         return {"skipped": str(exc)}
     order = np.argsort(-h.p_adjusted, kind="stable")
     pairs = [

@@ -18,9 +18,11 @@ Three steps, each reading finished findings only:
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
+
+import numpy as np
 
 from discaudit.decision.figures import (
     CANDIDATE_FIGURES,
@@ -42,8 +44,8 @@ from discaudit.decision.figures import (
     Findings,
     status,
 )
-from discaudit.findings import STATUS_RANK, fmt, names
-from discaudit.jsonable import plain
+from discaudit.findings import STATUS_RANK, Finding, fmt, names
+from discaudit.jsonable import label, plain
 
 if TYPE_CHECKING:
     from discaudit.config import Config
@@ -194,6 +196,11 @@ class Remedy:
         """Whether the status of the finding it addresses improves."""
         return self.addresses in self.effect.clears
 
+    @property
+    def helps(self) -> bool:
+        """Whether it is predicted to help: it clears what it addresses, or improves a status and worsens none."""
+        return self.clears_addressed or (bool(self.effect.clears) and not self.effect.worsens)
+
     def to_dict(self) -> dict[str, Any]:
         out: dict[str, Any] = plain(
             {
@@ -205,6 +212,7 @@ class Remedy:
                 "description": self.description,
                 "reason": self.reason,
                 "needs_row_pass": self.needs_row_pass,
+                "helps": self.helps,
                 "effect": self.effect.to_dict(),
             }
         )
@@ -287,29 +295,58 @@ def _standardize(findings: Findings, config: Config) -> Proposal | None:
     )
 
 
-def _gross_rows(per_class: Mapping[str, Any], ratio: float) -> list[tuple[Any, str, float]]:
-    """(row, class, distance / cut-off) of flagged rows at least ``ratio`` times beyond their class's cut-off."""
-    out = []
-    for cls, info in per_class.items():
+def _flagged_rows(finding: Finding) -> dict[str, list[tuple[Any, float]]]:
+    """Class -> (row, squared distance / cut-off) of every flagged row.
+
+    From the finding's per-row arrays when it carries them (every flagged row), else from the rows its
+    details list (the farthest of each class).
+    """
+    a = finding.arrays or {}
+    d = a.get("distance", a.get("squared_distance"))
+    if d is not None and "flagged" in a and "row_label" in a and "cutoff" in a and "class" in a:
+        flagged = np.flatnonzero(np.asarray(a["flagged"], dtype=bool))
+        out: dict[str, list[tuple[Any, float]]] = {}
+        ratio = np.asarray(d, dtype=float)[flagged] / np.asarray(a["cutoff"], dtype=float)[flagged]
+        for i, r in zip(flagged, ratio, strict=True):
+            out.setdefault(str(label(a["class"][i])), []).append((label(a["row_label"][i]), float(r)))
+        return out
+    out = {}
+    for cls, info in (finding.details.get("per_class") or {}).items():
         cutoff = info.get("cutoff")
-        if not cutoff:
-            continue
-        for r in info.get("flagged_rows") or []:
-            d = r.get("distance", r.get("squared_distance"))
-            if d is not None and d / cutoff >= ratio:
-                out.append((r["row"], cls, float(d / cutoff)))
+        for r in info.get("flagged_rows") or [] if cutoff else []:
+            dist = r.get("distance", r.get("squared_distance"))
+            if dist is not None:
+                out.setdefault(str(cls), []).append((r["row"], float(dist / cutoff)))
+    return out
+
+
+def _gross_rows(findings: Findings, ratio: float, share: float) -> list[tuple[Any, str, float]]:
+    """(row, class, distance / cut-off) of flagged rows at least ``ratio`` times beyond their class's cut-off.
+
+    Only classes where such rows are at most ``share`` of the class: contamination is a few rows, while
+    a larger share far out is the shape of the class (a heavy tail or skew), which removing rows does not
+    answer.
+    """
+    per_class = OUTLIER_PER_CLASS.read(findings) or {}
+    out = []
+    for cls, rows in _flagged_rows(findings["outliers"]).items():
+        gross = [(row, cls, r) for row, r in rows if r >= ratio]
+        if len(gross) <= share * float((per_class.get(cls) or {}).get("n") or 0):
+            out += gross
     return sorted(out, key=lambda t: -t[2])
 
 
 def _drop_outliers(findings: Findings, config: Config) -> Proposal | None:
-    """Remove gross outliers, only when the outliers check judged the flagged rows influential."""
+    """Remove gross outliers, only when the outliers check judged the flagged rows influential (a class
+    mean shift or a pooled log-det excess beyond its warn threshold), and only in classes where they are
+    at most ``outlier_fraction_warn`` of the rows."""
     state = status(findings, "outliers")
     shift = OUTLIER_MAX_SHIFT.read(findings) or 0.0
     excess = OUTLIER_LOGDET_EXCESS.read(findings)
     influential = shift > config.outlier_mean_shift_warn or (excess is not None and excess > config.outlier_logdet_warn)
     if state not in ("warn", "fail") or not influential:
         return None
-    gross = _gross_rows(OUTLIER_PER_CLASS.read(findings) or {}, config.remedy_gross_outlier_ratio)
+    gross = _gross_rows(findings, config.remedy_gross_outlier_ratio, config.outlier_fraction_warn)
     if not gross:
         return None
     rows = [r for r, _, _ in gross]

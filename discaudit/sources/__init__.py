@@ -10,6 +10,7 @@ module                 input
 ``chunks``             an iterable of DataFrames, or a function returning a fresh one
 ``dask``               a Dask DataFrame (summarized on the workers)
 ``files``              CSV and Parquet files: whole, or in batches for ``chunks``
+``what_if``            audited data with changes applied (``Verdict.what_if``), moments updated
 =====================  =================================================================
 
 To add a source: a module here that returns ``AuditData`` (reuse ``screening`` and, for data that
