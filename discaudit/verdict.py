@@ -142,7 +142,7 @@ class Verdict:
         Returns
         -------
         Verdict
-            With ``meta["what_if"]`` recording what was changed (exponents, centres and scales).
+            With ``meta["what_if"]`` listing what was changed (exponents, centres and scales).
 
         Raises
         ------
