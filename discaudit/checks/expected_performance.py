@@ -29,8 +29,11 @@ import numpy as np
 from discaudit.dataset import AuditData, RowBlock
 from discaudit.findings import Finding, fmt, skipped
 from discaudit.jsonable import label
+from discaudit.stats._sampling import resolve_seed
 from discaudit.stats.leave_one_out import LeaveOneOutResult, LeaveOneOutRows, LeaveOneOutScorer, LeaveOneOutTally
 from discaudit.stats.logistic import LogisticEstimate, cross_validated_logistic
+from discaudit.stats.row_keys import keep_share
+from discaudit.stats.seeds import PERFORMANCE_ROWS
 
 if TYPE_CHECKING:
     from discaudit.config import Config
@@ -76,8 +79,10 @@ class _Scores:
     n_common: int
 
 
-def _tally(scorer: LeaveOneOutScorer, block: RowBlock) -> LeaveOneOutTally:
-    return scorer.tally([(block.values, block.codes)])
+def _tally(scorer: LeaveOneOutScorer, share: float, seed: int, block: RowBlock) -> LeaveOneOutTally:
+    """Leave-one-out sums of the block's rows, or of its rows whose key falls in the sampled share."""
+    keep = keep_share(block.values, share, seed, PERFORMANCE_ROWS)
+    return scorer.tally([(block.values[keep], block.codes[keep])])
 
 
 def _total_scale(data: AuditData) -> np.ndarray:
@@ -88,15 +93,27 @@ def _total_scale(data: AuditData) -> np.ndarray:
     return np.where(sd > 0.0, sd, 1.0)
 
 
-def _gaussian(data: AuditData, scale: np.ndarray) -> tuple[LeaveOneOutScorer, LeaveOneOutResult]:
+def _gaussian(
+    data: AuditData, scale: np.ndarray, config: Config, random_state: int | None
+) -> tuple[LeaveOneOutScorer, LeaveOneOutResult]:
+    """Exact leave-one-out of the Gaussian candidates over every row, or over a seeded Bernoulli sample
+    of about ``Config.performance_max_rows`` rows (chosen by row keys, so the same rows whatever their
+    order or chunking); each scored row's refit still uses all the other rows."""
     m = data.moments
     scorer = LeaveOneOutScorer.from_moments(
         m.counts, m.means, m.scatter, shrinkage=SHRINKAGE_GRID, qda_reg_grid=QDA_REG_GRID, scale=scale
     )
+    share = min(1.0, config.performance_max_rows / m.n_total)
+    seed = resolve_seed(random_state)
     if data.all_rows is not None:
-        tally = data.all_rows.map_reduce(functools.partial(_tally, scorer), operator.add)
+        tally = data.all_rows.map_reduce(functools.partial(_tally, scorer, share, seed), operator.add)
     else:  # a one-shot stream: the per-class sample stands in for the rows
-        tally = scorer.tally([(data.values, data.codes)])
+        tally = _tally(
+            scorer,
+            min(1.0, config.performance_max_rows / data.n),
+            seed,
+            RowBlock(data.values, data.codes, data.row_labels),
+        )
     return scorer, tally.result()
 
 
@@ -119,7 +136,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     be scored, with the reason.
     """
     scale = _total_scale(data)
-    scorer, loo = _gaussian(data, scale)
+    scorer, loo = _gaussian(data, scale, config, random_state)
     chosen = {"lda": "lda" if "lda" in loo.names else None}
     chosen["regularized_lda"] = _best_of(loo, "regularized_lda")
     chosen["qda"] = _best_of(loo, "qda")
