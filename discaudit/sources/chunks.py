@@ -35,6 +35,7 @@ from discaudit.sources.screening import (
     exact_range,
     frame_columns,
     identical_columns,
+    named_columns,
     numeric_columns,
     raise_for_missing,
     screen_columns,
@@ -359,7 +360,7 @@ class BlockSpec:
     config: Config | None = None
 
     def block(self, chunk: pd.DataFrame) -> RowBlock:
-        frame = chunk[list(self.columns)]
+        frame = named_columns(chunk.drop(columns=[self.target]))[list(self.columns)]
         if self.config is not None:  # the same conversions as pass 1 (e.g. categorical codes)
             frame = numeric_columns(frame, self.config)[0]
         columns = frame_columns(frame)

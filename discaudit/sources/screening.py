@@ -21,7 +21,7 @@ import pandas as pd
 from discaudit.config import Config
 from discaudit.dataset import Coordinates
 from discaudit.errors import DataError
-from discaudit.jsonable import label
+from discaudit.jsonable import distinct_names, label
 from discaudit.stats._inputs import check_magnitude, label_codes
 from discaudit.stats.blocks import ROW_BLOCK, block_starts
 
@@ -43,11 +43,13 @@ __all__ = [
     "choose_coordinates",
     "column_kind",
     "column_range",
+    "distinct_classes",
     "distinct_values",
     "encode",
     "exact_range",
     "frame_columns",
     "identical_columns",
+    "named_columns",
     "numeric_columns",
     "raise_for_missing",
     "screen_columns",
@@ -80,7 +82,17 @@ def split(X: Any, y: Any, target: str | None) -> tuple[pd.DataFrame, pd.Series]:
         raise DataError(f"Column names {dup} appear more than once; rename them so findings can name them.")
     if frame.shape[1] == 0:
         raise DataError("No feature columns: X has only the target.")
-    return frame, labels
+    return named_columns(frame), labels
+
+
+def named_columns(frame: pd.DataFrame) -> pd.DataFrame:
+    """The frame with each column named by the text findings show (columns 1 and '1' become 1 and
+    '1', see :func:`~discaudit.jsonable.distinct_names`); the caller's frame is not changed."""
+    names = distinct_names(list(frame.columns))
+    if list(frame.columns) == names:
+        return frame
+    renamed: pd.DataFrame = frame.set_axis(pd.Index(names, dtype=object), axis=1)
+    return renamed
 
 
 def _as_frame(X: Any) -> pd.DataFrame:
@@ -122,7 +134,7 @@ _FIXES = {
     "datetime": "convert it to elapsed time, e.g. (s - s.min()).dt.total_seconds(), or drop it",
     "timedelta": "convert it to a number of units, e.g. s.dt.total_seconds(), or drop it",
     "categorical": "one-hot encode it, or pass Config(categorical='codes') to audit its category codes",
-    "complex": "split it into real columns (its real and imaginary parts, or its modulus) or drop it",
+    "complex": "split each into real columns (its real and imaginary parts, or its modulus) or drop it",
     "other": "convert it to numbers or drop it",
 }
 
@@ -385,10 +397,24 @@ def raise_for_missing(
 
 
 def encode(labels: pd.Series) -> tuple[npt.NDArray[np.intp], tuple[Any, ...]]:
-    """Integer codes of the labels and the classes (sorted when comparable); DataError if too few."""
+    """Integer codes of the labels and the classes (sorted when comparable); DataError if too few.
+
+    Classes that would print alike (True and 'True', 1 and '1') are renamed to the text that tells
+    them apart (see :func:`distinct_classes`), so no report or mapping shows two as one.
+    """
     codes, classes = label_codes(labels)
+    classes = distinct_classes(classes)
     check_classes(classes, np.bincount(codes, minlength=len(classes)))
     return codes, tuple(classes)
+
+
+def distinct_classes(classes: Sequence[Any]) -> list[Any]:
+    """The classes, with those that would print alike replaced by their repr (others unchanged)."""
+    shown = [label(c) for c in classes]
+    if len({str(s) for s in shown}) == len(shown):
+        return list(classes)
+    names = distinct_names(list(classes))
+    return [c if str(label(c)) == n else n for c, n in zip(classes, names, strict=True)]
 
 
 def check_classes(classes: Sequence[Any], counts: npt.NDArray[np.int64]) -> None:
