@@ -103,6 +103,8 @@ class ChunkSummary:
     missing_per_column: npt.NDArray[np.int64]
     first_missing_row: Any
     missing_labels: int
+    #: Labels of the first rows (at most 5) whose class label is missing.
+    missing_label_rows: tuple[Any, ...]
     dropped_per_class: dict[Any, int]
     non_numeric: tuple[str, ...]
     #: For each column, the first column holding the same values in every row seen (itself if none).
@@ -167,6 +169,7 @@ def summarize(
         missing_per_column=screen.missing_per_column,
         first_missing_row=screen.first_bad_row,
         missing_labels=int(screen.missing_label.sum()),
+        missing_label_rows=tuple(label(r) for r in frame.index[screen.missing_label][:5]),
         dropped_per_class={label(k): int(v) for k, v in dropped.items()},
         non_numeric=tuple(non_numeric),
         same_as=identical_columns(values),
@@ -211,6 +214,7 @@ def merge(a: ChunkSummary, b: ChunkSummary, rng: np.random.Generator) -> ChunkSu
         missing_per_column=a.missing_per_column + b.missing_per_column,
         first_missing_row=a.first_missing_row if a.first_missing_row is not None else b.first_missing_row,
         missing_labels=a.missing_labels + b.missing_labels,
+        missing_label_rows=(a.missing_label_rows + b.missing_label_rows)[:5],
         dropped_per_class=dropped,
         non_numeric=a.non_numeric,
         same_as=_refine(a.same_as, b.same_as),
@@ -237,7 +241,13 @@ def to_audit_data(
     """
     features = list(summary.features)
     if config.missing == "error":
-        raise_for_missing(summary.missing_per_column, summary.first_missing_row, summary.missing_labels, features)
+        raise_for_missing(
+            summary.missing_per_column,
+            summary.first_missing_row,
+            summary.missing_labels,
+            features,
+            summary.missing_label_rows,
+        )
     summary = _unify_label_types(summary, random_state)
     classes = ordered_unique(list(summary.moments.classes))
     moments = _reorder(summary.moments, classes)
@@ -337,8 +347,8 @@ def summarize_chunks(
         total = part if total is None else merge(total, part, stream_rng(random_state, CHUNK_MERGE, i))
         if progress is not None:
             progress(len(chunk))
-    if total is None:
-        raise DataError("The input has no rows.")
+    if total is None or total.n_rows_input == 0:
+        raise DataError("The input has no data rows.")
     return total
 
 

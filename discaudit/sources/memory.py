@@ -64,7 +64,12 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
         n_rows_input, n_features_input = frame.shape
         frame, non_numeric, converted = numeric_columns(frame, config)
         conversions.update(converted)
-        values, frame, labels, dropped, unlabelled, coordinates = _handle_missing(frame, labels, config)
+        try:
+            values, frame, labels, dropped, unlabelled, coordinates = _handle_missing(frame, labels, config)
+        except DataError as exc:
+            if any(v.startswith("masked") for v in conversions.values()):
+                raise DataError(f"{exc} (Masked entries count as missing values.)") from None
+            raise
         columns = list(frame.columns)
     codes, classes = encode(labels)
     col_min, col_max = column_range(values)  # reductions only: no temporary copy of the data

@@ -82,6 +82,8 @@ def split(X: Any, y: Any, target: str | None) -> tuple[pd.DataFrame, pd.Series]:
         raise DataError(f"Column names {dup} appear more than once; rename them so findings can name them.")
     if frame.shape[1] == 0:
         raise DataError("No feature columns: X has only the target.")
+    if frame.shape[0] == 0:
+        raise DataError("The input has no data rows; an audit needs labelled rows.")
     return named_columns(frame), labels
 
 
@@ -386,13 +388,15 @@ def raise_for_missing(
         where = f" (rows {list(label_rows)[:5]})" if len(label_rows) else ""
         raise DataError(
             f"The target has {n_missing_labels} missing labels{where}; label or drop them, "
-            "or pass Config(missing='drop_rows')."
+            "or pass Config(missing='drop_rows').",
+            rows=list(label_rows)[:5],
         )
     if missing_per_column.any():
         cols = [f"{columns[int(j)]} ({int(missing_per_column[j])})" for j in np.flatnonzero(missing_per_column)]
         raise DataError(
             f"NaN or infinite values in columns {', '.join(cols[:8])} (first at row "
-            f"{first_bad_row}); impute or drop them, or pass Config(missing='drop_rows')."
+            f"{first_bad_row}); impute or drop them, or pass Config(missing='drop_rows').",
+            rows=[first_bad_row],
         )
 
 
