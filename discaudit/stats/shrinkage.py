@@ -120,13 +120,19 @@ def pooled_ledoit_wolf(
 
 
 def pooled_ledoit_wolf_intensities(
-    X: FloatArray, codes: npt.NDArray[np.intp], moments: ClassMoments, standardize: tuple[bool, ...]
+    X: FloatArray,
+    codes: npt.NDArray[np.intp],
+    moments: ClassMoments,
+    standardize: tuple[bool, ...],
+    exponents: npt.ArrayLike | None = None,
 ) -> tuple[float, ...]:
     """Intensities for each ``standardize`` flag, from one pass over the rows.
 
     Without standardizing, all features are divided by one common power-of-two scale first:
     the intensity is invariant to a common rescaling (numerator and denominator both scale
-    by c^4), and fourth powers of large values would otherwise overflow.
+    by c^4), and fourth powers of large values would otherwise overflow. ``exponents`` says
+    that feature j of X is ``x_j * 2**-exponents[j]`` (an exact rescaling of tiny values): the
+    unstandardized intensity is then that of the x_j, in their own units.
 
     Raises
     ------
@@ -138,10 +144,12 @@ def pooled_ledoit_wolf_intensities(
     sd = np.sqrt(np.diag(W) / N)
     if any(standardize) and np.any(sd <= 0):
         raise DataError("standardize=True needs every feature to vary within classes.")
-    largest = float(sd.max())
-    if not largest > 0:
+    if not sd.max() > 0:
         return tuple(0.0 for _ in standardize)
-    common = np.full(sd.shape, 2.0 ** np.round(np.log2(largest)))
+    power = np.zeros(sd.shape, dtype=np.intp) if exponents is None else np.asarray(exponents, dtype=np.intp)
+    with np.errstate(divide="ignore"):
+        largest_log2 = float(np.max(np.log2(sd) + power))  # of the features in their own units
+    common = np.ldexp(1.0, int(np.round(largest_log2)) - power)
     scales = np.array([sd if flag else common for flag in standardize])
     fourth = class_centred_fourth_sums(X, codes, moments.means, scales)
     return tuple(
