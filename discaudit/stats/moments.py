@@ -88,20 +88,22 @@ class ClassMoments:
         counts = np.bincount(codes, minlength=K).astype(np.int64)
         location = np.array(X[0], dtype=np.float64) if n else np.zeros(p)
         sums = np.zeros((K, p))
-        low, high = np.full((K, p), np.inf), np.full((K, p), -np.inf)
         for a in range(0, n, _ROW_BLOCK):
-            c, block = codes[a : a + _ROW_BLOCK], X[a : a + _ROW_BLOCK]
-            sums += (c[None, :] == np.arange(K)[:, None]).astype(np.float64) @ (block - location)
-            for k in np.unique(c):
-                part = np.compress(c == k, block, axis=0)
-                low[k] = np.minimum(low[k], part.min(axis=0))
-                high[k] = np.maximum(high[k], part.max(axis=0))
+            c = codes[a : a + _ROW_BLOCK]
+            sums += (c[None, :] == np.arange(K)[:, None]).astype(np.float64) @ (X[a : a + _ROW_BLOCK] - location)
         means = location + sums / np.maximum(counts, 1)[:, None]
         scatter = np.zeros((K, p, p))
         residual = np.zeros((K, p))
-        for k, part in class_centred_blocks(X, codes, means):
-            scatter[k] += part.T @ part
-            residual[k] += part.sum(axis=0)
+        low, high = np.full((K, p), np.inf), np.full((K, p), -np.inf)
+        for a in range(0, n, _ROW_BLOCK):  # as class_centred_blocks, with the exact range of the raw rows
+            block, c = X[a : a + _ROW_BLOCK], codes[a : a + _ROW_BLOCK]
+            for k in np.unique(c):
+                part = np.compress(c == k, block, axis=0)
+                np.minimum(low[k], part.min(axis=0), out=low[k])
+                np.maximum(high[k], part.max(axis=0), out=high[k])
+                part -= means[k]
+                scatter[k] += part.T @ part
+                residual[k] += part.sum(axis=0)
         scatter -= residual[:, :, None] * residual[:, None, :] / np.maximum(counts, 1)[:, None, None]
         return cls(tuple(classes), counts, means, (scatter + scatter.transpose(0, 2, 1)) / 2.0, low, high)._exact()
 
