@@ -60,9 +60,15 @@ class _Shared(Generic[S]):
     @contextmanager
     def held(self) -> Iterator[None]:
         with _STATE_LOCK:
-            if self._count == 0:
-                self._saved = self._install()
-            self._count += 1
+            try:
+                if self._count == 0:
+                    self._saved = self._install()
+                self._count += 1
+            except BaseException:  # Ctrl-C between installing and counting: undo, then go on raising
+                if self._count == 0 and self._saved is not None:
+                    saved, self._saved = self._saved, None
+                    self._restore(saved)
+                raise
         try:
             yield
         finally:

@@ -22,7 +22,7 @@ def class_centred_fourth_sums(
     ``scales`` has one row per scale (S, p); the result has S sums, from one pass over X in
     blocks of rows (no second full copy of X): ||z_i||^2 = sum_j (x_ij - m_kj)^2 / scale_j^2.
     """
-    inv_sq = 1.0 / np.atleast_2d(scales) ** 2
+    inv_sq = (1.0 / np.atleast_2d(scales)) ** 2  # invert first: a scale of 2**996 squared overflows
     total = np.zeros(inv_sq.shape[0])
     for _, part in class_centred_blocks(X, codes, means):
         part *= part
@@ -149,9 +149,12 @@ def pooled_ledoit_wolf_intensities(
     power = np.zeros(sd.shape, dtype=np.intp) if exponents is None else np.asarray(exponents, dtype=np.intp)
     with np.errstate(divide="ignore"):
         largest_log2 = float(np.max(np.log2(sd) + power))  # of the features in their own units
-    common = np.ldexp(1.0, int(np.round(largest_log2)) - power)
+    with np.errstate(over="ignore"):  # a feature more than 2**1023 below the largest: scale inf, weight 0
+        common = np.ldexp(1.0, int(np.round(largest_log2)) - power)
     scales = np.array([sd if flag else common for flag in standardize])
     fourth = class_centred_fourth_sums(X, codes, moments.means, scales)
     return tuple(
-        ledoit_wolf_intensity(W / np.outer(scale, scale), N, float(f)) for scale, f in zip(scales, fourth, strict=True)
+        # (W / s_i) / s_j, not W / (s_i s_j): that product overflows for a rescaled tiny feature
+        ledoit_wolf_intensity(W / scale[:, None] / scale[None, :], N, float(f))
+        for scale, f in zip(scales, fourth, strict=True)
     )
