@@ -65,9 +65,8 @@ class _Shared(Generic[S]):
                     self._saved = self._install()
                 self._count += 1
             except BaseException:  # Ctrl-C between installing and counting: undo, then go on raising
-                if self._count == 0 and self._saved is not None:
-                    saved, self._saved = self._saved, None
-                    self._restore(saved)
+                if self._count == 0:
+                    self._release()
                 raise
         try:
             yield
@@ -75,8 +74,12 @@ class _Shared(Generic[S]):
             with _STATE_LOCK:
                 self._count -= 1
                 if self._count == 0:
-                    saved, self._saved = self._saved, None
-                    self._restore(saved)  # type: ignore[arg-type]  # set by the matching install
+                    self._release()
+
+    def _release(self) -> None:
+        saved, self._saved = self._saved, None
+        if saved is not None:
+            self._restore(saved)
 
 
 def _limit_blas() -> Any:
