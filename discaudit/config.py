@@ -13,11 +13,20 @@ from typing import Any
 from discaudit.checks import CHECK_KEYS
 from discaudit.errors import DataError
 
-__all__ = ["CHECK_KEYS", "MISSING_POLICIES", "NON_NUMERIC_POLICIES", "OUTLIER_CUTOFFS", "SEVERITIES", "Config"]
+__all__ = [
+    "CATEGORICAL_POLICIES",
+    "CHECK_KEYS",
+    "MISSING_POLICIES",
+    "NON_NUMERIC_POLICIES",
+    "OUTLIER_CUTOFFS",
+    "SEVERITIES",
+    "Config",
+]
 
 
 MISSING_POLICIES = ("error", "drop_rows")
 NON_NUMERIC_POLICIES = ("error", "drop")
+CATEGORICAL_POLICIES = ("non_numeric", "codes")
 SEVERITIES = ("gate", "advisory", "off")
 OUTLIER_CUTOFFS = ("small_sample_f", "chi2", "hardin_rocke")
 
@@ -39,6 +48,13 @@ class Config:
     )
     non_numeric: str = _threshold(
         "error", "Non-numeric feature columns: 'error' raises DataError, 'drop' sets them aside.", "design choice"
+    )
+    categorical: str = _threshold(
+        "non_numeric",
+        "pandas categorical feature columns: 'non_numeric' treats them as non-numeric (see non_numeric); "
+        "'codes' audits their category codes as numbers (unused categories keep their codes, missing ones "
+        "become missing values).",
+        "design choice",
     )
     vif_warn: float = _threshold(5.0, "VIF above this is worth a look.", "common practice")
     vif_fail: float = _threshold(
@@ -220,6 +236,8 @@ class Config:
             raise DataError(f"Config.outlier_cutoff must be one of {OUTLIER_CUTOFFS}; got {self.outlier_cutoff!r}.")
         if self.non_numeric not in NON_NUMERIC_POLICIES:
             raise DataError(f"Config.non_numeric must be one of {NON_NUMERIC_POLICIES}; got {self.non_numeric!r}.")
+        if self.categorical not in CATEGORICAL_POLICIES:
+            raise DataError(f"Config.categorical must be one of {CATEGORICAL_POLICIES}; got {self.categorical!r}.")
         for f in dataclasses.fields(self):
             value = getattr(self, f.name)
             if f.type in ("float", "int"):

@@ -421,6 +421,9 @@ def fit_logistic(
         Inverse penalty strength (> 0), scikit-learn's ``C``.
     init : LogisticFit, optional
         A fit to start from (a warm start; e.g. the fit at a neighbouring C). Any centre and scale.
+    key_origin : array-like, shape (p,), optional
+        Subtracted from the rows before their keys are computed (e.g. each column's minimum), so that
+        shifting a column by a constant that is exact in float64 (integer data) chooses the same rows.
     scale : array-like, shape (p,), optional
         Positive per-feature scale: the model is fitted to u = (x - centre) / scale.
     centre : array-like, shape (p,), optional
@@ -635,6 +638,7 @@ def cross_validated_logistic(
     max_rows: int = DEFAULT_MAX_ROWS,
     random_state: int | None = None,
     scale: npt.ArrayLike | None = None,
+    key_origin: npt.ArrayLike | None = None,
 ) -> LogisticEstimate:
     """Out-of-fold accuracy and log-loss of L2-penalized logistic regression, C chosen by cross-validation.
 
@@ -734,7 +738,7 @@ def cross_validated_logistic(
     seed = resolve_seed(random_state)
     n = Xa.shape[0]
 
-    keys = row_keys(Xa, seed, LOGISTIC_CV)
+    keys = row_keys(Xa, seed, LOGISTIC_CV, origin=key_origin)
     counts = np.bincount(ca, minlength=K).astype(np.int64)
     by_class = [np.flatnonzero(ca == k) for k in range(K)]
     ordered = [idx[np.lexsort((idx, keys[idx]))] for idx in by_class]

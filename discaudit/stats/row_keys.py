@@ -33,20 +33,28 @@ def _mix(x: UIntArray) -> UIntArray:
     return np.asarray(x ^ (x >> _MIX_SHIFTS[2]), dtype=np.uint64)
 
 
-def row_keys(X: FloatArray, seed: int, salt: int) -> UIntArray:
-    """A 64-bit key per row from its values, the seed and the salt naming the step (see ``seeds``)."""
+def row_keys(X: FloatArray, seed: int, salt: int, origin: npt.ArrayLike | None = None) -> UIntArray:
+    """A 64-bit key per row from its values, the seed and the salt naming the step (see ``seeds``).
+
+    ``origin`` (one value per column) is subtracted first: with each column's minimum, a shift of a
+    column that float64 represents exactly (integer data) leaves every key unchanged.
+    """
     n, p = X.shape
+    base = np.zeros(p) if origin is None else np.asarray(origin, dtype=np.float64)
     mask = stream_rng(seed, salt).integers(0, 2**64, size=p + 1, dtype=np.uint64, endpoint=False)
     keys = np.empty(n, dtype=np.uint64)
     for a in range(0, n, ROW_BLOCK):
-        bits = (np.ascontiguousarray(X[a : a + ROW_BLOCK], dtype=np.float64) + 0.0).view(np.uint64)  # -0.0 == 0.0
+        block = np.ascontiguousarray(X[a : a + ROW_BLOCK], dtype=np.float64) - base
+        bits = (block + 0.0).view(np.uint64)  # + 0.0: -0.0 and 0.0 get one key
         mixed = _mix(bits ^ mask[:p])
         keys[a : a + ROW_BLOCK] = _mix(mixed.sum(axis=1, dtype=np.uint64) ^ mask[p])
     return keys
 
 
-def keep_share(X: FloatArray, share: float, seed: int, salt: int) -> npt.NDArray[np.bool_]:
+def keep_share(
+    X: FloatArray, share: float, seed: int, salt: int, origin: npt.ArrayLike | None = None
+) -> npt.NDArray[np.bool_]:
     """Rows whose key falls in the lowest ``share`` of the key range: a seeded Bernoulli(share) sample."""
     if share >= 1.0:
         return np.ones(X.shape[0], dtype=np.bool_)
-    return np.asarray(row_keys(X, seed, salt).astype(np.float64) < share * _TWO_64)
+    return np.asarray(row_keys(X, seed, salt, origin).astype(np.float64) < share * _TWO_64)

@@ -334,7 +334,7 @@ class _FeatureSpace:
         self.mean = moments.means[0]
         cross = moments.scatter[0]
         self.sd = np.sqrt(np.diag(cross) / n)
-        keep = (np.ptp(values, axis=0) > 0) & (self.sd > 1e-12 * np.abs(self.mean))
+        keep = (np.ptp(values, axis=0) > 0) & (self.sd > 0)  # constant = min == max, exactly
         self.keep = np.flatnonzero(keep)
         self.dropped = [names[j] for j in np.flatnonzero(~keep)]
         independent = _independent_columns(self, cross)
