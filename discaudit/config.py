@@ -176,10 +176,18 @@ class Config:
         "of 2000 on the benchmark data, separated or not)",
     )
     performance_switch_se: float = _threshold(
-        2.0,
+        0.5,
         "A candidate is within noise of the best when its predicted accuracy is lower by at most this many paired "
         "standard errors; the recommendation is the most efficient candidate within noise of the best.",
-        "design choice, set on the tuning families of the validation study (benchmarks/validation/RESULTS.md)",
+        "design choice, set on the tuning families of the validation study: 0 to 0.5 were best there, 1 and "
+        "more cost accuracy (benchmarks/validation/tune.py)",
+    )
+    log_loss_guard_se: float = _threshold(
+        1.0,
+        "A candidate whose leave-one-out log-loss exceeds the lowest by more than this many paired standard errors "
+        "is not a contender, whatever its accuracy (its predictive probabilities have collapsed).",
+        "design choice, set on the tuning families of the validation study with performance_switch_se fixed at 0.5 "
+        "(benchmarks/validation/tune.py)",
     )
     logistic_max_rows: int = _threshold(
         4000,

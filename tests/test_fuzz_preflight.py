@@ -48,6 +48,7 @@ CHECK_KEYS = {
     "covariance_homogeneity",
     "separation",
     "discriminant_signal",
+    "expected_performance",
 }
 MODELS = {"lda", "regularized_lda", "qda", "logistic_regression"}
 

@@ -98,7 +98,7 @@ def test_no_external_references(report):
 def test_one_figure_per_plotted_check_each_a_png(demo, report):
     doc = _parse(report)
     figures = [attrs["data-check"] for tag, attrs in doc.tags if tag == "figure"]
-    assert figures == plottable(demo) and len(figures) == 5
+    assert figures == plottable(demo) and len(figures) == 6
     images = [attrs["src"] for tag, attrs in doc.tags if tag == "img"]
     assert len(images) == len(figures)
     for src in images:

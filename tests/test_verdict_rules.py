@@ -186,7 +186,8 @@ def test_unambiguous_scenarios_end_to_end(case) -> None:
     # scikit-learn) is in benchmarks/validation/RESULTS.md; the expected model is acceptable there.
     name, X, y, expected = case
     verdict = discaudit.preflight(X, y, random_state=0)
-    assert verdict.recommendation.model == expected
+    acceptable = (expected,) if isinstance(expected, str) else expected
+    assert verdict.recommendation.model in acceptable
 
 
 @pytest.mark.parametrize("case", _quick_scenarios(), ids=lambda c: c[0])

@@ -10,7 +10,7 @@
     directions (mean pairwise Mahalanobis distance 3.5), so shrinkage towards a spherical
     target costs a little, logistic regression is less efficient, and QDA pays for 3 x 55
     covariance parameters it does not need.
-``crowded_equal_gaussian`` -> ``"regularized_lda"``
+``crowded_equal_gaussian`` -> ``"regularized_lda"`` or ``"logistic_regression"``
     Two Gaussian classes, p = 40 features, 25 rows per class (N - K = 48, just above p):
     plain LDA inverts a nearly singular pooled covariance; QDA cannot be fit at all.
 ``large_unequal_covariance`` -> ``"qda"``
@@ -79,9 +79,9 @@ def _unequal(rng):
     return means, [base, other], 1500
 
 
-_CASES: tuple[tuple[str, Callable, str], ...] = (
+_CASES: tuple[tuple[str, Callable, str | tuple[str, ...]], ...] = (
     ("clean_equal_gaussian", _clean_equal, "lda"),
-    ("crowded_equal_gaussian", _crowded, "regularized_lda"),
+    ("crowded_equal_gaussian", _crowded, ("regularized_lda", "logistic_regression")),
     ("large_unequal_covariance", _unequal, "qda"),
 )
 

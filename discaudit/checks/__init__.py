@@ -17,6 +17,7 @@ from discaudit.checks import (
     covariance_homogeneity,
     data_hygiene,
     discriminant_signal,
+    expected_performance,
     normality,
     outliers,
     sample_size,
@@ -44,6 +45,7 @@ REGISTRY: tuple[ModuleType, ...] = (
     covariance_homogeneity,
     separation,
     discriminant_signal,
+    expected_performance,
 )
 
 CHECK_KEYS: tuple[str, ...] = tuple(module.KEY for module in REGISTRY)

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 import functools
 import operator
+import re
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
@@ -27,9 +28,9 @@ import numpy as np
 
 from discaudit.dataset import AuditData, RowBlock
 from discaudit.findings import Finding, fmt, skipped
-from discaudit.stats.leave_one_out import LeaveOneOutResult, LeaveOneOutScorer, LeaveOneOutTally
-from discaudit.stats.logistic import cross_validated_logistic
-from discaudit.stats.seeds import LOGISTIC, stream_rng
+from discaudit.jsonable import label
+from discaudit.stats.leave_one_out import LeaveOneOutResult, LeaveOneOutRows, LeaveOneOutScorer, LeaveOneOutTally
+from discaudit.stats.logistic import LogisticEstimate, cross_validated_logistic
 
 if TYPE_CHECKING:
     from discaudit.config import Config
@@ -46,6 +47,12 @@ SHRINKAGE_GRID = (0.01, 0.03, 0.1, 0.2, 0.4, 0.7)
 #: QDA ``reg_param`` values scored (on standardized features), as in scikit-learn's documentation
 #: examples' range; the lowest leave-one-out log-loss wins (design choice).
 QDA_REG_GRID = (0.0, 0.01, 0.05, 0.1, 0.3, 0.6, 0.9)
+#: A difference in predicted accuracy that matters: 1 percentage point, the margin within which the
+#: validation study counts a model as acceptable (benchmarks/validation/truth.py; design choice).
+MATERIAL_GAP = 0.01
+#: Standard errors by which the best candidate must beat always predicting the largest class before
+#: differences between candidates are taken as signal (about a one-sided 2.5% test; design choice).
+NO_SIGNAL_SE = 2.0
 #: Inverse penalties scored for logistic regression; the lowest cross-validated log-loss wins.
 LOGISTIC_C_GRID = (0.01, 0.1, 1.0, 10.0, 100.0)
 
@@ -101,20 +108,6 @@ def _best_of(result: LeaveOneOutResult, model: str) -> str | None:
     return min(names, key=lambda n: float(result.log_loss[result.index(n)]))
 
 
-def _subsample(data: AuditData, max_rows: int, seed_rng: np.random.Generator) -> np.ndarray:
-    """Sorted positions of a class-proportional seeded subsample of the held rows (all if few)."""
-    if data.n <= max_rows:
-        return np.arange(data.n)
-    counts = data.moments.counts.astype(float)
-    want = np.maximum(np.floor(max_rows * counts / counts.sum()).astype(int), 2)
-    picks = []
-    for k in range(len(data.classes)):
-        rows = data.class_rows(k)
-        take = min(int(want[k]), rows.size)
-        picks.append(seed_rng.choice(rows, take, replace=False))
-    return np.sort(np.concatenate(picks))
-
-
 def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
     """Predict the held-out accuracy and log-loss of LDA, shrinkage LDA, QDA and logistic regression.
 
@@ -130,22 +123,29 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     chosen = {"lda": "lda" if "lda" in loo.names else None}
     chosen["regularized_lda"] = _best_of(loo, "regularized_lda")
     chosen["qda"] = _best_of(loo, "qda")
-    rows = _subsample(data, config.logistic_max_rows, stream_rng(random_state, LOGISTIC))
     logit = cross_validated_logistic(
-        data.values[rows],
-        data.codes[rows],
+        data.values,
+        data.codes,
         len(data.classes),
         LOGISTIC_C_GRID,
         folds=config.logistic_folds,
-        random_state=int(stream_rng(random_state, LOGISTIC, 1).integers(2**31)),
+        max_rows=config.logistic_max_rows,
+        random_state=random_state,
         scale=scale,
     )
+    rows = logit.rows
     per_row = scorer.score_block(data.values[rows], data.codes[rows])
-    scores = _collect(loo, chosen, per_row, logit, rows.size, data.n)
+    scores = _collect(loo, chosen, per_row, logit, rows.size)
     return _judge(scores, loo, logit, config, data)
 
 
-def _collect(loo, chosen, per_row, logit, n_sub, n_all) -> _Scores:  # type: ignore[no-untyped-def]
+def _collect(
+    loo: LeaveOneOutResult,
+    chosen: dict[str, str | None],
+    per_row: LeaveOneOutRows,
+    logit: LogisticEstimate,
+    n_sub: int,
+) -> _Scores:
     figures: dict[str, dict[str, Any]] = {}
     correct: dict[str, np.ndarray] = {}
     loss: dict[str, np.ndarray] = {}
@@ -176,13 +176,13 @@ def _collect(loo, chosen, per_row, logit, n_sub, n_all) -> _Scores:  # type: ign
         ok = ~per_row.refit_fails[:, j]
         correct[model] = np.where(ok, per_row.correct[:, j], False).astype(float)
         loss[model] = per_row.neg_log_prob[:, j]
-    if logit.skip_reason is None:
+    if logit.skipped is None and logit.accuracy is not None:
         figures["logistic_regression"] = {
             "accuracy": float(logit.accuracy),
-            "accuracy_se": float(logit.accuracy_se),
-            "log_loss": float(logit.log_loss),
-            "log_loss_se": float(logit.log_loss_se),
-            "settings": {"C": float(logit.C), "standardize": True},
+            "accuracy_se": float(logit.accuracy_se or 0.0),
+            "log_loss": float(logit.log_loss or 0.0),
+            "log_loss_se": float(logit.log_loss_se or 0.0),
+            "settings": {"C": float(logit.C or 1.0), "standardize": True},
             "n_scored": int(logit.n_used),
             "folds": int(logit.folds),
             "method": _METHOD["logistic_regression"],
@@ -230,22 +230,44 @@ def _loo_name(loo: LeaveOneOutResult, figures: dict[str, Any], model: str) -> st
 _SHORT = {"lda": "LDA", "regularized_lda": "shrinkage LDA", "qda": "QDA", "logistic_regression": "logistic regression"}
 
 
-def _judge(scores: _Scores, loo: LeaveOneOutResult, logit: Any, config: Config, data: AuditData) -> Finding:
+def _judge(
+    scores: _Scores, loo: LeaveOneOutResult, logit: LogisticEstimate, config: Config, data: AuditData
+) -> Finding:
     figures = scores.figures
     scored = [c for c in CANDIDATES if c in figures]
-    not_scored = {c: _why_not(c, loo, logit) for c in CANDIDATES if c not in figures}
+    not_scored = {c: _why_not(c, loo, logit, data.classes) for c in CANDIDATES if c not in figures}
     if not scored:
         return skipped(KEY, "No candidate could be scored: " + "; ".join(f"{c}: {r}" for c, r in not_scored.items()))
     z = config.performance_switch_se
-    best = max(scored, key=lambda c: (figures[c]["accuracy"], -CANDIDATES.index(c)))
     paired = {a: {b: _difference(scores, loo, a, b) for b in scored if b != a} for a in scored}
     for pairs in paired.values():
         for d in pairs.values():
             d["within_noise"] = bool(abs(d["accuracy_difference"]) <= z * d["accuracy_se"])
+    # Competitive: log-loss not worse than the lowest by more than Config.log_loss_guard_se paired
+    # SE. A candidate whose accuracy is high by chance while its predictive probabilities have
+    # collapsed (p close to N - K) is not a contender, whatever its accuracy.
+    lowest = min(scored, key=lambda c: (figures[c]["log_loss"], CANDIDATES.index(c)))
+    g = config.log_loss_guard_se
+    competitive = [
+        c
+        for c in scored
+        if c == lowest or paired[c][lowest]["log_loss_difference"] <= g * paired[c][lowest]["log_loss_se"]
+    ]
+    best = max(competitive, key=lambda c: (figures[c]["accuracy"], -CANDIDATES.index(c)))
     versus_best = {c: paired[best][c] for c in scored if c != best}
     within = [
-        c for c in scored if c == best or versus_best[c]["accuracy_difference"] <= z * versus_best[c]["accuracy_se"]
+        c
+        for c in competitive
+        if c == best or versus_best[c]["accuracy_difference"] <= z * versus_best[c]["accuracy_se"]
     ]
+    counts = data.moments.counts
+    majority = float(counts.max() / counts.sum())
+    # No signal: the best candidate does not beat always predicting the largest class by two of its
+    # standard errors; then every difference between candidates is noise and the most efficient
+    # candidate that can be fitted is kept.
+    beats_majority = bool(figures[best]["accuracy"] - majority > NO_SIGNAL_SE * figures[best]["accuracy_se"])
+    if not beats_majority:
+        within = scored
     efficient = within[0]
     details: dict[str, Any] = {
         "candidates": figures,
@@ -253,40 +275,87 @@ def _judge(scores: _Scores, loo: LeaveOneOutResult, logit: Any, config: Config, 
         "best": best,
         "within_noise_of_best": within,
         "most_efficient_within_noise": efficient,
+        "lowest_log_loss": lowest,
+        "competitive_by_log_loss": competitive,
+        "majority_rule_accuracy": majority,
+        "beats_majority_rule": beats_majority,
         "paired": paired,
         "switch_se": z,
-        "switch_rule": f"a candidate is within noise of the best when its accuracy is lower by at most {z:g} paired "
-        "standard errors (Config.performance_switch_se); candidates are ordered from the most to the least "
-        "efficient: " + ", ".join(CANDIDATES),
+        "switch_rule": f"candidates whose log-loss exceeds the lowest by more than {g:g} paired standard errors "
+        "(Config.log_loss_guard_se) are not contenders; among the others, one is within noise of the best when its "
+        f"accuracy is lower by at most {z:g} paired standard errors (Config.performance_switch_se); the most "
+        "efficient candidate within noise is kept, in the order " + ", ".join(CANDIDATES),
         "rows_scored": {"leave_one_out": loo.n_used, "logistic_subsample": scores.n_common},
         "sample_note": None if data.sample is None or data.all_rows is not None else "scored on the per-class sample",
     }
     listing = ", ".join(f"{_SHORT[c]} {_pct(figures[c]['accuracy'])}" for c in scored)
     figure = f"best {_SHORT[best]} {_pct(figures[best]['accuracy'])}"
     summary = f"Predicted accuracy: {listing}."
-    if efficient == best:
-        status = "pass"
-        others = [c for c in within if c != best]
-        summary += f" {_SHORT[best]} predicts best" + (
-            f"; within noise of it: {', '.join(_SHORT[c] for c in others)}." if others else ", clearly."
+    if not beats_majority:
+        summary += (
+            f" No candidate predicts better than always choosing the largest class ({_pct(majority)}) by two "
+            f"standard errors, so their differences are noise and the most efficient, {_SHORT[efficient]}, is kept"
         )
+    elif efficient == best:
+        summary += f" {_cap(_SHORT[best])} predicts best"
     else:
         lead = versus_best[efficient]
-        gap, se = -lead["accuracy_difference"], lead["accuracy_se"]
-        status = "warn" if gap > se else "pass"
         summary += (
-            f" {_SHORT[best]} leads {_SHORT[efficient]} by {fmt(100 * gap, 2)} points (paired SE {fmt(100 * se, 2)}): "
-            + ("too close to call." if status == "warn" else "within noise.")
+            f" {_cap(_SHORT[best])} leads by {_pts(lead['accuracy_difference'])} points (paired SE "
+            f"{_pts(lead['accuracy_se'])}), within noise of {_SHORT[efficient]}, the more efficient model"
         )
+    # Too close to call: another candidate within noise of the pick (at least one paired SE) whose
+    # predicted accuracy differs from it by a material amount, so the choice matters and the data
+    # cannot settle it.
+    contenders = [
+        c
+        for c in scored
+        if c != efficient
+        and abs(paired[c][efficient]["accuracy_difference"]) >= MATERIAL_GAP
+        and abs(paired[c][efficient]["accuracy_difference"]) <= max(z, 1.0) * paired[c][efficient]["accuracy_se"]
+    ]
+    details["too_close_to_call"] = contenders
+    if contenders:
+        status = "warn"
+        summary += (
+            "; too close to call against "
+            + ", ".join(
+                f"{_SHORT[c]} ({_signed(paired[c][efficient]['accuracy_difference'])} points, paired SE "
+                f"{_pts(paired[c][efficient]['accuracy_se'])})"
+                for c in contenders
+            )
+            + "."
+        )
+    else:
+        status = "pass"
+        others = [c for c in within if c != efficient]
+        summary += f"; within noise of it: {', '.join(_SHORT[c] for c in others)}." if others else "."
     return Finding(KEY, status, summary, details, figure)
+
+
+def _cap(text: str) -> str:
+    return text[:1].upper() + text[1:]
+
+
+def _signed(x: float) -> str:
+    return ("+" if x > 0 else "") + _pts(x)
+
+
+def _pts(x: float) -> str:
+    return fmt(100 * x, 2)
 
 
 def _pct(x: float) -> str:
     return f"{100 * x:.1f}%"
 
 
-def _why_not(model: str, loo: LeaveOneOutResult, logit: Any) -> str:
+def _why_not(model: str, loo: LeaveOneOutResult, logit: LogisticEstimate, classes: tuple[Any, ...]) -> str:
+    """Why a candidate was not scored: for a grid, the reason of its least demanding setting."""
     if model == "logistic_regression":
-        return str(logit.skip_reason)
-    reasons = [f"{name}: {why}" for name, why in loo.skipped.items() if name.split("(")[0] == model]
-    return "; ".join(reasons) or "not scored"
+        reason = str(logit.skipped)
+    else:
+        reasons = [why for name, why in loo.skipped.items() if name.split("(")[0] == model]
+        reason = reasons[-1].split(": ", 1)[-1] if reasons else "not scored"
+        if model == "lda" and "eigenvalue" in reason:
+            reason = f"the pooled within-class covariance is singular or nearly so ({reason})"
+    return re.sub(r"class code (\d+)", lambda m: f"class {label(classes[int(m.group(1))])}", reason)

@@ -15,8 +15,13 @@ from dataclasses import dataclass
 from typing import Any
 
 from discaudit.decision.figures import (
+    BEATS_MAJORITY,
     BEST,
     CANDIDATE_FIGURES,
+    COMPETITIVE,
+    DELTA_BIC,
+    LOWEST_LOG_LOSS,
+    MAJORITY_ACCURACY,
     MOST_EFFICIENT_WITHIN_NOISE,
     PAIRED,
     SWITCH_SE,
@@ -32,11 +37,11 @@ NAMES = {"lda": "LDA", "regularized_lda": "shrinkage LDA", "qda": "QDA", "logist
 
 #: Assumption findings that argue for a model when they warn or fail, in words of the trade.
 _ARGUES_FOR = {
-    "sample_size": ("regularized_lda", "few rows per feature", ("warn", "fail")),
-    "collinearity": ("regularized_lda", "strong collinearity", ("fail",)),
-    "covariance_homogeneity": ("qda", "unequal class covariances", ("warn", "fail")),
-    "normality": ("logistic_regression", "class shapes far from Gaussian", ("fail",)),
-    "outliers": ("logistic_regression", "influential outlying rows", ("fail",)),
+    "sample_size": ("regularized_lda", "few rows per feature argue", ("warn", "fail")),
+    "collinearity": ("regularized_lda", "strong collinearity argues", ("fail",)),
+    "covariance_homogeneity": ("qda", "unequal class covariances argue", ("warn", "fail")),
+    "normality": ("logistic_regression", "class shapes far from Gaussian argue", ("fail",)),
+    "outliers": ("logistic_regression", "influential outliers argue", ("fail",)),
 }
 
 #: Why a model needs more rows than the one before it, for the sentence that prefers it.
@@ -90,19 +95,24 @@ def choose(findings: Findings) -> Choice:
     )
     reasons = [f"Predicted held-out accuracy: {listing}."]
     close = [c for c in ORDER if c in candidates and c != model and _within(versus(c, model))]
-    if model == best:
+    not_scored = dict(findings["expected_performance"].details.get("not_scored") or {})
+    for c, why in not_scored.items():
+        reasons.insert(0, f"{_cap(NAMES[c])} could not be scored: {why}.")
+    if BEATS_MAJORITY.read(findings) is False:
+        reasons.append(
+            f"No candidate predicts better than always choosing the largest class "
+            f"({_pct(MAJORITY_ACCURACY.read(findings))}) by two standard errors: the differences between them are "
+            f"noise, so {NAMES[model]}, the most efficient model that can be fitted, is kept ({_EFFICIENCY[model]})."
+        )
+    elif model == best:
         if close:
             reasons.append(
-                f"{NAMES[model]} predicts best; too close to call between {NAMES[model]} and "
-                f"{_join([NAMES[c] for c in close])}; {NAMES[model]} is preferred because it predicts best and "
-                + (
-                    "is the more efficient model."
-                    if ORDER.index(model) < min(ORDER.index(c) for c in close)
-                    else "leads them on accuracy."
-                )
+                f"{_cap(NAMES[model])} predicts best, but {_join([NAMES[c] for c in close])} "
+                f"{'is' if len(close) == 1 else 'are'} within noise of it: too close to call; {NAMES[model]} is "
+                "preferred because it predicts best and is the more efficient model."
             )
         else:
-            reasons.append(f"{NAMES[model]} predicts best, beyond the noise of every other candidate.")
+            reasons.append(f"{_cap(NAMES[model])} predicts best, beyond the noise of every other candidate.")
     else:
         lead = versus(best, model)
         reasons.append(
@@ -111,14 +121,27 @@ def choose(findings: Findings) -> Choice:
             f"less than the {fmt(SWITCH_SE.read(findings))} SE needed to switch; {NAMES[model]} "
             f"is preferred because {_EFFICIENCY[model]}."
         )
+    competitive = COMPETITIVE.read(findings) or list(candidates)
+    lowest = LOWEST_LOG_LOSS.read(findings)
+    for c in ORDER:
+        if c in candidates and c not in competitive and candidates[c]["accuracy"] >= candidates[model]["accuracy"]:
+            d = versus(c, lowest)
+            reasons.append(
+                f"{_cap(NAMES[c])} predicts as many rows right, but its log-loss is worse than {NAMES[lowest]}'s by "
+                f"{fmt(d['log_loss_difference'], 2)} (paired SE {fmt(d['log_loss_se'], 2)}): its predicted "
+                "probabilities are overconfident, a sign of a covariance estimated from too few rows, so it is not "
+                "a contender."
+            )
     for check, (argued, words, statuses) in _ARGUES_FOR.items():
         if status(findings, check) not in statuses:
             continue
+        if check == "covariance_homogeneity" and DELTA_BIC.read(findings) is None:
+            continue  # the comparison could not be made (a singular class covariance): no argument
         figure = findings[check].figure
         if argued not in candidates:
-            reasons.append(f"{words.capitalize()} ({figure}) argue for {NAMES[argued]}, which could not be scored.")
+            reasons.append(f"{_lead(words, figure)} for {NAMES[argued]}, which could not be scored.")
         elif argued == model:
-            reasons.append(f"{words.capitalize()} ({figure}) argue for {NAMES[argued]}, as chosen.")
+            reasons.append(f"{_lead(words, figure)} for {NAMES[argued]}, as chosen.")
         else:
             d = versus(argued, model)
             verdict = (
@@ -129,7 +152,7 @@ def choose(findings: Findings) -> Choice:
                 else "not enough to switch"
             )
             reasons.append(
-                f"{words.capitalize()} ({figure}) argue for {NAMES[argued]}, predicted at "
+                f"{_lead(words, figure)} for {NAMES[argued]}, predicted at "
                 f"{_pct(candidates[argued]['accuracy'])}: {_signed(d['accuracy_difference'])} points against "
                 f"{NAMES[model]} (paired SE {_pts(d['accuracy_se'])}), {verdict}."
             )
@@ -148,9 +171,19 @@ def choose(findings: Findings) -> Choice:
     return Choice(model, reasons, alternatives, close, dict(candidates[model]["settings"]))
 
 
+def _lead(words: str, figure: str) -> str:
+    """'Strong collinearity (max VIF 41) argues': the finding's words with its key figure."""
+    subject, verb = words.rsplit(" ", 1)
+    return f"{subject[:1].upper()}{subject[1:]} ({figure}) {verb}"
+
+
 def _within(d: dict[str, float]) -> bool:
     """|difference| within the switching multiple of its paired SE (as the check judged it)."""
     return bool(d.get("within_noise", False))
+
+
+def _cap(text: str) -> str:
+    return text[:1].upper() + text[1:]
 
 
 def _signed(x: float) -> str:

@@ -59,6 +59,10 @@ PAIRED = Figure("expected_performance", ("paired",))
 BEST = Figure("expected_performance", ("best",))
 MOST_EFFICIENT_WITHIN_NOISE = Figure("expected_performance", ("most_efficient_within_noise",))
 SWITCH_SE = Figure("expected_performance", ("switch_se",))
+COMPETITIVE = Figure("expected_performance", ("competitive_by_log_loss",))
+LOWEST_LOG_LOSS = Figure("expected_performance", ("lowest_log_loss",))
+BEATS_MAJORITY = Figure("expected_performance", ("beats_majority_rule",))
+MAJORITY_ACCURACY = Figure("expected_performance", ("majority_rule_accuracy",))
 
 #: Every figure the decision reads.
 FIGURES: tuple[Figure, ...] = (
@@ -77,4 +81,13 @@ FIGURES: tuple[Figure, ...] = (
     ANY_COMPLETE_SEPARATION,
     ANY_QUASI_COMPLETE_SEPARATION,
     DISCRETE_FEATURES,
+    CANDIDATE_FIGURES,
+    PAIRED,
+    BEST,
+    MOST_EFFICIENT_WITHIN_NOISE,
+    SWITCH_SE,
+    BEATS_MAJORITY,
+    MAJORITY_ACCURACY,
+    COMPETITIVE,
+    LOWEST_LOG_LOSS,
 )

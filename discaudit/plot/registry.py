@@ -16,6 +16,7 @@ PLOTS = {
     "outliers": "discaudit.plot.outliers",
     "normality": "discaudit.plot.normality",
     "covariance_homogeneity": "discaudit.plot.covariance",
+    "expected_performance": "discaudit.plot.performance",
 }
 
 #: Checks that have a plot, in display order.

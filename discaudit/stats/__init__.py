@@ -9,6 +9,7 @@ from discaudit.stats.box_m import BoxMResult, box_m
 from discaudit.stats.condition_indices import ConditionIndicesResult, condition_indices
 from discaudit.stats.henze_zirkler import HenzeZirklerResult, henze_zirkler
 from discaudit.stats.leave_one_out import LeaveOneOutResult, LeaveOneOutScorer, leave_one_out
+from discaudit.stats.logistic import LogisticEstimate, LogisticFit, cross_validated_logistic, fit_logistic
 from discaudit.stats.mardia import MardiaResult, mardia
 from discaudit.stats.mcd import MCDResult, mcd
 from discaudit.stats.separation import SeparationResult, detect_separation
@@ -22,13 +23,17 @@ __all__ = [
     "HenzeZirklerResult",
     "LeaveOneOutResult",
     "LeaveOneOutScorer",
+    "LogisticEstimate",
+    "LogisticFit",
     "MCDResult",
     "MardiaResult",
     "SeparationResult",
     "WilksLambdaResult",
     "box_m",
     "condition_indices",
+    "cross_validated_logistic",
     "detect_separation",
+    "fit_logistic",
     "henze_zirkler",
     "leave_one_out",
     "mardia",

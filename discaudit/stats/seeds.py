@@ -13,7 +13,7 @@ salt                value  stream
 ``OUTLIERS``          3   robust fit of each class (spawned per class)
 ``NORMALITY``         4   normality subsamples of each class (spawned per class)
 ``LABEL_UNIFY``       7   merging classes whose labels arrived as text and as numbers
-``LOGISTIC``          8   the logistic regression subsample and its folds (key: step)
+``LOGISTIC_CV``       8   row keys of the logistic subsample and folds (no key)
 ==================  ====  ========================================================
 
 ``PARTITION_MERGE`` and ``OUTLIERS`` share a value but never a stream: the first always carries
@@ -31,7 +31,7 @@ PARTITION_MERGE = 3
 OUTLIERS = 3
 NORMALITY = 4
 LABEL_UNIFY = 7
-LOGISTIC = 8
+LOGISTIC_CV = 8
 
 
 def _entropy(random_state: int | None, salt: int, key: tuple[int, ...]) -> list[int] | None:
