@@ -10,11 +10,10 @@ from __future__ import annotations
 import dataclasses
 import functools
 import time
-import warnings
 from typing import Any
 
 from discaudit import checks, remedy_effects
-from discaudit._threads import one_blas_thread
+from discaudit._threads import one_blas_thread, recorded_warnings
 from discaudit.config import Config
 from discaudit.dataset import AuditData
 from discaudit.decision import recommend
@@ -135,16 +134,18 @@ def what_if(data: AuditData, config: Config, random_state: int | None, **changes
 def _run_check(
     key: str, run: checks.CheckFunction, data: AuditData, config: Config, random_state: int | None
 ) -> Finding:
-    """Run one check, turning third-party warnings into details and errors into a skip."""
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    """Run one check, turning third-party warnings into details and errors into a skip.
+
+    Warnings are recorded per audit, in a context this check owns (``_threads.recorded_warnings``:
+    safe when several audits run in threads; the caller's filters are restored exactly).
+    """
+    with recorded_warnings() as caught:
         try:
             finding = run(data, config, random_state)
         except Exception as exc:
             return skipped(key, f"The check could not run: {type(exc).__name__}: {exc}", check_error=True)
     if caught:
-        messages = sorted({f"{w.category.__name__}: {w.message}" for w in caught})
-        return dataclasses.replace(finding, details={**finding.details, "warnings": messages})
+        return dataclasses.replace(finding, details={**finding.details, "warnings": sorted(set(caught))})
     return finding
 
 

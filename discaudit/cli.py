@@ -26,14 +26,14 @@ from typing import NoReturn, TextIO
 
 from discaudit import config_file
 from discaudit.audit import preflight
-from discaudit.config import MISSING_POLICIES, NON_NUMERIC_POLICIES, Config
+from discaudit.config import CATEGORICAL_POLICIES, MISSING_POLICIES, NON_NUMERIC_POLICIES, Config
 from discaudit.decision.gate import FAIL_ON_LEVELS, fails_gate
 from discaudit.errors import DataError
 from discaudit.progress import Progress
 from discaudit.verdict import Verdict
 
 __all__ = ["FORMATS", "build_parser", "main", "read_table"]
-from discaudit.sources.files import choose_columns, file_chunks, file_columns, kind_name, read_table
+from discaudit.sources.files import choose_columns, csv_line, file_chunks, file_columns, kind_name, read_table
 from discaudit.stream import preflight_chunks
 
 #: A renderer turns a verdict into report text; it gets the gate level for formats that use it.
@@ -63,7 +63,7 @@ def _html(verdict: Verdict, fail_on: str) -> str:
 #: ``--format`` name -> renderer. Adding a format is one entry here.
 FORMATS: dict[str, Renderer] = {"text": _text, "json": _json, "markdown": _markdown, "junit": _junit, "html": _html}
 
-_CONFIG_ADVICE = re.compile(r"Config\((missing|non_numeric)='(\w+)'\)")
+_CONFIG_ADVICE = re.compile(r"Config\((missing|non_numeric|categorical)='(\w+)'\)")
 
 EPILOG = """\
 examples:
@@ -146,6 +146,12 @@ def build_parser() -> argparse.ArgumentParser:
         help="non-numeric column policy (overrides the file)",
     )
     check.add_argument(
+        "--categorical",
+        choices=CATEGORICAL_POLICIES,
+        default=None,
+        help="categorical (Parquet dictionary) columns: as non-numeric, or their codes (overrides the file)",
+    )
+    check.add_argument(
         "--stream",
         action="store_true",
         help="read the file in batches with bounded memory (automatic for files larger than a quarter of RAM)",
@@ -163,15 +169,19 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; return the exit status (0 pass, 1 gate failed, 2 error)."""
-    parser = build_parser()
+    """Run the command line; return the exit status (0 pass, 1 gate failed, 2 error, 130 interrupted).
+
+    Ctrl-C at any point ends with one line on stderr and status 130: no traceback, and no report
+    file half written (reports are written to a temporary name and renamed).
+    """
     try:
-        args = parser.parse_args(argv)
-    except UsageError as exc:
-        return _error(str(exc))
-    except SystemExit as exc:  # --help and --version
-        return exc.code if isinstance(exc.code, int) else 0
-    try:
+        parser = build_parser()
+        try:
+            args = parser.parse_args(argv)
+        except UsageError as exc:
+            return _error(str(exc))
+        except SystemExit as exc:  # --help and --version
+            return exc.code if isinstance(exc.code, int) else 0
         return int(args.run(args))
     except KeyboardInterrupt:
         return _error("interrupted", status=130)
@@ -183,7 +193,9 @@ def run_check(args: argparse.Namespace) -> int:
     where = args.config or "settings"
     try:
         settings = config_file.load(args.config) if args.config else config_file.discover()
-        config = config_file.make_config(settings, {"missing": args.missing, "non_numeric": args.non_numeric})
+        config = config_file.make_config(
+            settings, {"missing": args.missing, "non_numeric": args.non_numeric, "categorical": args.categorical}
+        )
         fail_on = args.fail_on or settings.fail_on or "fail"
         stage, where = "reading the data", args.data
         if args.stream or _larger_than_memory_share(Path(args.data)):
@@ -198,7 +210,7 @@ def run_check(args: argparse.Namespace) -> int:
         stage, where = "writing the report", args.output or "<stdout>"
         failed = fails_gate(verdict.status, fail_on)
         if args.output:
-            Path(args.output).write_text(report, encoding="utf-8")
+            _write_file(Path(args.output), report)
             outcome = "failed" if failed else "passed"
             _write(
                 sys.stdout,
@@ -209,8 +221,8 @@ def run_check(args: argparse.Namespace) -> int:
             _write(sys.stdout, report)
         return 1 if failed else 0
     except DataError as exc:
-        prefix = "" if str(exc).startswith(str(where)) or stage == "reading the settings" else f"{where}: "
-        return _error(prefix + _as_options(str(exc)))
+        prefix = "" if str(where) in str(exc) or stage == "reading the settings" else f"{where}: "
+        return _error(prefix + _as_options(str(exc)) + _lines_of(exc, args, stage))
     except FileNotFoundError as exc:
         return _error(f"{exc.filename or where}: no such file.")
     except IsADirectoryError as exc:
@@ -279,6 +291,31 @@ def _what_if_report(verdict: Verdict, spec: str, fmt: str) -> str:
         raise DataError(f"--what-if {spec!r} changes nothing; e.g. --what-if 'drop=a,b'.")
     after = verdict.what_if(**change.to_kwargs())
     return RENDERERS[fmt](verdict, after, change.to_spec())
+
+
+def _write_file(path: Path, text: str) -> None:
+    """Write ``text`` to ``path`` whole or not at all: to a temporary name beside it, then renamed."""
+    temporary = path.with_name(f".{path.name}.{os.getpid()}.part")
+    try:
+        temporary.write_text(text, encoding="utf-8")
+        os.replace(temporary, path)
+    except BaseException:  # Ctrl-C or a full disk: leave no half-written file behind
+        temporary.unlink(missing_ok=True)
+        raise
+
+
+def _lines_of(exc: DataError, args: argparse.Namespace, stage: str) -> str:
+    """For an error about rows of a CSV file read without --index-col: the line the first is on."""
+    if stage != "reading the data" or args.index_col is not None or not exc.rows:
+        return ""
+    first = exc.rows[0]
+    if not isinstance(first, int):
+        return ""
+    try:
+        line = csv_line(args.data, first)
+    except (OSError, DataError, UnicodeError):
+        return ""
+    return "" if line is None else f" The first is on line {line} of {args.data}."
 
 
 def _larger_than_memory_share(path: Path, share: float = 0.25) -> bool:

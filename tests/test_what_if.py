@@ -333,3 +333,40 @@ def test_compare_lists_statuses_recommendation_and_key_figures(audited) -> None:
     assert "features removed: mean radius, mean perimeter" in text and "max VIF:" in text
     assert verdict.compare(verdict).changed == {} and verdict.compare(verdict).figures == {}
     assert c.to_dict()["changes"] == [{"drop_features": dropped}]
+
+
+def test_what_if_keeps_the_audit_coordinates_of_offset_and_tiny_features() -> None:
+    # Invented, for a property: an offset-dominated column (audited centred) and one on a scale of
+    # 1e-170 (audited rescaled by a power of two). The what-if works in the audit's coordinates and
+    # reports centres and scales in the data's own units.
+    rng = np.random.default_rng(4)
+    y = pd.Series(np.repeat(["a", "b", "c"], 100))
+    X = pd.DataFrame(
+        {
+            "t": 1.7e9 + 50 * rng.normal(size=300) + 40 * (y == "b"),
+            "u": 1e-170 * (rng.normal(size=300) + (y == "c")),
+            "v": rng.lognormal(size=300) + (y == "a"),
+            "w": rng.normal(size=300),
+        }
+    )
+    verdict = discaudit.preflight(X, y)
+    assert verdict.data is not None and verdict.data.coordinates is not None  # precondition
+    rows = [3, 150, 299]
+    _assert_same_audit(verdict.what_if(drop_rows=rows), discaudit.preflight(X.drop(index=rows), y.drop(index=rows)))
+    _assert_same_audit(verdict.what_if(drop_features=["w"]), discaudit.preflight(X.drop(columns=["w"]), y))
+    w = verdict.what_if(transform=["v"])
+    lam = w.meta["what_if"][0]["transform"]["lambdas"]["v"]
+    _assert_same_audit(w, discaudit.preflight(X.assign(v=sps.yeojohnson(X["v"].to_numpy(), lam)), y))
+    w = verdict.what_if(standardize=True)
+    record = w.meta["what_if"][0]["standardize"]
+    unit = X.abs().max()  # pandas' SD of values near 1e-170 underflows (their squares do): rescale first
+    sd = (X / unit).std(ddof=0) * unit
+    assert ((pd.Series(record["centre"])[X.columns] - X.mean()).abs() <= 1e-12 * sd).all()  # in SD units
+    np.testing.assert_allclose(pd.Series(record["scale"])[X.columns], sd, rtol=1e-9)
+    f = discaudit.preflight((X - pd.Series(record["centre"])) / pd.Series(record["scale"]), y)
+    # Standardizing t from its raw values keeps only ~5e-9 of its spread's digits (float spacing at
+    # 1.7e9 against a spread of 50); the what-if standardizes it from the centred values. Every status
+    # and every figure but those of the logistic fit, which amplifies that rounding, agree.
+    assert {k: x.status for k, x in w.findings.items()} == {k: x.status for k, x in f.findings.items()}
+    for key in MOMENT_CHECKS + ("outliers", "normality", "separation"):
+        assert not _mismatches(w.findings[key].to_dict(), f.findings[key].to_dict(), (key,)), key

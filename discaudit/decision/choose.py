@@ -18,6 +18,7 @@ from discaudit.decision.figures import (
     BEATS_MAJORITY,
     BEST,
     CANDIDATE_FIGURES,
+    CLASS_ENCODING_FEATURES,
     COMPETITIVE,
     DELTA_BIC,
     LOWEST_LOG_LOSS,
@@ -84,6 +85,11 @@ def choose(findings: Findings) -> Choice:
     paired: dict[str, Any] = PAIRED.read(findings)
     best: str = BEST.read(findings)
     model: str = MOST_EFFICIENT_WITHIN_NOISE.read(findings)
+    encoders = CLASS_ENCODING_FEATURES.read(findings) or []
+    if encoders and model == "lda":
+        # A feature constant within every class makes the pooled covariance singular: plain LDA is
+        # not a model of these data whatever its scored accuracy.
+        model = next((c for c in ORDER if c in candidates and c != "lda"), model)
 
     def versus(a: str, b: str) -> dict[str, float]:
         return dict(paired[a][b])
@@ -97,6 +103,12 @@ def choose(findings: Findings) -> Choice:
     competitive = COMPETITIVE.read(findings) or list(candidates)
     lowest = LOWEST_LOG_LOSS.read(findings)
     close = [c for c in ORDER if c in candidates and c in competitive and c != model and _within(versus(c, model))]
+    if encoders:
+        reasons.append(
+            f"{_join([str(e) for e in encoders])} {'encodes' if len(encoders) == 1 else 'encode'} the class "
+            "(constant within every class, different between them): the pooled covariance is singular, so plain "
+            "LDA is ruled out; check whether the column leaks the label."
+        )
     not_scored = dict(findings["expected_performance"].details.get("not_scored") or {})
     for c, why in not_scored.items():
         reasons.insert(0, f"{_cap(NAMES[c])} could not be scored: {why}.")

@@ -90,6 +90,8 @@ def read_table(
             frame = frame.set_index(index_col)
         elif frame.index.name != index_col:  # pragma: no cover - guarded by choose_columns
             raise DataError(f"Index column {index_col!r} not found.")
+    if len(frame) == 0:
+        raise DataError(f"no data rows in {path} (only a header); an audit needs labelled rows.")
     selected: pd.DataFrame = frame[[*chosen, target]]  # pandas-stubs' Self reads as Any when checked for 3.10
     return selected
 
@@ -220,6 +222,8 @@ def file_chunks(
     def batches() -> Iterator[pd.DataFrame]:
         start = 0
         for frame in _read_batches(path, file_kind, batch_rows, wanted):
+            if len(frame) == 0:
+                continue
             if index_col is not None:
                 if index_col not in frame.columns:
                     raise DataError(f"{path}: index column {index_col!r} not found.")
@@ -228,8 +232,39 @@ def file_chunks(
                 frame.index = pd.RangeIndex(start, start + len(frame))
             start += len(frame)
             yield frame
+        if start == 0:
+            raise DataError(f"no data rows in {path} (only a header); an audit needs labelled rows.")
 
     return batches
+
+
+def csv_line(path: str | Path, row: int) -> int | None:
+    """The line of a CSV file on which data row ``row`` (0-based, as pandas counts) starts.
+
+    Counted by the csv module, so quoted fields that span lines and blank lines (which pandas
+    skips) are accounted for; None when the file has fewer rows or is not CSV.
+    """
+    import csv
+    import io
+
+    path = Path(path)
+    if kind(path) != "csv":
+        return None
+    raw = gzip.open(path, "rb") if path.name.lower().endswith(".gz") else path.open("rb")  # noqa: SIM115
+    with raw, io.TextIOWrapper(raw, encoding="utf-8", errors="replace", newline="") as handle:
+        reader = csv.reader(handle)
+        seen_header, count, previous = False, -1, 0
+        for record in reader:
+            start, previous = previous + 1, reader.line_num
+            if not record:
+                continue  # a blank line
+            if not seen_header:
+                seen_header = True
+                continue
+            count += 1
+            if count == row:
+                return start
+    return None
 
 
 def _read_batches(path: Path, file_kind: str, batch_rows: int, columns: list[str] | None) -> Iterator[pd.DataFrame]:

@@ -44,11 +44,12 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
-from discaudit.dataset import ArrayRows, AuditData, IntakeRecord, RowBlock, RowPass, SampleInfo
+from discaudit.dataset import ArrayRows, AuditData, Coordinates, RowBlock, RowPass, SampleInfo
 from discaudit.errors import DataError
 from discaudit.jsonable import label
-from discaudit.sources.screening import check_magnitude, column_range, distinct_values
+from discaudit.sources.screening import check_magnitude, choose_coordinates, column_range, distinct_values
 from discaudit.stats._inputs import ordered_unique
+from discaudit.stats.blocks import ROW_BLOCK, block_starts
 from discaudit.stats.moments import ClassMoments
 from discaudit.stats.seeds import WHAT_IF_SAMPLE, stream_rng
 from discaudit.stats.yeo_johnson import yeo_johnson, yeo_johnson_lambda
@@ -304,6 +305,25 @@ def _rows_like(
     return None if data.all_rows is None else ChangedRows(data.all_rows, step)
 
 
+def _coordinates(data: AuditData) -> Coordinates:
+    return data.coordinates if data.coordinates is not None else Coordinates.plain(data.p)
+
+
+def _replace_coordinates(coords: Coordinates, columns: dict[int, tuple[int | float, int]]) -> Coordinates | None:
+    """``coords`` with new (location, exponent) for some columns; None when every column is plain."""
+    locations, exponents = list(coords.locations), list(coords.exponents)
+    for j, (location, exponent) in columns.items():
+        locations[j], exponents[j] = location, exponent
+    out = Coordinates(tuple(locations), tuple(exponents))
+    return None if out.trivial else out
+
+
+def _raw(values: FloatArray, location: int | float, exponent: int) -> FloatArray:
+    """Values in the source's units from the audit's coordinates (exact when the location is 0)."""
+    out = np.ldexp(values, exponent) if exponent else np.array(values, dtype=np.float64)
+    return out + float(location) if location else out
+
+
 # --- The changes, one function each ----------------------------------------------------------
 
 
@@ -322,23 +342,41 @@ def _label_candidates(requested: Iterable[Any]) -> list[Any]:
 
 @dataclass(frozen=True)
 class _Collected:
-    """Rows found in a pass: their values, codes and labels."""
+    """Rows found in a pass (values, codes, labels) and the per-class ranges of the rows not found."""
 
     values: FloatArray
     codes: npt.NDArray[np.intp]
     labels: list[Any]
+    low: FloatArray
+    high: FloatArray
 
     def __add__(self, other: _Collected) -> _Collected:
         return _Collected(
             np.vstack([self.values, other.values]),
             np.concatenate([self.codes, other.codes]),
             self.labels + other.labels,
+            np.minimum(self.low, other.low),
+            np.maximum(self.high, other.high),
         )
 
 
-def _collect(candidates: list[Any], block: RowBlock) -> _Collected:
+def _class_ranges(values: FloatArray, codes: npt.NDArray[np.intp], K: int) -> tuple[FloatArray, FloatArray]:
+    """Per-class minimum and maximum of each column (+inf and -inf for a class without rows), block by block."""
+    p = values.shape[1]
+    low, high = np.full((K, p), np.inf), np.full((K, p), -np.inf)
+    for a in block_starts(values.shape[0]):
+        block, c = values[a : a + ROW_BLOCK], codes[a : a + ROW_BLOCK]
+        for k in np.unique(c):
+            part = np.compress(c == k, block, axis=0)
+            np.minimum(low[k], part.min(axis=0), out=low[k])
+            np.maximum(high[k], part.max(axis=0), out=high[k])
+    return low, high
+
+
+def _collect(candidates: list[Any], K: int, block: RowBlock) -> _Collected:
     hit = np.asarray(block.row_labels.isin(candidates), dtype=bool)
-    return _Collected(block.values[hit], block.codes[hit], list(block.row_labels[hit]))
+    low, high = _class_ranges(block.values[~hit], block.codes[~hit], K)
+    return _Collected(block.values[hit], block.codes[hit], list(block.row_labels[hit]), low, high)
 
 
 #: A downdated variance below this share of the variance before is dominated by rounding (the
@@ -355,25 +393,6 @@ def _cancels(m: ClassMoments, kept: ClassMoments) -> bool:
     return bool(np.any((kept.counts[:, None] > 0) & (after <= _CANCELLATION * before)))
 
 
-def _downdate(m: ClassMoments, r: ClassMoments) -> ClassMoments:
-    """Moments of the rows of ``m`` without the rows summarized by ``r`` (same classes, r a subset)."""
-    counts = m.counts - r.counts
-    means = m.means.copy()
-    scatter = m.scatter.copy()
-    for k in np.flatnonzero(r.counts):
-        n, nr, na = float(m.counts[k]), float(r.counts[k]), float(counts[k])
-        if na == 0:
-            means[k] = 0.0
-            scatter[k] = 0.0
-            continue
-        means[k] = (n * m.means[k] - nr * r.means[k]) / na
-        d = means[k] - r.means[k]
-        # Inverse of the merge: S = S_kept + S_removed + (n_kept n_removed / n) d d'.
-        s = m.scatter[k] - r.scatter[k] - np.outer(d, d) * (na * nr / n)
-        scatter[k] = (s + s.T) / 2.0
-    return ClassMoments(m.classes, counts, means, scatter)
-
-
 def _drop_rows(data: AuditData, requested: tuple[Any, ...], few_distinct: int) -> AuditData:
     if data.all_rows is None:
         raise DataError(
@@ -381,13 +400,15 @@ def _drop_rows(data: AuditData, requested: tuple[Any, ...], few_distinct: int) -
             "pass a function returning the chunks instead."
         )
     candidates = _label_candidates(requested)
-    found = data.all_rows.map_reduce(lambda b: _collect(candidates, b), lambda a, b: a + b)
+    K = len(data.classes)
+    found = data.all_rows.map_reduce(lambda b: _collect(candidates, K, b), lambda a, b: a + b)
     seen = {str(label(v)) for v in found.labels}
     missing = [r for r in requested if str(label(r)) not in seen]
     if missing:
         raise DataError(f"Rows {_shown(missing)} are not among the audited rows; check the row labels (the index).")
     removed = ClassMoments.from_arrays(found.values, found.codes, data.classes)
-    moments = _downdate(data.moments, removed)
+    ranged = data.moments.minimum is not None
+    moments = data.moments.downdate(removed, found.low if ranged else None, found.high if ranged else None)
     held = np.asarray(data.row_labels.isin(candidates), dtype=bool)
     keep = ~held
     values = np.ascontiguousarray(data.values[keep])
@@ -454,7 +475,7 @@ def _remove_classes(data: AuditData, gone: list[int]) -> AuditData:
     new_code = np.full(len(data.classes), -1, dtype=np.intp)
     new_code[keep] = np.arange(len(keep))
     m = data.moments
-    moments = ClassMoments(tuple(m.classes[k] for k in keep), m.counts[keep], m.means[keep], m.scatter[keep])
+    moments = m.take_classes(keep)
     classes = tuple(data.classes[k] for k in keep)
     if len(classes) < 2:
         raise DataError(f"The change leaves only class {classes[0]!r}; an audit needs at least two classes.")
@@ -495,11 +516,9 @@ def _drop_features(data: AuditData, requested: tuple[str, ...]) -> AuditData:
     keep = np.array([j for j, f in enumerate(data.features) if f not in gone], dtype=np.intp)
     if keep.size == 0:
         raise DataError("The change drops every feature; an audit needs at least one.")
-    record = IntakeRecord(
-        n_rows_input=rec.n_rows_input,
+    record = dataclasses.replace(
+        rec,
         n_features_input=rec.n_features_input - len(gone),
-        dropped_rows_per_class=rec.dropped_rows_per_class,
-        dropped_rows_unlabelled=rec.dropped_rows_unlabelled,
         non_numeric_dropped=tuple(c for c in rec.non_numeric_dropped if c not in gone),
         constant_columns=tuple(c for c in rec.constant_columns if c not in gone),
         duplicate_columns=tuple((a, b) for a, b in rec.duplicate_columns if a not in gone),
@@ -518,6 +537,9 @@ def _drop_features(data: AuditData, requested: tuple[str, ...]) -> AuditData:
         record=record,
         distinct_counts={f: n for f, n in data.distinct_counts.items() if f not in gone},
         all_rows=_rows_like(data, values, data.codes, data.row_labels, step),
+        coordinates=None
+        if data.coordinates is None
+        else _replace_coordinates(data.coordinates.take(keep.tolist()), {}),
     )
 
 
@@ -552,16 +574,13 @@ def _merge_classes(data: AuditData, groups: tuple[tuple[Any, ...], ...], labels:
     for c in classes:
         part: ClassMoments | None = None
         for j in np.flatnonzero(new_code == classes.index(c)):
-            one = ClassMoments((c,), m.counts[j : j + 1], m.means[j : j + 1], m.scatter[j : j + 1])
+            one = m.take_classes([int(j)], (c,))
             part = one if part is None else part.merge(one)
         assert part is not None
         merged.append(part)
-    moments = ClassMoments(
-        classes,
-        np.concatenate([p.counts for p in merged]),
-        np.vstack([p.means for p in merged]),
-        np.concatenate([p.scatter for p in merged]),
-    )
+    moments = merged[0]
+    for part in merged[1:]:
+        moments = moments.merge(part)  # new classes are appended: the order of ``classes`` is kept
     codes = new_code[data.codes]
     rec = data.record
     by_text = {str(label(c)): final[k] for k, c in enumerate(data.classes)}
@@ -604,7 +623,7 @@ def _standardize(data: AuditData, which: tuple[str, ...] | bool) -> tuple[AuditD
     centre = np.zeros(data.p)
     scale = np.ones(data.p)
     centre[idx], scale[idx] = centre_all[idx], scale_all[idx]
-    moments = ClassMoments(m.classes, m.counts, (m.means - centre) / scale, m.scatter / np.outer(scale, scale))
+    moments = m.affine(centre, scale)
     values = np.array(data.values, dtype=np.float64)
     values[:, idx] = (values[:, idx] - centre[idx]) / scale[idx]
 
@@ -614,14 +633,25 @@ def _standardize(data: AuditData, which: tuple[str, ...] | bool) -> tuple[AuditD
         return RowBlock(v, block.codes, block.row_labels)
 
     rows = _rows_like(data, values, data.codes, data.row_labels, step)
-    out = dataclasses.replace(data, values=values, moments=moments, all_rows=rows)
+    coords = _coordinates(data)
+    # Standardized values have mean 0 and SD 1: neither offset-dominated nor tiny, so they are audited as
+    # they are (plain coordinates), as a fresh audit of them would.
+    out = dataclasses.replace(
+        data,
+        values=values,
+        moments=moments,
+        all_rows=rows,
+        coordinates=_replace_coordinates(coords, {int(j): (0, 0) for j in idx}),
+    )
+    units = {int(j): (coords.locations[j], coords.exponents[j]) for j in idx}
     record = {
         "standardize": {
             "features": names,
-            "centre": {data.features[j]: float(centre[j]) for j in idx},
-            "scale": {data.features[j]: float(scale[j]) for j in idx},
+            "centre": {data.features[j]: float(_raw(np.array([centre[j]]), *units[int(j)])[0]) for j in idx},
+            "scale": {data.features[j]: float(np.ldexp(scale[j], units[int(j)][1])) for j in idx},
             "definition": "x -> (x - mean) / sd with the total mean and the total standard deviation (divisor N) "
-            "over every row, as scikit-learn's StandardScaler; from the class moments",
+            "over every row, as scikit-learn's StandardScaler; from the class moments; centre and scale in the "
+            "data's own units",
         }
     }
     return out, record
@@ -639,10 +669,13 @@ def estimate_transform(data: AuditData, features: Iterable[str]) -> dict[str, fl
     """Maximum-likelihood Yeo-Johnson exponents of ``features`` on the rows held (every row in memory, else
     the per-class sample), within classes; see :func:`discaudit.stats.yeo_johnson.yeo_johnson_lambda`."""
     out = {}
+    coords = _coordinates(data)
     for f in features:
         if f not in data.features:
             raise DataError(f"Column {f!r} is not a feature of the audited data; they are: {_shown(data.features)}.")
-        out[f] = yeo_johnson_lambda(data.values[:, data.features.index(f)], data.codes).lmbda
+        j = data.features.index(f)
+        raw = _raw(data.values[:, j], coords.locations[j], coords.exponents[j])
+        out[f] = yeo_johnson_lambda(raw, data.codes).lmbda
     return out
 
 
@@ -653,21 +686,39 @@ def _transform(data: AuditData, requested: tuple[tuple[str, float | None], ...])
         raise DataError(
             f"Columns {_shown(unknown)} are not features of the audited data; they are: {_shown(data.features)}."
         )
+    coords = _coordinates(data)
     lambdas: dict[str, float] = {}
     estimated: list[str] = []
     for f, lam in requested:
         j = data.features.index(f)
         if lam is None:
-            lam = yeo_johnson_lambda(data.values[:, j], data.codes).lmbda
+            raw = _raw(data.values[:, j], coords.locations[j], coords.exponents[j])
+            lam = yeo_johnson_lambda(raw, data.codes).lmbda
             estimated.append(f)
         lambdas[f] = float(lam)
     idx = np.array([data.features.index(f) for f in names], dtype=np.intp)
     lam_of = [lambdas[f] for f in names]
+    # The transform is monotone, so the range of each transformed column follows from the range of the
+    # column (the moments' per-class ranges): its coordinates are chosen before any row is read, by the
+    # rule a fresh audit applies to the transformed data.
+    if data.moments.minimum is not None and data.moments.maximum is not None:
+        lows, highs = data.moments.minimum.min(axis=0), data.moments.maximum.max(axis=0)
+    else:
+        lows, highs = column_range(data.values)
+    chosen: dict[int, tuple[int | float, int]] = {}
+    for col, lam in zip(idx, lam_of, strict=True):
+        ends = yeo_johnson(_raw(np.array([lows[col], highs[col]]), coords.locations[col], coords.exponents[col]), lam)
+        new = choose_coordinates([(float(ends[0]), float(ends[1]))]) if np.all(np.isfinite(ends)) else None
+        chosen[int(col)] = (new.locations[0], new.exponents[0]) if new is not None else (0, 0)
 
     def transformed(v: FloatArray) -> FloatArray:
         out = np.array(v, dtype=np.float64)
         for col, lam in zip(idx, lam_of, strict=True):
-            out[:, col] = yeo_johnson(v[:, col], lam)
+            t = yeo_johnson(_raw(v[:, col], coords.locations[col], coords.exponents[col]), lam)
+            location, exponent = chosen[int(col)]
+            if location:
+                t = t - float(location)
+            out[:, col] = np.ldexp(t, -exponent) if exponent else t
         return out
 
     values = transformed(data.values)
@@ -694,7 +745,9 @@ def _transform(data: AuditData, requested: tuple[tuple[str, float | None], ...])
             "A transform needs a pass over every row for exact moments, and this input was a one-shot iterable of "
             "chunks; pass a function returning the chunks instead."
         )
-    out = dataclasses.replace(data, values=values, moments=moments, all_rows=rows)
+    out = dataclasses.replace(
+        data, values=values, moments=moments, all_rows=rows, coordinates=_replace_coordinates(coords, chosen)
+    )
     record = {
         "transform": {
             "method": "Yeo-Johnson (Yeo & Johnson 2000, Biometrika 87:954-959)",

@@ -14,7 +14,8 @@ salt                value  stream
 ``NORMALITY``         4   normality subsamples of each class (spawned per class)
 ``LABEL_UNIFY``       7   merging classes whose labels arrived as text and as numbers
 ``LOGISTIC_CV``       8   row keys of the logistic subsample and folds (no key)
-``WHAT_IF_SAMPLE``    9   rows kept per class when a what-if caps the rows (key: class code)
+``PERFORMANCE_ROWS``  9   row keys of the rows scored by leave-one-out on large inputs
+``WHAT_IF_SAMPLE``    10  rows kept per class when a what-if caps the rows (key: class code)
 ==================  ====  ========================================================
 
 ``PARTITION_MERGE`` and ``OUTLIERS`` share a value but never a stream: the first always carries
@@ -33,7 +34,8 @@ OUTLIERS = 3
 NORMALITY = 4
 LABEL_UNIFY = 7
 LOGISTIC_CV = 8
-WHAT_IF_SAMPLE = 9
+PERFORMANCE_ROWS = 9
+WHAT_IF_SAMPLE = 10
 
 
 def _entropy(random_state: int | None, salt: int, key: tuple[int, ...]) -> list[int] | None:
