@@ -247,11 +247,12 @@ class Config:
     )
     remedy_rows_per_class: int = _threshold(
         500,
-        "Rows per class the checks that read rows see when a remedy is evaluated (a seeded sample of larger "
-        "classes; moments stay exact over every row, and the outlier check still scores every row).",
-        "design choice: keeps ranking the remedies within a fifth of the audit's time at every size measured "
-        "(benchmarks/bench_what_if.py); the row-reading statuses it predicts are exact when no class is larger, "
-        "estimates otherwise (Verdict.what_if gives the exact ones)",
+        "A remedy's effect includes the row-reading check it addresses (outliers, normality) only while every class "
+        "has at most this many rows (or twice the rows a robust fit needs, if more); larger data leave it to "
+        "Verdict.what_if. Also the rows per class held while the moment-based checks run, and the per-class sample "
+        "on which remedy_effects='performance' recomputes the predicted performance on larger data.",
+        "design choice: that check costs about what it costs in the audit, so this keeps ranking the remedies near a "
+        "fifth of the audit's time at every size measured (benchmarks/bench_what_if.py)",
     )
     severity: dict[str, str] = field(
         default_factory=dict,

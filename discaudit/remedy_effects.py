@@ -7,11 +7,10 @@ same checks:
 
 * the checks that read the moments only (:data:`MOMENT_CHECKS`) always: exact, and cheap (no pass
   over the rows);
-* the checks that read rows and that the remedy may alter (outliers and normality, for removing rows
-  or a transform), on every row or, for classes larger than ``Config.remedy_rows_per_class``, on a
-  seeded sample of them (moments stay exact);
-* a power transform only when normality still fails once the gross outliers are removed (when that
-  remedy is proposed too), since the skew of a few contaminated rows is not a shape to transform;
+* the check that reads rows and that the remedy addresses (outliers for removing rows, normality for a
+  transform) when every class holds at most ``Config.remedy_rows_per_class`` rows (at least twice the
+  rows a robust fit needs): then on every row, exactly. It costs about what it costs in the audit, so on
+  larger data it is left to ``Verdict.what_if`` and the effect says so;
 * with ``Config.remedy_effects = "performance"``, the ``expected_performance`` check on the changed data (on the
   same per-class sample, with its own moments, when classes are larger; the audit's figures are then
   recomputed on the same sample of the unchanged data, so before and after see the same rows), so the
@@ -36,7 +35,7 @@ from discaudit.decision import recommend
 from discaudit.decision.remedies import Effect, Proposal, Remedy, effect_of, propose, rank
 from discaudit.errors import DataError
 from discaudit.findings import Finding
-from discaudit.sources.what_if import Change, apply, estimate_transform, subsample
+from discaudit.sources.what_if import Change, apply, cap_rows, estimate_transform, subsample
 
 if TYPE_CHECKING:
     from discaudit.config import Config
@@ -68,21 +67,25 @@ def evaluate(
     proposals = propose(findings, config)[: config.remedy_candidates]
     if not proposals:
         return ()
-    proposals.sort(key=lambda p: p.action != "drop_rows")  # rows first: a transform may then be moot
     registry = dict(checks.registry())
-    cap = config.remedy_rows_per_class
-    capped = data.sample is not None or bool((data.moments.counts > cap).any())
+    # Rows per class held while the moment-based checks run (their row-reading parts, such as a Ledoit-Wolf
+    # intensity, do not enter their statuses): at least twice what a robust fit needs.
+    cap = max(config.remedy_rows_per_class, int(np.ceil(2 * config.robust_min_rows_per_feature * data.p)))
+    large = data.sample is not None or bool((data.moments.counts > cap).any())
     rows = (
-        f"the checks that read rows saw a seeded sample of {cap} rows per class (moments over every row)"
-        if capped
+        f"every row for the moment-based checks; the checks that read rows were left to verdict.what_if, since a "
+        f"class holds more than {cap} rows (Config.remedy_rows_per_class)"
+        if large
         else "every row"
     )
-    before = dict(findings)
-    before_model = recommended
     performance = (
         config.remedy_effects == "performance" and PERFORMANCE in registry and config.severity_of(PERFORMANCE) != "off"
     )
-    if performance and capped:
+    # On large data the predicted performance is found on a seeded sample of each class audited as data of
+    # its own, before (the unchanged data) and after (the changed data) alike, so like is compared with like.
+    before = dict(findings)
+    before_model = recommended
+    if performance and large:
         before[PERFORMANCE] = run_check(
             PERFORMANCE, registry[PERFORMANCE], subsample(data, cap, random_state), config, random_state
         )
@@ -91,9 +94,7 @@ def evaluate(
     effects: list[Effect] = []
     specs: list[str] = []
     for proposal in proposals:
-        if proposal.action == "transform" and _outliers_explain_shape(kept, effects):
-            continue
-        proposal = _fix_exponents(proposal, data)
+        proposal = _fix_exponents(proposal, cap_rows(data, cap, random_state))
         change = Change.of(**proposal.change)
         try:
             changed = apply(
@@ -105,16 +106,18 @@ def evaluate(
             )
         except (DataError, ValueError, ArithmeticError, np.linalg.LinAlgError):
             continue  # a change the data do not allow (e.g. it would empty a class) is not a remedy
-        keys = [
-            k for k in registry if (k in MOMENT_CHECKS or k in proposal.row_checks) and config.severity_of(k) != "off"
-        ]
+        on = [k for k in registry if config.severity_of(k) != "off"]
+        keys = [k for k in on if k in MOMENT_CHECKS]
+        # The row-reading check a remedy addresses costs about as much as in the audit: run it while every
+        # class is small enough to be held whole (then it is exact), else leave it to the what-if.
+        keys += [k for k in on if k in proposal.row_checks and not large]
         after = dict(findings)
         for k in keys:
             after[k] = run_check(k, registry[k], changed, config, random_state)
         model_after = None
         if performance:
-            target = subsample(changed, cap, random_state) if capped else changed
-            after[PERFORMANCE] = run_check(PERFORMANCE, registry[PERFORMANCE], target, config, random_state)
+            sample = subsample(changed, cap, random_state) if large else changed
+            after[PERFORMANCE] = run_check(PERFORMANCE, registry[PERFORMANCE], sample, config, random_state)
             keys.append(PERFORMANCE)
             model_after = recommend(after, config).model
         kept.append(proposal)
@@ -123,18 +126,10 @@ def evaluate(
     return rank(kept, effects, specs)
 
 
-def _outliers_explain_shape(proposals: list[Proposal], effects: list[Effect]) -> bool:
-    """Whether removing the gross outliers, evaluated already, stops the normality check failing: a power
-    transform is then not proposed (the skew came from those rows)."""
-    return any(
-        p.action == "drop_rows" and e.statuses.get("normality", ("fail", "fail"))[1] in ("pass", "warn")
-        for p, e in zip(proposals, effects, strict=True)
-    )
-
-
 def _fix_exponents(proposal: Proposal, data: AuditData) -> Proposal:
-    """A transform with its exponents estimated once, on the rows the source holds, so that
-    ``Verdict.what_if(**remedy.change)`` reproduces the change exactly."""
+    """A transform with its exponents estimated once, on the rows ``data`` holds (at most
+    ``Config.remedy_rows_per_class`` per class), so that ``Verdict.what_if(**remedy.change)`` reproduces the
+    change exactly."""
     names = proposal.change.get("transform")
     if proposal.action != "transform" or not isinstance(names, list):
         return proposal

@@ -190,6 +190,7 @@ def test_streamed_what_if_matches_a_fresh_streamed_audit_on_the_moment_checks() 
         ({"drop_features": ["e"]}, frame.drop(columns=["e"]), 1e-12),
         ({"merge_classes": ["u", "w"]}, frame.assign(k=frame.k.replace({"u": "u+w", "w": "u+w"})), 1e-6),
         ({"drop_rows": [5, 77, 4000]}, frame.drop(index=[5, 77, 4000]), 1e-6),
+        ({"transform": {"c": 0.7}}, frame.assign(c=sps.yeojohnson(frame["c"].to_numpy(), 0.7)), 1e-6),
     ]
     for change, changed, rtol in cases:
         w, f = verdict.what_if(**change), preflight_chunks(chunks(changed), "k", config=config)
@@ -370,3 +371,21 @@ def test_what_if_keeps_the_audit_coordinates_of_offset_and_tiny_features() -> No
     assert {k: x.status for k, x in w.findings.items()} == {k: x.status for k, x in f.findings.items()}
     for key in MOMENT_CHECKS + ("outliers", "normality", "separation"):
         assert not _mismatches(w.findings[key].to_dict(), f.findings[key].to_dict(), (key,)), key
+
+
+def test_a_transform_with_capped_rows_updates_the_moments_of_its_columns_exactly(audited) -> None:
+    # With rows capped (as the remedy ranking does), the transformed columns' moments come from two passes
+    # that touch those columns only; they must equal the moments of every transformed row.
+    X, y, _ = audited["breast_cancer"]
+    data = load(X, y, config=discaudit.Config())
+    lambdas = {"area error": -0.4, "mean concavity": 0.3}
+    changed = apply(data, Change.of(transform=lambdas), rows_per_class=50)
+    assert changed.n == 100  # the rows held were capped
+    Xt = X.copy()
+    for c, lam in lambdas.items():
+        Xt[c] = sps.yeojohnson(X[c].to_numpy(), lam)
+    ref = ClassMoments.from_arrays(Xt.to_numpy(), data.codes, data.classes)
+    np.testing.assert_allclose(changed.moments.means, ref.means, rtol=1e-12, atol=1e-15)
+    np.testing.assert_allclose(changed.moments.scatter, ref.scatter, rtol=1e-10, atol=1e-12 * np.abs(ref.scatter).max())
+    np.testing.assert_array_equal(changed.moments.minimum, ref.minimum)
+    np.testing.assert_array_equal(changed.moments.maximum, ref.maximum)

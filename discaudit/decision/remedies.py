@@ -7,7 +7,8 @@ Three steps, each reading finished findings only:
   removal plan, computed from the moments), standardize (scale disparity), remove gross outliers
   (only when the outliers check judged the flagged rows influential), merge classes whose means the
   data cannot tell apart (pairwise Hotelling tests of the discriminant signal check), and a
-  Yeo-Johnson transform of strongly skewed features (the one change that needs a pass over the rows).
+  Yeo-Johnson transform of strongly skewed features (the one change that needs a pass over the rows;
+  not proposed beside the removal of gross outliers, whose few rows alone can make a class look skewed).
 * The core audits each proposal "what if" (:mod:`discaudit.remedy_effects`) and hands back the
   findings of the changed data.
 * :func:`rank` compares those findings with the audit's and orders the remedies: first those that
@@ -197,9 +198,19 @@ class Remedy:
         return self.addresses in self.effect.clears
 
     @property
+    def addressed_evaluated(self) -> bool:
+        """Whether the finding it addresses was re-evaluated on the changed data (see ``effect.rows``)."""
+        return self.addresses in self.effect.evaluated
+
+    @property
     def helps(self) -> bool:
-        """Whether it is predicted to help: it clears what it addresses, or improves a status and worsens none."""
-        return self.clears_addressed or (bool(self.effect.clears) and not self.effect.worsens)
+        """Whether it is predicted to help: it clears what it addresses; or that was not re-evaluated (left to
+        ``Verdict.what_if``) and it worsens nothing; or it improves some status and worsens none."""
+        if self.clears_addressed:
+            return True
+        if not self.addressed_evaluated:
+            return not self.effect.worsens
+        return bool(self.effect.clears) and not self.effect.worsens
 
     def to_dict(self) -> dict[str, Any]:
         out: dict[str, Any] = plain(
@@ -213,6 +224,7 @@ class Remedy:
                 "reason": self.reason,
                 "needs_row_pass": self.needs_row_pass,
                 "helps": self.helps,
+                "addressed_evaluated": self.addressed_evaluated,
                 "effect": self.effect.to_dict(),
             }
         )
@@ -234,8 +246,13 @@ def propose(findings: Findings, config: Config) -> list[Proposal]:
     out: list[Proposal] = []
     for make in (_drop_outliers, _drop_collinear, _standardize, _transform_skewed):
         proposal = make(findings, config)
-        if proposal is not None:
-            out.append(proposal)
+        if proposal is None:
+            continue
+        # A few gross outliers make a class look skewed; the skew that is the class's own shape shows once they
+        # are gone (audit the data without them again), so a transform is proposed only when none is removed.
+        if proposal.action == "transform" and any(p.action == "drop_rows" for p in out):
+            continue
+        out.append(proposal)
     out += _merge_indistinct(findings)
     severity = {p.addresses: STATUS_RANK.get(status(findings, p.addresses), 0) for p in out}
     return sorted(out, key=lambda p: (-severity[p.addresses], _KIND_ORDER.index(p.action)))
@@ -362,7 +379,7 @@ def _drop_outliers(findings: Findings, config: Config) -> Proposal | None:
         + (f" and inflate the pooled covariance (log-det excess {fmt(excess)} per feature)" if excess else "")
         + f" ({findings['outliers'].figure}).",
         cost=len(rows) / max(int(n_total), 1),
-        row_checks=("outliers", "normality"),
+        row_checks=("outliers",),
     )
 
 
@@ -387,7 +404,7 @@ def _transform_skewed(findings: Findings, config: Config) -> Proposal | None:
         description=f"Apply a Yeo-Johnson power transform (Yeo & Johnson 2000) to {names(chosen)}, exponents by "
         "maximum likelihood within classes; the one remedy that needs a pass over the rows.",
         reason=f"Strongly skewed within a class: {listing} (rule: |skewness| > {fmt(config.skew_large)}).",
-        row_checks=("normality", "outliers"),
+        row_checks=("normality",),
     )
 
 

@@ -88,6 +88,8 @@ def _remedy_row(remedy: Any) -> RemedyRow:
     """The words of one remedy: what to do, what it addresses, the statuses it is predicted to change."""
     effect = remedy.effect
     changes = [f"{k} {a.upper()} -> {b.upper()}" for k, (a, b) in effect.changed.items()]
+    if not remedy.addressed_evaluated:
+        changes.insert(0, f"{remedy.addresses} not re-evaluated here (large data: --what-if re-audits it)")
     accuracy = None
     if effect.accuracy is not None:
         acc = effect.accuracy

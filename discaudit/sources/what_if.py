@@ -15,8 +15,9 @@ change              how the moments are updated
 ``merge_classes``   the classes' moments are merged exactly (``ClassMoments.merge``)
 ``transform``       Yeo-Johnson (Yeo & Johnson 2000) of the named features, exponents by maximum
                     likelihood on the rows held (all rows in memory, the per-class sample when the
-                    source is sampled); the moments need **one pass over the rows**, the only
-                    change that does
+                    source is sampled); the moments need **a pass over the rows** (recomputed from
+                    the rows in memory; else the transformed columns' moments in two passes, O(n p t)),
+                    the only change that does
 ``standardize``     the moments are rescaled: centre and scale of a StandardScaler (total mean,
                     total standard deviation with divisor N), from the moments
 ==================  =========================================================================
@@ -49,7 +50,6 @@ from discaudit.errors import DataError
 from discaudit.jsonable import label
 from discaudit.sources.screening import check_magnitude, choose_coordinates, column_range, distinct_values
 from discaudit.stats._inputs import ordered_unique
-from discaudit.stats.blocks import ROW_BLOCK, block_starts
 from discaudit.stats.moments import ClassMoments
 from discaudit.stats.seeds import WHAT_IF_SAMPLE, stream_rng
 from discaudit.stats.yeo_johnson import yeo_johnson, yeo_johnson_lambda
@@ -57,7 +57,7 @@ from discaudit.stats.yeo_johnson import yeo_johnson, yeo_johnson_lambda
 FloatArray = npt.NDArray[np.float64]
 T = TypeVar("T")
 
-__all__ = ["ORDER", "Change", "apply", "estimate_transform", "subsample"]
+__all__ = ["ORDER", "Change", "apply", "cap_rows", "estimate_transform", "subsample"]
 
 #: The order in which the parts of a change are applied.
 ORDER = ("drop_rows", "drop_features", "merge_classes", "transform", "standardize")
@@ -342,41 +342,68 @@ def _label_candidates(requested: Iterable[Any]) -> list[Any]:
 
 @dataclass(frozen=True)
 class _Collected:
-    """Rows found in a pass (values, codes, labels) and the per-class ranges of the rows not found."""
+    """Rows found in a pass: their values, codes and labels."""
 
     values: FloatArray
     codes: npt.NDArray[np.intp]
     labels: list[Any]
-    low: FloatArray
-    high: FloatArray
 
     def __add__(self, other: _Collected) -> _Collected:
         return _Collected(
             np.vstack([self.values, other.values]),
             np.concatenate([self.codes, other.codes]),
             self.labels + other.labels,
-            np.minimum(self.low, other.low),
-            np.maximum(self.high, other.high),
         )
 
 
-def _class_ranges(values: FloatArray, codes: npt.NDArray[np.intp], K: int) -> tuple[FloatArray, FloatArray]:
-    """Per-class minimum and maximum of each column (+inf and -inf for a class without rows), block by block."""
-    p = values.shape[1]
-    low, high = np.full((K, p), np.inf), np.full((K, p), -np.inf)
-    for a in block_starts(values.shape[0]):
-        block, c = values[a : a + ROW_BLOCK], codes[a : a + ROW_BLOCK]
-        for k in np.unique(c):
-            part = np.compress(c == k, block, axis=0)
-            np.minimum(low[k], part.min(axis=0), out=low[k])
-            np.maximum(high[k], part.max(axis=0), out=high[k])
-    return low, high
-
-
-def _collect(candidates: list[Any], K: int, block: RowBlock) -> _Collected:
+def _collect(candidates: list[Any], block: RowBlock) -> _Collected:
     hit = np.asarray(block.row_labels.isin(candidates), dtype=bool)
-    low, high = _class_ranges(block.values[~hit], block.codes[~hit], K)
-    return _Collected(block.values[hit], block.codes[hit], list(block.row_labels[hit]), low, high)
+    return _Collected(block.values[hit], block.codes[hit], list(block.row_labels[hit]))
+
+
+@dataclass(frozen=True)
+class _Ranges:
+    """Per-class minimum and maximum of some columns over some rows (+inf and -inf where none)."""
+
+    low: FloatArray
+    high: FloatArray
+
+    def __add__(self, other: _Ranges) -> _Ranges:
+        return _Ranges(np.minimum(self.low, other.low), np.maximum(self.high, other.high))
+
+
+def _kept_ranges(candidates: list[Any], K: int, columns: npt.NDArray[np.intp], block: RowBlock) -> _Ranges:
+    """Per-class ranges of ``columns`` over the rows of a block that are not dropped."""
+    keep = ~np.asarray(block.row_labels.isin(candidates), dtype=bool)
+    values, codes = block.values[keep][:, columns], block.codes[keep]
+    low, high = np.full((K, columns.size), np.inf), np.full((K, columns.size), -np.inf)
+    for k in np.unique(codes):
+        part = values[codes == k]
+        low[k], high[k] = part.min(axis=0), part.max(axis=0)
+    return _Ranges(low, high)
+
+
+def _ranges_after(data: AuditData, removed: _Collected, candidates: list[Any]) -> tuple[FloatArray, FloatArray]:
+    """Per-class ranges of the rows kept: those before, except where a removed row held an extreme.
+
+    Only the columns where a removed row equals its class's minimum or maximum can change; their
+    ranges are found again over the rows kept (from the rows held in memory, else in one more pass).
+    """
+    m = data.moments
+    assert m.minimum is not None and m.maximum is not None
+    low, high = m.minimum.copy(), m.maximum.copy()
+    at_edge = (removed.values == m.minimum[removed.codes]) | (removed.values == m.maximum[removed.codes])
+    columns = np.flatnonzero(at_edge.any(axis=0))
+    if columns.size == 0:
+        return low, high
+    K = len(data.classes)
+    if data.sample is None:
+        found = _kept_ranges(candidates, K, columns, RowBlock(data.values, data.codes, data.row_labels))
+    else:
+        assert data.all_rows is not None
+        found = data.all_rows.map_reduce(lambda b: _kept_ranges(candidates, K, columns, b), lambda a, b: a + b)
+    low[:, columns], high[:, columns] = found.low, found.high
+    return low, high
 
 
 #: A downdated variance below this share of the variance before is dominated by rounding (the
@@ -400,15 +427,16 @@ def _drop_rows(data: AuditData, requested: tuple[Any, ...], few_distinct: int) -
             "pass a function returning the chunks instead."
         )
     candidates = _label_candidates(requested)
-    K = len(data.classes)
-    found = data.all_rows.map_reduce(lambda b: _collect(candidates, K, b), lambda a, b: a + b)
+    found = data.all_rows.map_reduce(lambda b: _collect(candidates, b), lambda a, b: a + b)
     seen = {str(label(v)) for v in found.labels}
     missing = [r for r in requested if str(label(r)) not in seen]
     if missing:
         raise DataError(f"Rows {_shown(missing)} are not among the audited rows; check the row labels (the index).")
     removed = ClassMoments.from_arrays(found.values, found.codes, data.classes)
-    ranged = data.moments.minimum is not None
-    moments = data.moments.downdate(removed, found.low if ranged else None, found.high if ranged else None)
+    if data.moments.minimum is not None and data.moments.maximum is not None:
+        moments = data.moments.downdate(removed, *_ranges_after(data, found, candidates))
+    else:
+        moments = data.moments.downdate(removed)
     held = np.asarray(data.row_labels.isin(candidates), dtype=bool)
     keep = ~held
     values = np.ascontiguousarray(data.values[keep])
@@ -657,12 +685,80 @@ def _standardize(data: AuditData, which: tuple[str, ...] | bool) -> tuple[AuditD
     return out, record
 
 
-def _moments_pass(rows: RowPass, classes: tuple[Any, ...]) -> ClassMoments:
-    """Exact per-class moments over every row of a pass (blocks merged exactly)."""
-    moments: ClassMoments = rows.map_reduce(
-        lambda b: ClassMoments.from_arrays(b.values, b.codes, classes), lambda a, b: a.merge(b)
-    )
-    return moments
+@dataclass(frozen=True)
+class _ColumnSums:
+    """Per-class sums and ranges of some columns over some rows."""
+
+    sums: FloatArray
+    low: FloatArray
+    high: FloatArray
+
+    def __add__(self, other: _ColumnSums) -> _ColumnSums:
+        return _ColumnSums(self.sums + other.sums, np.minimum(self.low, other.low), np.maximum(self.high, other.high))
+
+
+@dataclass(frozen=True)
+class _CrossSums:
+    """Per-class sums of (new columns - their means)(all columns - their means)' and of the deviations."""
+
+    cross: FloatArray
+    dev_new: FloatArray
+    dev_all: FloatArray
+
+    def __add__(self, other: _CrossSums) -> _CrossSums:
+        return _CrossSums(self.cross + other.cross, self.dev_new + other.dev_new, self.dev_all + other.dev_all)
+
+
+def _replace_columns(rows: RowPass, old: ClassMoments, columns: npt.NDArray[np.intp]) -> ClassMoments:
+    """The moments after the values of ``columns`` changed, from two passes that touch those columns only.
+
+    Every row and column of the means and scatter that does not involve ``columns`` is unchanged; the rest is
+    found about the new class means (two passes, with the first-order correction of the two-pass formula),
+    O(n p t) for t changed columns instead of the O(n p^2) of recomputing all moments.
+    """
+    K, t = old.n_classes, columns.size
+    n = np.maximum(old.counts, 1).astype(np.float64)
+
+    def sums(b: RowBlock) -> _ColumnSums:
+        low, high = np.full((K, t), np.inf), np.full((K, t), -np.inf)
+        out = np.zeros((K, t))
+        v = b.values[:, columns]
+        for k in np.unique(b.codes):
+            part = v[b.codes == k]
+            out[k], low[k], high[k] = part.sum(axis=0), part.min(axis=0), part.max(axis=0)
+        return _ColumnSums(out, low, high)
+
+    first = rows.map_reduce(sums, lambda a, b: a + b)
+    means = old.means.copy()
+    means[:, columns] = first.sums / n[:, None]
+
+    def cross(b: RowBlock) -> _CrossSums:
+        out = np.zeros((K, t, old.n_features))
+        dev_new, dev_all = np.zeros((K, t)), np.zeros((K, old.n_features))
+        for k in np.unique(b.codes):
+            d = b.values[b.codes == k] - means[k]
+            out[k] = d[:, columns].T @ d
+            dev_new[k], dev_all[k] = d[:, columns].sum(axis=0), d.sum(axis=0)
+        return _CrossSums(out, dev_new, dev_all)
+
+    second = rows.map_reduce(cross, lambda a, b: a + b)
+    block = second.cross - second.dev_new[:, :, None] * second.dev_all[:, None, :] / n[:, None, None]
+    scatter = old.scatter.copy()
+    scatter[:, columns, :] = block
+    scatter[:, :, columns] = block.transpose(0, 2, 1)
+    scatter[:, columns[:, None], columns[None, :]] = (
+        block[:, :, columns] + block[:, :, columns].transpose(0, 2, 1)
+    ) / 2
+    low = high = None
+    if old.minimum is not None and old.maximum is not None:
+        low, high = old.minimum.copy(), old.maximum.copy()
+        low[:, columns], high[:, columns] = first.low, first.high
+        flat = (low[:, columns] == high[:, columns]) & (old.counts[:, None] > 0)  # constant in a class: exact
+        for k, j in zip(*np.nonzero(flat), strict=True):
+            col = columns[j]
+            means[k, col] = low[k, col]
+            scatter[k, col, :] = scatter[k, :, col] = 0.0
+    return ClassMoments(old.classes, old.counts, means, scatter, low, high)
 
 
 def estimate_transform(data: AuditData, features: Iterable[str]) -> dict[str, float]:
@@ -738,8 +834,8 @@ def _transform(data: AuditData, requested: tuple[tuple[str, float | None], ...])
         moments = ClassMoments.from_arrays(values, data.codes, data.classes)
         pass_note = "moments recomputed from every row (held in memory)"
     elif rows is not None:
-        moments = _moments_pass(rows, data.classes)
-        pass_note = "moments recomputed in one pass over every row of the input"
+        moments = _replace_columns(rows, data.moments, idx)
+        pass_note = "moments of the transformed columns recomputed in two passes over every row of the input"
     else:
         raise DataError(
             "A transform needs a pass over every row for exact moments, and this input was a one-shot iterable of "
@@ -859,6 +955,12 @@ def _cap_rows(data: AuditData, rows_per_class: int, random_state: int | None) ->
         sample=sample,
         all_rows=rows_pass,
     )
+
+
+def cap_rows(data: AuditData, rows_per_class: int, random_state: int | None) -> AuditData:
+    """The data holding at most ``rows_per_class`` rows per class (a seeded sample, in row order); the moments
+    and the row pass still cover every row (the data itself when no class holds more)."""
+    return _cap_rows(data, rows_per_class, random_state)
 
 
 def subsample(data: AuditData, rows_per_class: int, random_state: int | None) -> AuditData:
