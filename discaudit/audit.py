@@ -102,8 +102,10 @@ def _assemble(
     recommendation = recommend(findings, config)
     start = time.perf_counter()
     try:
-        with one_blas_thread():
+        with one_blas_thread(), recorded_warnings() as caught:  # the checks it re-runs record their own
             remedies = remedy_effects.evaluate(findings, recommendation.model, data, config, random_state, _run_check)
+        if caught:
+            meta["remedies_warnings"] = sorted(set(caught))
     except Exception as exc:  # remedies are advice: a failure to find them never costs the verdict
         remedies = ()
         meta["remedies_error"] = f"{type(exc).__name__}: {exc}"

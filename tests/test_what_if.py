@@ -230,6 +230,8 @@ def test_dropping_rows_downdates_the_moments_exactly(audited) -> None:
     np.testing.assert_array_equal(changed.moments.counts, ref.counts)
     np.testing.assert_allclose(changed.moments.means, ref.means, rtol=1e-13)
     np.testing.assert_allclose(changed.moments.scatter, ref.scatter, rtol=1e-11, atol=1e-10 * np.abs(ref.scatter).max())
+    np.testing.assert_array_equal(changed.moments.minimum, ref.minimum)  # ranges of the rows kept
+    np.testing.assert_array_equal(changed.moments.maximum, ref.maximum)
     assert changed.record.n_rows_input == len(X) - len(rows)
     assert list(changed.row_labels) == list(X.index[kept])
 

@@ -86,10 +86,11 @@ def pairwise_hotelling(moments: ClassMoments) -> PairwiseHotellingResult:
         L = linalg.cholesky(moments.pooled_covariance, lower=True, check_finite=False)
     except linalg.LinAlgError:
         raise DataError("The pooled within-class covariance is singular; pairwise distances are undefined.") from None
-    # Whitened means: D^2 between i and j is the squared distance between rows i and j.
-    z = linalg.solve_triangular(L, moments.means.T, lower=True, check_finite=False).T
     pairs = tuple((i, j) for i in range(K) for j in range(i + 1, K))
-    d2 = np.array([float(np.sum((z[i] - z[j]) ** 2)) for i, j in pairs])
+    # Differences of the means first (they do not depend on where the features are centred), then whitened.
+    diffs = np.array([moments.means[i] - moments.means[j] for i, j in pairs]).reshape(len(pairs), p)
+    z = linalg.solve_triangular(L, diffs.T, lower=True, check_finite=False)
+    d2 = np.einsum("ij,ij->j", z, z)
     t2 = np.array([counts[i] * counts[j] / (counts[i] + counts[j]) for i, j in pairs]) * d2
     df1, df2 = float(p), nu - p + 1.0
     f = t2 * df2 / (nu * p)

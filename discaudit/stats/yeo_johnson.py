@@ -36,6 +36,10 @@ FloatArray = npt.NDArray[np.float64]
 #: a (-2, 2) bracket outwards.
 LAMBDA_BOUNDS = (-12.0, 12.0)
 _EXACT = 1e-12
+#: Transformed values beyond this magnitude would overflow when squared: such exponents are ruled out.
+_LARGEST = 1e150
+#: The score of an exponent ruled out: finite, so the optimizer's arithmetic stays finite (no warnings).
+_PENALTY = 1e300
 
 
 def yeo_johnson(x: npt.ArrayLike, lmbda: float) -> FloatArray:
@@ -47,14 +51,15 @@ def yeo_johnson(x: npt.ArrayLike, lmbda: float) -> FloatArray:
     out = np.empty_like(x)
     pos = x >= 0
     xp, xn = x[pos], x[~pos]
-    if abs(lmbda) < _EXACT:
-        out[pos] = np.log1p(xp)
-    else:
-        out[pos] = np.expm1(lmbda * np.log1p(xp)) / lmbda
-    if abs(lmbda - 2.0) < _EXACT:
-        out[~pos] = -np.log1p(-xn)
-    else:
-        out[~pos] = -np.expm1((2.0 - lmbda) * np.log1p(-xn)) / (2.0 - lmbda)
+    with np.errstate(over="ignore"):  # beyond float64 the transform is inf, which callers test for
+        if abs(lmbda) < _EXACT:
+            out[pos] = np.log1p(xp)
+        else:
+            out[pos] = np.expm1(lmbda * np.log1p(xp)) / lmbda
+        if abs(lmbda - 2.0) < _EXACT:
+            out[~pos] = -np.log1p(-xn)
+        else:
+            out[~pos] = -np.expm1((2.0 - lmbda) * np.log1p(-xn)) / (2.0 - lmbda)
     return out
 
 
@@ -85,8 +90,8 @@ class YeoJohnsonFit:
 
 def _log_likelihood(x: FloatArray, codes: npt.NDArray[np.intp] | None, jacobian: float, lmbda: float) -> float:
     t = yeo_johnson(x, lmbda)
-    if not np.all(np.isfinite(t)):
-        return -np.inf
+    if not np.all(np.isfinite(t)) or not np.all(np.abs(t) < _LARGEST):
+        return -_PENALTY
     if codes is None:
         resid = t - t.mean()
     else:
@@ -94,8 +99,8 @@ def _log_likelihood(x: FloatArray, codes: npt.NDArray[np.intp] | None, jacobian:
         counts = np.bincount(codes)
         resid = t - (sums / np.maximum(counts, 1))[codes]
     var = float(np.mean(resid * resid))
-    if not var > 0:
-        return -np.inf
+    if not 0 < var < np.inf:
+        return -_PENALTY
     return float(-0.5 * x.size * np.log(var) + (lmbda - 1.0) * jacobian)
 
 
@@ -123,7 +128,7 @@ def yeo_johnson_lambda(x: npt.ArrayLike, codes: npt.ArrayLike | None = None) -> 
     Notes
     -----
     Bounded Brent search over :data:`LAMBDA_BOUNDS` (``scipy.optimize.minimize_scalar``, absolute
-    tolerance 1e-8); exponents at which the transform overflows score minus infinity.
+    tolerance 1e-8); exponents at which the transform overflows (or its squares would) are ruled out.
 
     References
     ----------
@@ -137,7 +142,7 @@ def yeo_johnson_lambda(x: npt.ArrayLike, codes: npt.ArrayLike | None = None) -> 
     if c is not None and c.size != values.size:
         raise DataError(f"codes has {c.size} entries for {values.size} values; they must match.")
     jacobian = float(np.sum(np.sign(values) * np.log1p(np.abs(values))))
-    if not np.isfinite(_log_likelihood(values, c, jacobian, 1.0)):
+    if not _log_likelihood(values, c, jacobian, 1.0) > -_PENALTY:
         raise DataError("The values do not vary, so no Yeo-Johnson exponent can be estimated.")
     result = optimize.minimize_scalar(
         lambda lam: -_log_likelihood(values, c, jacobian, float(lam)),
