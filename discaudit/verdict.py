@@ -95,7 +95,11 @@ class Verdict:
         of the data can answer.
     data : AuditData or None
         The validated data the verdict was computed from (moments, rows or a sample, a row pass),
-        kept for :meth:`what_if`; not part of the JSON.
+        kept for :meth:`what_if`; not part of the JSON. It holds the rows the audit held (for an
+        array given in memory, a read-only view of it), so a kept verdict keeps them alive.
+    rerun : callable or None
+        How :meth:`what_if` audits changed data: the audit's own settings and seed, bound by
+        ``discaudit.audit`` (None for a verdict built without its data).
     """
 
     findings: Mapping[str, Finding]
