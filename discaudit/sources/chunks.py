@@ -131,14 +131,45 @@ def summarize(
         frame = frame[list(features)]
     with np.errstate(invalid="ignore"):
         values = np.ascontiguousarray(frame.to_numpy(dtype=np.float64, na_value=np.nan))
-    screen = screen_missing(values, labels, frame.index)
+    return summarize_values(
+        values,
+        labels,
+        tuple(str(c) for c in frame.columns),
+        config,
+        capacity,
+        rng,
+        non_numeric=tuple(non_numeric),
+        n_features_input=n_features_input,
+    )
+
+
+def summarize_values(
+    values: FloatArray,
+    labels: pd.Series,
+    features: tuple[str, ...],
+    config: Config,
+    capacity: int,
+    rng: np.random.Generator,
+    *,
+    non_numeric: tuple[str, ...] = (),
+    n_features_input: int | None = None,
+) -> ChunkSummary:
+    """Summarize rows already read as a float array (``labels`` indexed by the rows' labels).
+
+    What :func:`summarize` does after it has split and converted a pandas chunk; sources that
+    read columns straight into arrays (Arrow batches, Polars frames) call it without building a
+    DataFrame.
+    """
+    index = labels.index
+    screen = screen_missing(values, labels, index)
     dropped = labels[screen.bad_rows & ~screen.missing_label].value_counts().to_dict()
     keep = screen.keep
-    values, labels, index = values[keep], labels[keep], frame.index[keep]
+    n_rows_input = values.shape[0]
+    values, labels, index = values[keep], labels[keep], index[keep]
     codes, class_list = label_codes(labels)
     classes = tuple(class_list)
     col_min, col_max = column_range(values)
-    check_magnitude(np.maximum(-col_min, col_max), list(frame.columns))  # before any square is formed
+    check_magnitude(np.maximum(-col_min, col_max), list(features))  # before any square is formed
     moments = ClassMoments.from_arrays(values, codes, classes)
     row_labels = np.asarray(index, dtype=object)
     reservoirs = {
@@ -146,7 +177,7 @@ def summarize(
     }
     limit = config.few_distinct_values
     return ChunkSummary(
-        features=tuple(str(c) for c in frame.columns),
+        features=features,
         moments=moments,
         reservoirs=reservoirs,
         col_min=col_min,
@@ -156,10 +187,10 @@ def summarize(
         first_missing_row=screen.first_bad_row,
         missing_labels=int(screen.missing_label.sum()),
         dropped_per_class={label(k): int(v) for k, v in dropped.items()},
-        non_numeric=tuple(non_numeric),
+        non_numeric=non_numeric,
         same_as=identical_columns(values),
-        n_rows_input=len(chunk),
-        n_features_input=n_features_input,
+        n_rows_input=n_rows_input,
+        n_features_input=len(features) if n_features_input is None else n_features_input,
         capacity=capacity,
         distinct_limit=limit,
     )
@@ -330,15 +361,18 @@ class BlockSpec:
     def block(self, chunk: pd.DataFrame) -> RowBlock:
         with np.errstate(invalid="ignore"):
             values = np.ascontiguousarray(chunk[list(self.columns)].to_numpy(dtype=np.float64, na_value=np.nan))
-        labels = chunk[self.target]
-        screen = screen_missing(values, labels, chunk.index)
+        return self.block_values(values, chunk[self.target])
+
+    def block_values(self, values: FloatArray, labels: pd.Series) -> RowBlock:
+        """The same for rows already read as floats in ``columns`` order (labels indexed by row label)."""
+        screen = screen_missing(values, labels, labels.index)
         raw = labels.to_numpy(dtype=object)
         codes = np.array(
             [self.codes.get(str(v) if self.text_labels else v, -1) if ok else -1 for v, ok in zip(raw, screen.keep)],
             dtype=np.intp,
         )
         rows = np.flatnonzero(codes >= 0)
-        return RowBlock(np.ascontiguousarray(values[np.ix_(rows, self.kept)]), codes[rows], chunk.index[rows])
+        return RowBlock(np.ascontiguousarray(values[np.ix_(rows, self.kept)]), codes[rows], labels.index[rows])
 
 
 def block_spec(summary: ChunkSummary, data: AuditData, target: str) -> BlockSpec:
