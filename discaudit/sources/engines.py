@@ -47,11 +47,12 @@ from discaudit.config import Config
 from discaudit.dataset import AuditData, RowBlock, RowPass
 from discaudit.errors import DataError
 from discaudit.jsonable import label
-from discaudit.sources.chunks import ChunkSummary, Reservoir, merge, summarize_values, to_audit_data
+from discaudit.sources.chunks import ChunkSummary, Reservoir, to_audit_data
 from discaudit.sources.frame_schema import FrameColumns, judge_columns
+from discaudit.sources.frames import summarize_batches
 from discaudit.sources.screening import check_magnitude, identical_columns, raise_for_missing
 from discaudit.stats.moments import ClassMoments
-from discaudit.stats.seeds import CHUNK_MERGE, CHUNK_SAMPLE, ENGINE_SAMPLE, stream_rng
+from discaudit.stats.seeds import ENGINE_SAMPLE, stream_rng
 
 FloatArray = npt.NDArray[np.float64]
 T = TypeVar("T")
@@ -117,23 +118,11 @@ class _LocalEngine:
         return StreamedRows(lambda: self.batches(native), features)
 
     def summaries(self, native: Any, target: str, columns: FrameColumns, config: Config, seed: int | None) -> Any:
-        total: ChunkSummary | None = None
-        for i, batch in enumerate(self.batches(native)):
-            values, labels = _batch_values(batch, columns.features, target)
-            part = summarize_values(
-                values,
-                labels,
-                columns.features,
-                config,
-                config.sample_rows_per_class,
-                stream_rng(seed, CHUNK_SAMPLE, i),
-                non_numeric=columns.non_numeric,
-                n_features_input=columns.n_features_input,
-            )
-            total = part if total is None else merge(total, part, stream_rng(seed, CHUNK_MERGE, i))
-        if total is None:
-            raise DataError(f"The {self.name} input has no rows.")
-        return total
+        def batches() -> Iterator[tuple[FloatArray, pd.Series]]:
+            for batch in self.batches(native):
+                yield _batch_values(batch, columns.features, target)
+
+        return summarize_batches(batches, columns, config, seed)
 
 
 class _PolarsLazy(_LocalEngine):
@@ -211,7 +200,7 @@ def engine_for(native: Any, implementation: str, label_column: str | None) -> En
 
 def _batch_values(batch: Any, features: tuple[str, ...], target: str) -> tuple[FloatArray, pd.Series]:
     """Features (float64, nulls as NaN) and labels (indexed by :data:`ROW`) of one Arrow batch."""
-    values = _float_block(batch, features)
+    values = float_block(batch, features)
     index = pd.Index(_column(batch, ROW).to_numpy(zero_copy_only=False))
     labels = pd.Series(np.asarray(_column(batch, target).to_pylist(), dtype=object), index=index, name=target)
     return values, labels
@@ -221,16 +210,18 @@ def _column(batch: Any, name: str) -> Any:
     return batch.column(batch.schema.get_field_index(name))
 
 
-def _float_block(batch: Any, features: tuple[str, ...]) -> FloatArray:
+def float_block(batch: Any, features: tuple[str, ...]) -> FloatArray:
     import pyarrow as pa
     import pyarrow.compute as pc
 
     out = np.empty((batch.num_rows, len(features)), dtype=np.float64)
     for j, name in enumerate(features):
         column = pc.cast(_column(batch, name), pa.float64())
-        out[:, j] = column.to_numpy(zero_copy_only=False) if column.null_count == 0 else pc.fill_null(
-            column, np.nan
-        ).to_numpy(zero_copy_only=False)
+        out[:, j] = (
+            column.to_numpy(zero_copy_only=False)
+            if column.null_count == 0
+            else pc.fill_null(column, np.nan).to_numpy(zero_copy_only=False)
+        )
     return out
 
 
@@ -238,7 +229,7 @@ def block_of(batch: Any, features: tuple[str, ...]) -> RowBlock:
     """A :class:`RowBlock` from a batch of audited rows (columns ROW, CODE, then ``features``)."""
     codes = np.asarray(_column(batch, CODE).to_numpy(zero_copy_only=False), dtype=np.intp)
     index = pd.Index(_column(batch, ROW).to_numpy(zero_copy_only=False))
-    return RowBlock(_float_block(batch, features), codes, index)
+    return RowBlock(float_block(batch, features), codes, index)
 
 
 @dataclass(frozen=True)
@@ -409,7 +400,9 @@ def _sample(
     return reservoirs
 
 
-def _distinct(frame: Any, e: _Exprs, sample: FloatArray, limit: int, whole: bool) -> tuple[frozenset[float] | None, ...]:
+def _distinct(
+    frame: Any, e: _Exprs, sample: FloatArray, limit: int, whole: bool
+) -> tuple[frozenset[float] | None, ...]:
     """Distinct values of each column when at most ``limit`` (confirmed over all rows unless ``whole``)."""
     out: list[frozenset[float] | None] = []
     for j, c in enumerate(e.features):
@@ -426,7 +419,6 @@ def _distinct(frame: Any, e: _Exprs, sample: FloatArray, limit: int, whole: bool
 
 def _same_as(frame: Any, e: _Exprs, sample: FloatArray, whole: bool) -> npt.NDArray[np.intp]:
     """For each column, the first column equal to it on every audited row (itself if none)."""
-    import narwhals as nw
 
     candidates = identical_columns(sample)
     if whole:
@@ -485,9 +477,7 @@ def load_lazy(
     codes = {c: k for k, c in enumerate(data.classes)}
     rows = lazy.filter(e.audited()).select(
         nw.col(ROW),
-        nw.col(target)
-        .replace_strict(list(codes), list(codes.values()), default=-1, return_dtype=nw.Int64)
-        .alias(CODE),
+        nw.col(target).replace_strict(list(codes), list(codes.values()), default=-1, return_dtype=nw.Int64).alias(CODE),
         *[e.x(c).alias(c) for c in data.features],
     )
     return dataclasses.replace(data, all_rows=engine.row_pass(rows.to_native(), data.features))

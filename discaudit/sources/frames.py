@@ -105,13 +105,32 @@ def load_frame(X: Any, y: Any = None, *, target: str | None, config: Config, ran
         if isinstance(nw.from_native(y, series_only=True, pass_through=True), nw.Series):
             y = np.asarray(nw.from_native(y, series_only=True).to_numpy(), dtype=object)
         labels = as_labels(y, pd.RangeIndex(len(frame)))
-    batches = _Batches(frame, columns, labels)
-    summary = _summarize(batches, columns, config, random_state)
+    return load_batches(_Batches(frame, columns, labels), columns, config, random_state)
+
+
+def load_batches(
+    batches: Callable[[], Iterator[tuple[FloatArray, pd.Series]]],
+    columns: FrameColumns,
+    config: Config,
+    random_state: int | None,
+) -> AuditData:
+    """The chunked path on float batches: summaries merged, then a row pass reading the batches again.
+
+    ``batches`` returns a fresh iterator of (features in ``columns.features`` order, labels indexed
+    by row label) each time it is called.
+    """
+    summary = summarize_batches(batches, columns, config, random_state)
     data = to_audit_data(summary, config, random_state)
-    return dataclasses.replace(data, all_rows=FrameRows(batches, block_spec(summary, data, target or "")))
+    return dataclasses.replace(data, all_rows=FrameRows(batches, block_spec(summary, data, columns.target or "")))
 
 
-def _summarize(batches: _Batches, columns: FrameColumns, config: Config, random_state: int | None) -> ChunkSummary:
+def summarize_batches(
+    batches: Callable[[], Iterator[tuple[FloatArray, pd.Series]]],
+    columns: FrameColumns,
+    config: Config,
+    random_state: int | None,
+) -> ChunkSummary:
+    """Fold the summaries of every batch (pass 1), seeded per batch as the chunked path is."""
     total: ChunkSummary | None = None
     for i, (values, labels) in enumerate(batches()):
         part = summarize_values(
@@ -126,5 +145,5 @@ def _summarize(batches: _Batches, columns: FrameColumns, config: Config, random_
         )
         total = part if total is None else merge(total, part, stream_rng(random_state, CHUNK_MERGE, i))
     if total is None:  # pragma: no cover - a frame always gives one batch
-        raise DataError(f"The {columns.engine} frame has no rows.")
+        raise DataError(f"The {columns.engine} input has no rows.")
     return total
