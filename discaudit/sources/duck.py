@@ -79,6 +79,7 @@ def load_file(
     config: Config,
     random_state: int | None,
     reader: str = "auto",
+    batch_rows: int | None = None,
 ) -> AuditData:
     """Validate a big CSV or Parquet file, read through DuckDB (``reader='duckdb'``), pyarrow
     (``'arrow'``) or whichever is installed (``'auto'``: DuckDB first)."""
@@ -101,7 +102,9 @@ def load_file(
         return load_lazy(relation, target=target, config=config, random_state=random_state, label_column=index_col)
     columns, stored = file_columns(path)
     chosen = choose_columns(columns, target, features, exclude, index_col, index_names=stored)
-    return _load_arrow(path, chosen, target, index_col, config, random_state)
+    if batch_rows is not None and batch_rows < 1:
+        raise DataError("batch_rows must be a positive number of rows.")
+    return _load_arrow(path, chosen, target, index_col, config, random_state, batch_rows or ARROW_BATCH_ROWS)
 
 
 def load_sql(
@@ -127,8 +130,8 @@ def load_sql(
 class _ArrowBatches:
     """A CSV or Parquet file as float batches, read by pyarrow; labels indexed by row label."""
 
-    def __init__(self, path: Path, columns: FrameColumns, index_col: str | None) -> None:
-        self.path, self.columns, self.index_col = path, columns, index_col
+    def __init__(self, path: Path, columns: FrameColumns, index_col: str | None, batch_rows: int) -> None:
+        self.path, self.columns, self.index_col, self.batch_rows = path, columns, index_col, batch_rows
 
     def _read(self, wanted: list[str]) -> Iterator[Any]:
         if kind(self.path) == "parquet":
@@ -136,7 +139,7 @@ class _ArrowBatches:
 
             # pre_buffer=False with a small buffer: pre-buffered column chunks would stay alive.
             parquet = pq.ParquetFile(self.path, pre_buffer=False, buffer_size=1 << 20)
-            yield from parquet.iter_batches(batch_size=ARROW_BATCH_ROWS, columns=wanted)
+            yield from parquet.iter_batches(batch_size=self.batch_rows, columns=wanted)
             return
         import pyarrow as pa
         import pyarrow.csv as csv
@@ -172,7 +175,13 @@ class _ArrowBatches:
 
 
 def _load_arrow(
-    path: Path, chosen: list[str], target: str, index_col: str | None, config: Config, random_state: int | None
+    path: Path,
+    chosen: list[str],
+    target: str,
+    index_col: str | None,
+    config: Config,
+    random_state: int | None,
+    batch_rows: int,
 ) -> AuditData:
     import narwhals as nw
     import pyarrow as pa
@@ -180,7 +189,7 @@ def _load_arrow(
     schema = _arrow_schema(path, [*chosen, target])
     empty = nw.from_native(pa.Table.from_batches([], schema=schema), eager_only=True)
     columns = judge_columns(empty, target, config)
-    return load_batches(_ArrowBatches(path, columns, index_col), columns, config, random_state)
+    return load_batches(_ArrowBatches(path, columns, index_col, batch_rows), columns, config, random_state)
 
 
 def _arrow_schema(path: Path, wanted: list[str]) -> Any:

@@ -48,7 +48,7 @@ from discaudit.dataset import AuditData, RowBlock, RowPass
 from discaudit.errors import DataError
 from discaudit.jsonable import label
 from discaudit.sources.chunks import ChunkSummary, Reservoir, to_audit_data
-from discaudit.sources.frame_schema import FrameColumns, judge_columns
+from discaudit.sources.frame_schema import CODE, KEY, ROW, FrameColumns, judge_columns
 from discaudit.sources.frames import summarize_batches
 from discaudit.sources.screening import check_magnitude, identical_columns, raise_for_missing
 from discaudit.stats.moments import ClassMoments
@@ -68,10 +68,6 @@ BATCH_ROWS = 200_000
 #: Sample key threshold: expected count per class = capacity + this many standard deviations (plus
 #: a few rows), so a class comes back short with probability below 1e-9 (then it is asked again).
 _KEY_MARGIN_SD = 6.0
-
-ROW = "__discaudit_row"
-KEY = "__discaudit_key"
-CODE = "__discaudit_code"
 
 
 class Engine(Protocol):

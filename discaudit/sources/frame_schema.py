@@ -21,6 +21,11 @@ from discaudit.config import Config
 from discaudit.errors import DataError
 from discaudit.sources.screening import numeric_columns, split
 
+#: Columns an engine adds to the queries it runs: the row label, the sample key, the class code.
+ROW = "__discaudit_row"
+KEY = "__discaudit_key"
+CODE = "__discaudit_code"
+
 #: Display names of the narwhals backends, for messages.
 _ENGINE_NAMES = {
     "polars": "Polars",

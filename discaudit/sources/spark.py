@@ -30,7 +30,7 @@ from discaudit.config import Config
 from discaudit.dataset import RowBlock, RowPass
 from discaudit.errors import DataError
 from discaudit.sources.chunks import ChunkSummary, merge, summarize_values
-from discaudit.sources.frame_schema import FrameColumns
+from discaudit.sources.frame_schema import CODE, KEY, ROW, FrameColumns
 from discaudit.stats.seeds import CHUNK_MERGE, CHUNK_SAMPLE, PARTITION_MERGE, stream_rng
 
 T = TypeVar("T")
@@ -69,8 +69,6 @@ class SparkEngine:
     label_column: str | None = None
 
     def numbered(self) -> Any:
-        from discaudit.sources.engines import ROW
-
         F = _functions()
         if self.label_column is not None:
             return self.native.withColumn(ROW, F.col(self.label_column))
@@ -89,8 +87,6 @@ class SparkEngine:
         return ids.withColumn(ROW, row).drop("__discaudit_id")
 
     def keyed(self, numbered: Any, seed: int) -> Any:
-        from discaudit.sources.engines import KEY, ROW
-
         F = _functions()
         hashed = F.xxhash64(F.col(ROW), F.lit(int(seed))).cast("double") / float(2**64) + 0.5
         return numbered.withColumn(KEY, hashed)
@@ -105,8 +101,6 @@ class SparkEngine:
     def summaries(
         self, native: Any, target: str, columns: FrameColumns, config: Config, seed: int | None
     ) -> ChunkSummary:
-        from discaudit.sources.engines import ROW
-
         task = functools.partial(_summarize_partition, target, ROW, columns, config, seed)
         blobs = _collect_blobs(native.mapInPandas(task, schema="p long, blob binary"))
         parts = [pickle.loads(b) for b in blobs]
@@ -164,8 +158,6 @@ def _score_partition(
     features: tuple[str, ...],
     batches: Iterator[pd.DataFrame],
 ) -> Iterator[pd.DataFrame]:
-    from discaudit.sources.engines import CODE, ROW
-
     out = None
     for batch in batches:
         with np.errstate(invalid="ignore"):
