@@ -16,6 +16,7 @@ Row labels are 0-based row positions in the file (or query result), or the value
 from __future__ import annotations
 
 import importlib.util
+import os
 from collections.abc import Iterator, Sequence
 from pathlib import Path
 from typing import Any
@@ -70,7 +71,7 @@ def _relation(path: Path) -> Any:
 
 
 def load_file(
-    path: str | Path,
+    path: str | os.PathLike[str],
     *,
     target: str,
     features: Sequence[str] | None = None,

@@ -107,6 +107,12 @@ class _LocalEngine:
     name: str
     label_column: str | None = None
 
+    def numbered(self) -> Any:  # pragma: no cover - overridden
+        raise NotImplementedError
+
+    def keyed(self, numbered: Any, seed: int) -> Any:  # pragma: no cover - overridden
+        raise NotImplementedError
+
     def batches(self, native: Any) -> Iterator[Any]:  # pragma: no cover - overridden
         raise NotImplementedError
 
@@ -166,10 +172,10 @@ class _Ibis(_LocalEngine):
         return numbered.mutate(**{KEY: mixed.cast("float64") / 2.0**64 + 0.5})
 
     def batches(self, native: Any) -> Iterator[Any]:
-        try:
-            yield from native.to_pyarrow_batches(chunk_size=BATCH_ROWS)
-        except AttributeError:  # a backend release that cannot stream: read the result whole
-            yield from native.to_pyarrow().to_batches(BATCH_ROWS)
+        # The result is read whole and cut into batches: Ibis 12's DuckDB backend cannot stream
+        # record batches from DuckDB 2 (and a failed stream leaves its connection unusable).
+        # Memory: the audited columns of every row, once, as Arrow.
+        yield from native.to_pyarrow().to_batches(BATCH_ROWS)
 
 
 def engine_for(native: Any, implementation: str, label_column: str | None) -> Engine:

@@ -50,7 +50,7 @@ def _dumps(obj: Any) -> bytes:
     """Pickle a partition's result; cloudpickle (shipped with PySpark) also takes read-only mappings."""
     from pyspark import cloudpickle
 
-    return bytes(cloudpickle.dumps(obj))
+    return bytes(cloudpickle.dumps(obj))  # type: ignore[no-untyped-call]
 
 
 def _partition_id() -> int:

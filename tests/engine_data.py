@@ -1,0 +1,111 @@
+"""Invented, seeded data for the engine equivalence tests (property tests: the same rows through
+every engine must give what pandas input gives)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+import discaudit
+from discaudit.config import Config
+from discaudit.sources import open_source
+
+#: Figures of the closed-form checks, computed from the moments alone.
+MOMENT_CHECKS = ("data_hygiene", "sample_size", "scale_disparity", "covariance_homogeneity", "discriminant_signal")
+
+
+def offset_frame(n_per_class: int = 150, seed: int = 3) -> pd.DataFrame:
+    """Three classes; a column offset by 1e9 (the cancellation trap of raw sums of products), columns
+    scaled by 1e-7 and 1e7, an integer column with few values, a constant and a duplicated column,
+    and a few planted outlying rows."""
+    rng = np.random.default_rng(seed)
+    parts = []
+    for k, shift in enumerate((0.0, 1.0, 2.5)):
+        z = rng.normal(size=(n_per_class, 4)) @ np.array(
+            [[1.0, 0.3, 0.0, 0.1], [0.0, 1.0, 0.4, 0.0], [0.0, 0.0, 1.0, 0.2], [0.0, 0.0, 0.0, 1.0]]
+        )
+        z[:, 0] += shift
+        parts.append(
+            pd.DataFrame(
+                {
+                    "offset": 1e9 + z[:, 0],
+                    "tiny": 1e-7 * (z[:, 1] + 0.5 * shift),
+                    "huge": 1e7 * z[:, 2],
+                    "plain": z[:, 3] - shift,
+                    "level": rng.integers(0, 3, n_per_class),
+                    "label": f"class_{k}",
+                }
+            )
+        )
+    frame = pd.concat(parts, ignore_index=True)
+    frame["constant"] = 4.0
+    frame["copy_of_plain"] = frame["plain"]
+    planted = [7, 190, 333]
+    frame.loc[planted, "plain"] += [9.0, -11.0, 12.0]
+    frame.loc[planted, "copy_of_plain"] = frame.loc[planted, "plain"]
+    return frame.sample(frac=1.0, random_state=1).reset_index(drop=True)
+
+
+def moments(X, target: str = "label", config: Config | None = None):
+    return open_source(X, target=target, config=config or Config(), random_state=0).moments
+
+
+def assert_same_moments(got, want, rel: float = 1e-9) -> None:
+    """Means and scatter matrices agree to ``rel`` relative (of each entry's own scale)."""
+    assert got.classes == want.classes
+    np.testing.assert_array_equal(got.counts, want.counts)
+    np.testing.assert_allclose(got.means, want.means, rtol=rel, atol=0)
+    scale = np.sqrt(np.abs(np.einsum("kii->ki", want.scatter)))  # entry (i, j) is at most s_i s_j
+    bound = rel * scale[:, :, None] * scale[:, None, :]
+    assert np.all(np.abs(got.scatter - want.scatter) <= bound), np.max(np.abs(got.scatter - want.scatter) / bound)
+
+
+def close(a, b, rel: float) -> None:
+    if isinstance(a, dict):
+        assert a.keys() == b.keys()
+        for k in a:
+            close(a[k], b[k], rel)
+    elif isinstance(a, list):
+        assert len(a) == len(b)
+        for x, z in zip(a, b):
+            close(x, z, rel)
+    elif isinstance(a, float) and isinstance(b, float):
+        assert a == b or abs(a - b) <= rel * max(abs(a), abs(b)) + 1e-300 or (np.isnan(a) and np.isnan(b)), (a, b)
+    else:
+        assert a == b
+
+
+#: Figures built from differences of class means (Wilks' lambda and its eigenvalues). On a column
+#: offset by 1e9 a mean carries an absolute rounding error of about one ulp (1.2e-7) in any
+#: summation order, and class means about 1 apart then differ by up to 1e-7 relative between two
+#: correct computations (p-values, as small as 1e-100 here, are compared by their logarithms, which
+#: such an error moves in proportion): pandas input's own means are up to 4 ulps from the exactly rounded mean on
+#: this data (the engines' are exactly rounded, ``test_engine_means_are_exactly_rounded``).
+BETWEEN_CLASS_CHECKS = ("discriminant_signal",)
+
+
+def assert_same_verdict(
+    got: discaudit.Verdict, want: discaudit.Verdict, rel: float = 1e-9, between_rel: float | None = None
+) -> None:
+    """Same statuses, recommendation and flagged rows; moment-based figures to ``rel`` (figures
+    from mean differences to ``between_rel``, default ``rel``)."""
+    assert {k: f.status for k, f in got.findings.items()} == {k: f.status for k, f in want.findings.items()}
+    assert got.recommendation.model == want.recommendation.model
+    assert got.recommendation.params == want.recommendation.params
+    assert sorted(map(str, got.outlier_rows().index)) == sorted(map(str, want.outlier_rows().index))
+    for key in MOMENT_CHECKS:
+        ignore = ("n_rows_input", "sample_note")
+        between = between_rel is not None and key in BETWEEN_CLASS_CHECKS
+        pick = _log_p_values if between else dict
+        close(
+            pick({k: v for k, v in got.findings[key].details.items() if k not in ignore}),
+            pick({k: v for k, v in want.findings[key].details.items() if k not in ignore}),
+            between_rel if between and between_rel is not None else rel,
+        )
+
+
+def _log_p_values(details: dict) -> dict:
+    return {
+        k: float(np.log(v)) if k.startswith("p_value") and isinstance(v, float) and v > 0 else v
+        for k, v in details.items()
+    }
