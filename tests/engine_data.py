@@ -40,7 +40,7 @@ def offset_frame(n_per_class: int = 150, seed: int = 3) -> pd.DataFrame:
     frame = pd.concat(parts, ignore_index=True)
     frame["constant"] = 4.0
     frame["copy_of_plain"] = frame["plain"]
-    planted = [7, 190, 333]
+    planted = [7, n_per_class + 40, 2 * n_per_class + 33]
     frame.loc[planted, "plain"] += [9.0, -11.0, 12.0]
     frame.loc[planted, "copy_of_plain"] = frame.loc[planted, "plain"]
     return frame.sample(frac=1.0, random_state=1).reset_index(drop=True)
