@@ -94,12 +94,16 @@ def main() -> None:
             if name.split()[0] in skip or name == "spark local":
                 continue
             r = run(name, path)
-            print(f"| {name} | {args.rows:,} | {r['seconds']} | {r['peak_mb']} | {r['verdict'] or 'exit ' + str(r['exit'])} |")
+            print(
+                f"| {name} | {args.rows:,} | {r['seconds']} | {r['peak_mb']} | {r['verdict'] or 'exit ' + str(r['exit'])} |"
+            )
         if "spark" not in skip:
             small = Path(folder) / "spark.parquet"
             write(small, args.spark_rows)
             r = run("spark local", small)
-            print(f"| spark local | {args.spark_rows:,} | {r['seconds']} | {r['peak_mb']} (driver) | {r['verdict'] or 'exit ' + str(r['exit'])} |")
+            print(
+                f"| spark local | {args.spark_rows:,} | {r['seconds']} | {r['peak_mb']} (driver) | {r['verdict'] or 'exit ' + str(r['exit'])} |"
+            )
 
 
 if __name__ == "__main__":
