@@ -184,3 +184,16 @@ def test_an_engine_failure_is_a_data_error_naming_the_engine(monkeypatch, offset
     monkeypatch.setattr(engines, "_first_pass", fails)
     with pytest.raises(discaudit.DataError, match=r"^DuckDB could not compute .*ConversionException: Conversion Error"):
         discaudit.preflight(ENGINES["duckdb"](offset_data), target="label")
+
+
+@pytest.mark.parametrize("engine", ["polars_lazy", "duckdb"])
+@pytest.mark.parametrize(
+    "codes", [{"class_0": 0.5, "class_1": 1.5, "class_2": 2.5}, {"class_0": 1, "class_1": 2, "class_2": 3}]
+)
+def test_numeric_labels_are_compared_as_the_engine_holds_them(engine, codes, offset_data) -> None:
+    # Classes go back into the engine's queries (centring, sampling, codes): as its own values, not as text.
+    frame = offset_data.assign(label=offset_data["label"].map(codes))
+    got = discaudit.preflight(ENGINES[engine](frame), target="label")
+    want = discaudit.preflight(frame, target="label")
+    assert got.meta["classes"] == want.meta["classes"]
+    assert_same_verdict(got, want, between_rel=1e-6)

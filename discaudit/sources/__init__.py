@@ -37,9 +37,17 @@ def _is_dask_frame(X: Any) -> bool:
 
 def _is_lazy_frame(X: Any) -> bool:
     """A lazy frame narwhals knows (Polars LazyFrame, DuckDB relation, Spark, Ibis), by type only."""
-    import narwhals as nw
+    from narwhals import dependencies as nwd
 
-    return isinstance(nw.from_native(X, pass_through=True), nw.LazyFrame)
+    kinds = (
+        nwd.is_polars_lazyframe,
+        nwd.is_duckdb_relation,
+        nwd.is_pyspark_dataframe,
+        nwd.is_pyspark_connect_dataframe,
+        nwd.is_sqlframe_dataframe,
+        nwd.is_ibis_table,
+    )
+    return any(is_kind(X) for is_kind in kinds)
 
 
 def open_source(

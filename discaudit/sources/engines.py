@@ -500,7 +500,7 @@ def _pushed_down(
     present = [r for r, (_, gone) in enumerate(groups) if not gone]
     dropped = {label(groups[r][0]): int(first["n_bad"][r]) for r in present if first["n_bad"][r]}
     kept = [r for r in present if first["n_ok"][r] > 0]
-    classes = [label(groups[r][0]) for r in kept]
+    classes = [groups[r][0] for r in kept]  # the engine's own values: queries compare against them
     counts = np.array([first["n_ok"][r] for r in kept], dtype=np.int64)
     rough = np.array([[first[f"mean{j}"][r] for j in range(p)] for r in kept], dtype=np.float64).reshape(-1, p)
     col_min = np.array([min((first[f"min{j}"][r] for r in kept), default=np.inf) for j in range(p)], dtype=float)

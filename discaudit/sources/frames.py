@@ -39,11 +39,10 @@ BATCH_ROWS = 200_000
 
 def is_eager_frame(X: Any) -> bool:
     """A dataframe narwhals reads eagerly, other than pandas (which :mod:`~discaudit.sources.memory` reads)."""
-    if isinstance(X, pd.DataFrame):
-        return False
-    import narwhals as nw
+    from narwhals import dependencies as nwd
 
-    return isinstance(nw.from_native(X, pass_through=True), nw.DataFrame)
+    kinds = (nwd.is_polars_dataframe, nwd.is_pyarrow_table, nwd.is_modin_dataframe, nwd.is_cudf_dataframe)
+    return any(is_kind(X) for is_kind in kinds)
 
 
 def float_columns(frame: Any, names: tuple[str, ...]) -> FloatArray:
