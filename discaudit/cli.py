@@ -154,14 +154,16 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument(
         "--stream",
         action="store_true",
-        help="read the file in batches with bounded memory (automatic for files larger than a quarter of RAM)",
+        help="audit the file where it lies, through DuckDB or pyarrow, with bounded memory (automatic for files "
+        "larger than a quarter of RAM)",
     )
     check.add_argument("--batch-rows", type=int, default=200_000, metavar="N", help="rows per batch when streaming")
     check.add_argument(
         "--reader",
         choices=("auto", "duckdb", "arrow"),
         default="auto",
-        help="how --stream reads the file: DuckDB (all cores), pyarrow's batch readers, or auto (DuckDB when installed)",
+        help="how --stream reads the file: DuckDB (all cores), pyarrow's batch readers, or auto (DuckDB when "
+        "installed); naming a reader implies --stream",
     )
     check.set_defaults(run=run_check)
     return parser
@@ -195,7 +197,7 @@ def run_check(args: argparse.Namespace) -> int:
         stage, where = "reading the data", args.data or "--sql query"
         if args.sql is not None:
             verdict = _sql_audit(args, config)
-        elif args.stream or _larger_than_memory_share(Path(args.data)):
+        elif args.stream or args.reader != "auto" or _larger_than_memory_share(Path(args.data)):
             verdict = _stream_audit(args, config)  # reads while it audits: parse errors count as reading
         else:
             verdict = _in_memory_audit(args, config)
