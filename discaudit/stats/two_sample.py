@@ -33,6 +33,8 @@ FloatArray = npt.NDArray[np.float64]
 def _as_moments(n: int, mean: Any, cov: Any, p: int | None = None) -> tuple[int, FloatArray, FloatArray]:
     m = np.asarray(mean, dtype=np.float64).reshape(-1)
     S = np.asarray(cov, dtype=np.float64)
+    if S.size == m.size * m.size:  # a 0-d variance for one feature, as numpy's cov returns it
+        S = S.reshape(m.size, m.size)
     if S.shape != (m.size, m.size):
         raise DataError(f"a covariance of shape {S.shape} does not match a mean of {m.size} features.")
     if p is not None and m.size != p:
@@ -199,9 +201,9 @@ def covariance_two_sample(n_a: int, cov_a: Any, n_b: int, cov_b: Any) -> Covaria
     Box, G. E. P. (1949). A general distribution theory for a class of likelihood criteria.
     Biometrika 36, 317-346.
     """
-    p = np.asarray(cov_a).shape[0] if np.ndim(cov_a) == 2 else 0
+    p = int(round(np.sqrt(np.size(cov_a))))
     n_a, _, S_a = _as_moments(n_a, np.zeros(p), cov_a)
-    n_b, _, S_b = _as_moments(n_b, np.zeros(np.asarray(cov_b).shape[0]), cov_b, p)
+    n_b, _, S_b = _as_moments(n_b, np.zeros(int(round(np.sqrt(np.size(cov_b))))), cov_b, p)
     ld_a, ld_b = logdet_spd(S_a), logdet_spd(S_b)
     if not (np.isfinite(ld_a) and np.isfinite(ld_b)) or min(n_a, n_b) <= p:
         raise DataError(
