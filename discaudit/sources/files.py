@@ -320,7 +320,8 @@ def _scan_lines(
     ends = np.flatnonzero(array == 10)
     starts = np.concatenate([[0], ends[:-1] + 1])
     stops = ends - (array[np.maximum(ends - 1, 0)] == 13) * (ends > starts)  # without a '\r'
-    commas = np.add.reduceat((array == 44).astype(np.int64), starts)
+    # Delimiters per line: positions of every comma, counted between line ends by a sorted search.
+    commas = np.diff(np.searchsorted(np.flatnonzero(array == 44), np.concatenate([[-1], ends])))
     numbers = line + 1 + np.arange(starts.size)
     blank = stops == starts
     if header is None:
@@ -333,8 +334,12 @@ def _scan_lines(
         blank[: i + 1] = True
     fields = commas + 1
     ragged = np.flatnonzero(~blank & (fields != expected))
-    same_length = np.flatnonzero(~blank & (stops - starts == len(header)))
-    repeat = next((int(j) for j in same_length if data[starts[j] : stops[j]] == header), None)
+    # Lines as long as the header whose first bytes match it, then compared in full.
+    same = np.flatnonzero(~blank & (stops - starts == len(header)))
+    head = np.frombuffer(header[:8], dtype=np.uint8)
+    if same.size and head.size:
+        same = same[(array[starts[same][:, None] + np.arange(head.size)] == head).all(axis=1)]
+    repeat = next((int(j) for j in same if data[starts[j] : stops[j]] == header), None)
     first_ragged = int(ragged[0]) if ragged.size else None
     if repeat is not None and (first_ragged is None or repeat < first_ragged):
         _repeated_header(path, int(numbers[repeat]))
