@@ -125,7 +125,7 @@ def load_baseline(path: str | Path) -> dict[str, Any]:
     if not isinstance(moments, dict) or not isinstance(moments.get("classes"), list):
         raise DataError(
             f"{path}: no class moments (meta.class_moments); it was written before baselines existed: write it again "
-            "with --write-baseline."
+            "with this version (--write-baseline, or Verdict.to_json())."
         )
     return document
 

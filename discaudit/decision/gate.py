@@ -285,7 +285,7 @@ def rule(model: str | None, findings: Mapping[str, Finding], config: Config) -> 
         return (
             f"gated for any candidate: fails when data_hygiene reaches {level}, nothing could be scored, no candidate "
             "beats the majority rule, or none of LDA, shrinkage LDA, QDA and logistic regression passes its own gate "
-            f"(set one with --model); the other findings are shown{tail}"
+            f"(gate for one model to judge its assumptions); the other findings are shown{tail}"
         )
     by_level: dict[str, list[str]] = {"fail": [], "warn": []}
     shown = []

@@ -445,10 +445,9 @@ def screen_labels(
     """The rows to audit and notes, after checking that the target holds class labels.
 
     * ``min_class_rows``: rows of classes with fewer rows are dropped, with a note naming them.
-    * A target with more than :data:`CONTINUOUS_DISTINCT` distinct values, most of them alone in
-      their class, or with non-whole numbers among that many values, looks continuous (a
-      measurement or an identifier): DataError saying so and naming columns that look like
-      class labels.
+    * A target with a class of one row and more than :data:`CONTINUOUS_DISTINCT` distinct values,
+      most of them alone in their class or non-whole numbers, looks continuous (a measurement or
+      an identifier): DataError saying so and naming columns that look like class labels.
     * A class with fewer than two rows beside larger ones: DataError naming them and the fixes.
 
     Returns
@@ -470,7 +469,8 @@ def screen_labels(
             counts = counts[counts >= min_class_rows]
     singles = counts[counts < 2]
     non_whole = pd.api.types.is_float_dtype(labels.dtype) and bool(((labels.dropna() % 1) != 0).any())
-    if len(counts) > CONTINUOUS_DISTINCT and (len(singles) > len(counts) / 2 or non_whole):
+    # Only when the audit could not run anyway (a class of one row), so streamed and in-memory reading agree.
+    if len(singles) and len(counts) > CONTINUOUS_DISTINCT and (len(singles) > len(counts) / 2 or non_whole):
         kind = "non-whole numbers" if non_whole else "values"
         raise DataError(
             f"{path}: target column {target!r} has {len(counts)} distinct {kind} in {int(counts.sum())} rows, "
