@@ -214,6 +214,15 @@ def test_the_command_line_accepts_once_and_gates_later_batches(accepted_files, c
     assert "Class c's covariance changed: variances x" in out and "counts" in out
 
 
+def test_fresh_batches_pass_the_whole_comparison(accepted_files) -> None:
+    # Findings, recommendation and moments together: fresh samples of the accepted population, same size.
+    accepted = json.loads(discaudit.preflight(pd.read_csv(accepted_files["accepted"]), target="label").to_json())
+    for seed in range(101, 106):
+        compared = compare(discaudit.preflight(_frame(seed), target="label"), accepted, discaudit.Config())
+        assert not compared.baseline.drifted, [c.summary for c in compared.baseline.changes if c.counts]
+        assert compared.gate.passed == compared.gate.data_passed
+
+
 def test_the_baseline_section_is_in_every_format(accepted_files) -> None:
     frame = pd.read_csv(accepted_files["shifted"])
     verdict = discaudit.preflight(frame, target="label")
@@ -230,16 +239,24 @@ def test_the_baseline_section_is_in_every_format(accepted_files) -> None:
     assert json.loads(compared.to_json())["baseline"]["outcome"] == outcome
 
 
-def test_a_check_that_got_worse_counts_only_when_it_bears_on_the_model(accepted_files) -> None:
+def test_a_check_that_got_worse_counts_only_when_it_bears_on_the_model_at_the_gates_level(accepted_files) -> None:
     verdict = discaudit.preflight(pd.read_csv(accepted_files["accepted"]), target="label")
     accepted = json.loads(verdict.to_json())
-    worse = [k for k, f in verdict.findings.items() if f.status in ("warn", "fail")]
-    assert "covariance_homogeneity" in worse  # precondition: the invented classes differ in covariance
+    status = verdict.findings["covariance_homogeneity"].status
+    assert status in ("warn", "fail")  # precondition: the invented classes differ in covariance
     accepted["findings"]["covariance_homogeneity"]["status"] = "pass"
-    for model, counts in (("lda", True), ("qda", False)):
-        compared = compare(verdict, accepted, discaudit.Config(model=model))
+    # It bears on LDA, not on QDA; a worse status counts once it reaches the gate's level.
+    for model, fail_on, counts in (
+        ("lda", "warn", True),
+        ("lda", "fail", status == "fail"),
+        ("qda", "warn", False),
+    ):
+        compared = compare(verdict, accepted, discaudit.Config(model=model, fail_on=fail_on))
         (change,) = [c for c in compared.baseline.changes if c.kind == "check"]
-        assert change.subject == "covariance_homogeneity" and change.counts is counts
+        assert change.subject == "covariance_homogeneity" and change.counts is counts, (model, fail_on)
+        assert compared.baseline.drifted is counts
+    noted = compare(verdict, accepted, discaudit.Config(model="qda")).baseline.changes[0]
+    assert "it does not bear on QDA" in noted.summary
 
 
 def test_a_recommendation_that_flipped_within_a_near_tie_is_noted_not_counted(accepted_files) -> None:

@@ -13,8 +13,10 @@ it fails the comparison):
 * the recommendation changed, unless the two models were within noise of each other in both
   reports (a near tie that flipped: noted, not counted);
 * a check that matters for the gated model (``Config.model``; without one, the model the
-  baseline recommended) got worse: pass -> warn -> fail (:data:`discaudit.decision.gate.MATTERS`);
-  a check that got worse but does not bear on that model is noted, not counted;
+  baseline recommended) got worse (pass -> warn -> fail; :data:`discaudit.decision.gate.MATTERS`)
+  and now reaches the gate's level (``Config.fail_on``, or the check's own lower level, e.g.
+  ``separation`` at warn for unpenalized logistic regression); a check that got worse below that
+  level, or that does not bear on the model, is noted, not counted;
 * a class appeared or vanished;
 * the class shares moved: the largest move exceeds ``Config.baseline_prior_tolerance`` and the
   chi-square test of equal shares is significant;
@@ -168,7 +170,8 @@ def compare(verdict: Verdict, accepted: Mapping[str, Any], config: Config, sourc
         )
     rule = (
         "compared with the baseline: fails when the features differ, the recommendation changes (a near tie that "
-        f"flipped excepted), a check that matters for {MODEL_WORDS.get(judged, judged)} gets worse, a class appears or "
+        f"flipped excepted), a check that matters for {MODEL_WORDS.get(judged, judged)} gets worse to a status that "
+        f"fails its gate (fail_on {config.fail_on}), a class appears or "
         f"vanishes, or, significant at {fmt(config.baseline_alpha)} family-wise (Bonferroni over {drift.n_tests} "
         f"tests), a class share moves more than {fmt(config.baseline_prior_tolerance)}, a class mean moves at least "
         f"{fmt(config.baseline_mean_shift)} pooled SD (Hotelling's T^2) or a class covariance changes by a typical "
@@ -262,9 +265,20 @@ def _checks(accepted: Mapping[str, Any], verdict: Verdict, model: str, config: C
         if STATUS_RANK[finding.status] <= STATUS_RANK[old]:
             continue
         bearing = bearings.get(key)
-        matters = bearing is not None and bearing.fails_at is not None and config.severity_of(key) == "gate"
+        bears = bearing is not None and bearing.fails_at is not None and config.severity_of(key) == "gate"
+        # A worse status counts when it reaches the level the gate cares about (Config.fail_on, or the
+        # check's own lower level): a pass -> warn flip of a test at alpha = 0.001 across several classes
+        # comes up by chance in fresh batches, so at fail_on = "fail" it is noted, not counted.
+        level = min(config.fail_on, bearing.fails_at or "fail", key=STATUS_RANK.__getitem__) if bears else "fail"
+        reaches = STATUS_RANK[finding.status] >= STATUS_RANK[level]
+        matters = bears and reaches
         words = f"{old} -> {finding.status}"
-        why = "" if matters else f"; it does not bear on {MODEL_WORDS.get(model, model)}"
+        if not bears:
+            why = f"; it does not bear on {MODEL_WORDS.get(model, model)}"
+        elif not reaches:
+            why = f"; below the gate's level ({level}): noted"
+        else:
+            why = ""
         out.append(
             Drift(
                 "check",
