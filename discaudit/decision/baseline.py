@@ -269,7 +269,8 @@ def _checks(accepted: Mapping[str, Any], verdict: Verdict, model: str, config: C
         # A worse status counts when it reaches the level the gate cares about (Config.fail_on, or the
         # check's own lower level): a pass -> warn flip of a test at alpha = 0.001 across several classes
         # comes up by chance in fresh batches, so at fail_on = "fail" it is noted, not counted.
-        level = min(config.fail_on, bearing.fails_at or "fail", key=STATUS_RANK.__getitem__) if bears else "fail"
+        own = bearing.fails_at if bearing is not None and bearing.fails_at is not None else "fail"
+        level = min(config.fail_on, own, key=STATUS_RANK.__getitem__)
         reaches = STATUS_RANK[finding.status] >= STATUS_RANK[level]
         matters = bears and reaches
         words = f"{old} -> {finding.status}"
