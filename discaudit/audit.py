@@ -16,7 +16,8 @@ from discaudit._threads import one_blas_thread, recorded_warnings
 from discaudit.config import Config
 from discaudit.dataset import AuditData
 from discaudit.decision import recommend
-from discaudit.decision.gate import gate_status
+from discaudit.decision.baseline import class_moments_record
+from discaudit.decision.gate import gate_status, judge
 from discaudit.findings import Finding, skipped
 from discaudit.jsonable import label
 from discaudit.sources import open_source
@@ -97,7 +98,8 @@ def _assemble(
 ) -> Verdict:
     """Findings -> recommendation, gate status and metadata: the one place a verdict is built."""
     meta = _meta(data, config, random_state)
-    return Verdict(findings, recommend(findings, config), gate_status(findings, config), meta, timings)
+    recommendation = recommend(findings, config)
+    return Verdict(findings, recommendation, gate_status(findings, config), meta, timings, judge(findings, config))
 
 
 def _run_check(
@@ -139,6 +141,7 @@ def _meta(data: AuditData, config: Config, random_state: int | None) -> dict[str
         "severity": {k: config.severity_of(k) for k in checks.CHECK_KEYS},
         "config": config.to_dict(),
         "fingerprint": _fingerprint(data),
+        "class_moments": class_moments_record(data.moments, data.features),
     }
 
 
