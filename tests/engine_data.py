@@ -75,37 +75,16 @@ def close(a, b, rel: float) -> None:
         assert a == b
 
 
-#: Figures built from differences of class means (Wilks' lambda and its eigenvalues). On a column
-#: offset by 1e9 a mean carries an absolute rounding error of about one ulp (1.2e-7) in any
-#: summation order, and class means about 1 apart then differ by up to 1e-7 relative between two
-#: correct computations (p-values, as small as 1e-100 here, are compared by their logarithms, which
-#: such an error moves in proportion): pandas input's own means are up to 4 ulps from the exactly rounded mean on
-#: this data (the engines' are exactly rounded, ``test_engine_means_are_exactly_rounded``).
-BETWEEN_CLASS_CHECKS = ("discriminant_signal",)
-
-
-def assert_same_verdict(
-    got: discaudit.Verdict, want: discaudit.Verdict, rel: float = 1e-9, between_rel: float | None = None
-) -> None:
-    """Same statuses, recommendation and flagged rows; moment-based figures to ``rel`` (figures
-    from mean differences to ``between_rel``, default ``rel``)."""
+def assert_same_verdict(got: discaudit.Verdict, want: discaudit.Verdict, rel: float = 1e-9) -> None:
+    """Same statuses, recommendation and flagged rows; moment-based figures to ``rel``."""
     assert {k: f.status for k, f in got.findings.items()} == {k: f.status for k, f in want.findings.items()}
     assert got.recommendation.model == want.recommendation.model
     assert got.recommendation.params == want.recommendation.params
     assert sorted(map(str, got.outlier_rows().index)) == sorted(map(str, want.outlier_rows().index))
     for key in MOMENT_CHECKS:
         ignore = ("n_rows_input", "sample_note")
-        between = between_rel is not None and key in BETWEEN_CLASS_CHECKS
-        pick = _log_p_values if between else dict
         close(
-            pick({k: v for k, v in got.findings[key].details.items() if k not in ignore}),
-            pick({k: v for k, v in want.findings[key].details.items() if k not in ignore}),
-            between_rel if between and between_rel is not None else rel,
+            {k: v for k, v in got.findings[key].details.items() if k not in ignore},
+            {k: v for k, v in want.findings[key].details.items() if k not in ignore},
+            rel,
         )
-
-
-def _log_p_values(details: dict) -> dict:
-    return {
-        k: float(np.log(v)) if k.startswith("p_value") and isinstance(v, float) and v > 0 else v
-        for k, v in details.items()
-    }

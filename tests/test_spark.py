@@ -66,9 +66,7 @@ def test_spark_matches_pandas_on_offset_and_badly_scaled_columns(spark, offset_d
     assert sdf.rdd.getNumPartitions() == 3  # row labels must survive the partitions
     want = discaudit.preflight(offset_data, target="label")
     got = discaudit.preflight(sdf, target="label")
-    # Between-class figures: see engine_data.BETWEEN_CLASS_CHECKS; the smaller eigenvalue of this
-    # smaller data set (about 1/270 of the larger) amplifies the means' rounding by that ratio.
-    assert_same_verdict(got, want, between_rel=1e-5)
+    assert_same_verdict(got, want)
     assert_same_moments(moments(sdf), moments(offset_data))
     assert got.meta["features"] == want.meta["features"]
 
@@ -88,12 +86,7 @@ def test_spark_above_the_pushdown_limit_summarizes_in_map_in_pandas(monkeypatch,
 
     monkeypatch.setattr(engines, "PUSHDOWN_MAX_FEATURES", 2)
     sdf = spark.createDataFrame(offset_data)
-    # Partition summaries merge by Chan et al.'s formula, whose mean differences carry the rounding
-    # of means near 1e9 (about 1e-7 absolute): the scatter agrees to 1e-7 relative here, where the
-    # pushed-down moments above agree to 1e-9. With no offset the merge is as exact as the rest:
-    assert_same_moments(moments(sdf), moments(offset_data), rel=1e-7)
-    plain = offset_data.drop(columns=["offset"])
-    assert_same_moments(moments(spark.createDataFrame(plain)), moments(plain), rel=1e-9)
+    assert_same_moments(moments(sdf), moments(offset_data))
 
 
 def test_spark_string_column_names_spark_and_the_column(spark, offset_data) -> None:

@@ -53,6 +53,10 @@ MOST_DIFFERENT_CLASS = Figure("covariance_homogeneity", ("most_different_class",
 ANY_COMPLETE_SEPARATION = Figure("separation", ("any_complete",))
 ANY_QUASI_COMPLETE_SEPARATION = Figure("separation", ("any_quasi_complete",))
 DISCRETE_FEATURES = Figure("normality", ("discrete_features",))
+#: Features with one value per class that vary across classes: plain LDA's pooled covariance is singular.
+CLASS_ENCODING_FEATURES = Figure("data_hygiene", ("class_encoding_features",))
+#: Wilks' Lambda below machine precision: the classes separate exactly (a rounding-level figure).
+EXACT_SEPARATION = Figure("discriminant_signal", ("exact_separation",))
 
 CANDIDATE_FIGURES = Figure("expected_performance", ("candidates",))
 PAIRED = Figure("expected_performance", ("paired",))
@@ -90,4 +94,6 @@ FIGURES: tuple[Figure, ...] = (
     MAJORITY_ACCURACY,
     COMPETITIVE,
     LOWEST_LOG_LOSS,
+    CLASS_ENCODING_FEATURES,
+    EXACT_SEPARATION,
 )

@@ -22,15 +22,20 @@ import numpy.typing as npt
 import pandas as pd
 
 from discaudit.config import Config
-from discaudit.dataset import AuditData, IntakeRecord, RowBlock, RowPass, SampleInfo
+from discaudit.dataset import AuditData, Coordinates, IntakeRecord, RowBlock, RowPass, SampleInfo
 from discaudit.errors import DataError
 from discaudit.jsonable import label
 from discaudit.sources.screening import (
+    audit_values,
     check_classes,
     check_magnitude,
+    choose_coordinates,
     column_range,
     distinct_values,
+    exact_range,
+    frame_columns,
     identical_columns,
+    named_columns,
     numeric_columns,
     raise_for_missing,
     screen_columns,
@@ -98,6 +103,8 @@ class ChunkSummary:
     missing_per_column: npt.NDArray[np.int64]
     first_missing_row: Any
     missing_labels: int
+    #: Labels of the first rows (at most 5) whose class label is missing.
+    missing_label_rows: tuple[Any, ...]
     dropped_per_class: dict[Any, int]
     non_numeric: tuple[str, ...]
     #: For each column, the first column holding the same values in every row seen (itself if none).
@@ -106,6 +113,9 @@ class ChunkSummary:
     n_features_input: int
     capacity: int
     distinct_limit: int = field(default=5)
+    #: The coordinates every chunk is audited in (chosen from the first chunk; see Coordinates).
+    coordinates: Coordinates | None = None
+    conversions: dict[str, str] = field(default_factory=dict)
 
 
 def summarize(
@@ -115,31 +125,36 @@ def summarize(
     capacity: int,
     rng: np.random.Generator,
     features: tuple[str, ...] | None = None,
+    coordinates: Coordinates | None = None,
 ) -> ChunkSummary:
     """Summarize one chunk (a DataFrame holding the target column).
 
     ``features`` fixes the feature columns (from the first chunk); a later chunk that lacks
-    one raises DataError naming it.
+    one raises DataError naming it. ``coordinates`` (from the first chunk) fix where every
+    feature is audited, so that all summaries merge; by default they are chosen from this chunk.
     """
     frame, labels = split(chunk, None, target)
     n_features_input = frame.shape[1]
-    frame, non_numeric = numeric_columns(frame, config)
+    frame, non_numeric, conversions = numeric_columns(frame, config)
     if features is not None:
         missing_cols = [f for f in features if f not in frame.columns]
         if missing_cols:
             raise DataError(f"A later chunk lacks feature columns {missing_cols[:8]} (or they are not numeric there).")
         frame = frame[list(features)]
-    with np.errstate(invalid="ignore"):
-        values = np.ascontiguousarray(frame.to_numpy(dtype=np.float64, na_value=np.nan))
+    columns = frame_columns(frame)
+    if coordinates is None:
+        coordinates = choose_coordinates([exact_range(c) for c in columns])
     return summarize_values(
-        values,
+        audit_values(columns, coordinates),
         labels,
         tuple(str(c) for c in frame.columns),
         config,
         capacity,
         rng,
+        coordinates=coordinates,
         non_numeric=tuple(non_numeric),
         n_features_input=n_features_input,
+        conversions=conversions,
     )
 
 
@@ -151,27 +166,29 @@ def summarize_values(
     capacity: int,
     rng: np.random.Generator,
     *,
+    coordinates: Coordinates,
     non_numeric: tuple[str, ...] = (),
     n_features_input: int | None = None,
+    conversions: dict[str, str] | None = None,
 ) -> ChunkSummary:
-    """Summarize rows already read as a float array (``labels`` indexed by the rows' labels).
+    """Summarize rows already read as a float array in the audit's ``coordinates``
+    (``labels`` indexed by the rows' labels).
 
-    What :func:`summarize` does after it has split and converted a pandas chunk; sources that
-    read columns straight into arrays (Arrow batches, Polars frames) call it without building a
-    DataFrame.
+    What :func:`summarize` does once it has split and converted a pandas chunk; sources that read
+    columns straight into arrays (Arrow batches, Polars frames) call it without building a DataFrame.
     """
     index = labels.index
     screen = screen_missing(values, labels, index)
     dropped = labels[screen.bad_rows & ~screen.missing_label].value_counts().to_dict()
     keep = screen.keep
     n_rows_input = values.shape[0]
-    values, labels, index = values[keep], labels[keep], index[keep]
+    values, labels, kept_index = values[keep], labels[keep], index[keep]
     codes, class_list = label_codes(labels)
     classes = tuple(class_list)
     col_min, col_max = column_range(values)
     check_magnitude(np.maximum(-col_min, col_max), list(features))  # before any square is formed
     moments = ClassMoments.from_arrays(values, codes, classes)
-    row_labels = np.asarray(index, dtype=object)
+    row_labels = np.asarray(kept_index, dtype=object)
     reservoirs = {
         c: Reservoir.of(values[codes == k], row_labels[codes == k], capacity, rng) for k, c in enumerate(classes)
     }
@@ -186,6 +203,7 @@ def summarize_values(
         missing_per_column=screen.missing_per_column,
         first_missing_row=screen.first_bad_row,
         missing_labels=int(screen.missing_label.sum()),
+        missing_label_rows=tuple(label(r) for r in index[screen.missing_label][:5]),
         dropped_per_class={label(k): int(v) for k, v in dropped.items()},
         non_numeric=non_numeric,
         same_as=identical_columns(values),
@@ -193,6 +211,8 @@ def summarize_values(
         n_features_input=len(features) if n_features_input is None else n_features_input,
         capacity=capacity,
         distinct_limit=limit,
+        coordinates=coordinates,
+        conversions=dict(conversions or {}),
     )
 
 
@@ -206,6 +226,8 @@ def merge(a: ChunkSummary, b: ChunkSummary, rng: np.random.Generator) -> ChunkSu
     """Exact merge of two summaries of disjoint rows."""
     if a.features != b.features:
         raise DataError(f"Chunks disagree on the feature columns: {list(a.features)[:5]} vs {list(b.features)[:5]}.")
+    if a.coordinates != b.coordinates:  # pragma: no cover - every source passes the first chunk's
+        raise ValueError("chunk summaries in different coordinates cannot be merged")
     reservoirs = dict(a.reservoirs)
     for c, r in b.reservoirs.items():
         reservoirs[c] = reservoirs[c].merge(r, a.capacity, rng) if c in reservoirs else r
@@ -226,6 +248,7 @@ def merge(a: ChunkSummary, b: ChunkSummary, rng: np.random.Generator) -> ChunkSu
         missing_per_column=a.missing_per_column + b.missing_per_column,
         first_missing_row=a.first_missing_row if a.first_missing_row is not None else b.first_missing_row,
         missing_labels=a.missing_labels + b.missing_labels,
+        missing_label_rows=(a.missing_label_rows + b.missing_label_rows)[:5],
         dropped_per_class=dropped,
         non_numeric=a.non_numeric,
         same_as=_refine(a.same_as, b.same_as),
@@ -233,6 +256,8 @@ def merge(a: ChunkSummary, b: ChunkSummary, rng: np.random.Generator) -> ChunkSu
         n_features_input=a.n_features_input,
         capacity=a.capacity,
         distinct_limit=a.distinct_limit,
+        coordinates=a.coordinates,
+        conversions={**a.conversions, **b.conversions},
     )
 
 
@@ -250,7 +275,13 @@ def to_audit_data(
     """
     features = list(summary.features)
     if config.missing == "error":
-        raise_for_missing(summary.missing_per_column, summary.first_missing_row, summary.missing_labels, features)
+        raise_for_missing(
+            summary.missing_per_column,
+            summary.first_missing_row,
+            summary.missing_labels,
+            features,
+            summary.missing_label_rows,
+        )
     summary = _unify_label_types(summary, random_state)
     classes = ordered_unique(list(summary.moments.classes))
     moments = _reorder(summary.moments, classes)
@@ -273,6 +304,7 @@ def to_audit_data(
         non_numeric_dropped=summary.non_numeric,
         constant_columns=screen.constant,
         duplicate_columns=screen.duplicates,
+        conversions=summary.conversions,
     )
     sample = SampleInfo(
         n_total=moments.n_total,
@@ -280,8 +312,19 @@ def to_audit_data(
         capacity=summary.capacity,
         random_state=random_state,
     )
+    coordinates = None if summary.coordinates is None else summary.coordinates.take(idx.tolist())
     return AuditData(
-        values, codes, tuple(classes), kept_features, row_labels, moments, record, distinct, sample, all_rows
+        values,
+        codes,
+        tuple(classes),
+        kept_features,
+        row_labels,
+        moments,
+        record,
+        distinct,
+        sample,
+        all_rows,
+        None if coordinates is None or coordinates.trivial else coordinates,
     )
 
 
@@ -301,7 +344,7 @@ def _unify_label_types(summary: ChunkSummary, random_state: int | None) -> Chunk
     reservoirs: dict[Any, Reservoir] = {}
     for k, c in enumerate(labels):
         text = str(c)
-        part = ClassMoments((text,), m.counts[k : k + 1], m.means[k : k + 1], m.scatter[k : k + 1])
+        part = m.take_classes([k], (text,))
         merged = part if merged is None else merged.merge(part)
         r = summary.reservoirs[c]
         reservoirs[text] = reservoirs[text].merge(r, summary.capacity, rng) if text in reservoirs else r
@@ -313,8 +356,7 @@ def _unify_label_types(summary: ChunkSummary, random_state: int | None) -> Chunk
 
 
 def _reorder(moments: ClassMoments, classes: list[Any]) -> ClassMoments:
-    order = [moments.classes.index(c) for c in classes]
-    return ClassMoments(tuple(classes), moments.counts[order], moments.means[order], moments.scatter[order])
+    return moments.take_classes([moments.classes.index(c) for c in classes], tuple(classes))
 
 
 def summarize_chunks(
@@ -334,12 +376,13 @@ def summarize_chunks(
             config.sample_rows_per_class,
             stream_rng(random_state, CHUNK_SAMPLE, i),
             None if total is None else total.features,
+            None if total is None else total.coordinates,
         )
         total = part if total is None else merge(total, part, stream_rng(random_state, CHUNK_MERGE, i))
         if progress is not None:
             progress(len(chunk))
-    if total is None:
-        raise DataError("The input has no rows.")
+    if total is None or total.n_rows_input == 0:
+        raise DataError("The input has no data rows.")
     return total
 
 
@@ -357,14 +400,20 @@ class BlockSpec:
     kept: npt.NDArray[np.intp]
     codes: dict[Any, int]
     text_labels: bool
+    coordinates: Coordinates | None = None
+    config: Config | None = None
 
     def block(self, chunk: pd.DataFrame) -> RowBlock:
-        with np.errstate(invalid="ignore"):
-            values = np.ascontiguousarray(chunk[list(self.columns)].to_numpy(dtype=np.float64, na_value=np.nan))
+        frame = named_columns(chunk.drop(columns=[self.target]))[list(self.columns)]
+        if self.config is not None:  # the same conversions as pass 1 (e.g. categorical codes)
+            frame = numeric_columns(frame, self.config)[0]
+        columns = frame_columns(frame)
+        values = audit_values(columns, self.coordinates or Coordinates.plain(len(columns)))
         return self.block_values(values, chunk[self.target])
 
     def block_values(self, values: FloatArray, labels: pd.Series) -> RowBlock:
-        """The same for rows already read as floats in ``columns`` order (labels indexed by row label)."""
+        """The same for rows already read as floats in the audit's coordinates, in ``columns``
+        order (labels indexed by row label)."""
         screen = screen_missing(values, labels, labels.index)
         raw = labels.to_numpy(dtype=object)
         codes = np.array(
@@ -375,12 +424,14 @@ class BlockSpec:
         return RowBlock(np.ascontiguousarray(values[np.ix_(rows, self.kept)]), codes[rows], labels.index[rows])
 
 
-def block_spec(summary: ChunkSummary, data: AuditData, target: str) -> BlockSpec:
+def block_spec(summary: ChunkSummary, data: AuditData, target: str, config: Config | None = None) -> BlockSpec:
     """The :class:`BlockSpec` that maps raw chunks onto ``data``'s columns and classes."""
     position = {name: j for j, name in enumerate(summary.features)}
     kept = np.array([position[f] for f in data.features], dtype=np.intp)
     text = all(isinstance(c, str) for c in data.classes)
-    return BlockSpec(target, summary.features, kept, {c: k for k, c in enumerate(data.classes)}, text)
+    return BlockSpec(
+        target, summary.features, kept, {c: k for k, c in enumerate(data.classes)}, text, summary.coordinates, config
+    )
 
 
 @dataclass(frozen=True)
@@ -414,4 +465,4 @@ def load_chunks(
     data = to_audit_data(summary, config, random_state)
     if source is None:
         return data
-    return dataclasses.replace(data, all_rows=ChunkRows(source, block_spec(summary, data, target)))
+    return dataclasses.replace(data, all_rows=ChunkRows(source, block_spec(summary, data, target, config)))

@@ -26,12 +26,13 @@ import numpy.typing as npt
 import pandas as pd
 
 from discaudit.config import Config
-from discaudit.dataset import AuditData
+from discaudit.dataset import AuditData, Coordinates
 from discaudit.errors import DataError
-from discaudit.sources.engines import load_lazy
+from discaudit.sources.engines import load_lazy, raw_arrow_columns
 from discaudit.sources.files import choose_columns, file_columns, kind
 from discaudit.sources.frame_schema import FrameColumns, judge_columns
 from discaudit.sources.frames import load_batches
+from discaudit.sources.screening import audit_values, choose_coordinates, exact_range
 
 FloatArray = npt.NDArray[np.float64]
 
@@ -133,6 +134,14 @@ class _ArrowBatches:
 
     def __init__(self, path: Path, columns: FrameColumns, index_col: str | None, batch_rows: int) -> None:
         self.path, self.columns, self.index_col, self.batch_rows = path, columns, index_col, batch_rows
+        # Coordinates from the first batch, as the chunked path chooses them from its first chunk.
+        first = next(iter(self._read(self._wanted())), None)
+        ranges = [] if first is None else [exact_range(c) for c in raw_arrow_columns(first, columns.features)]
+        self.coordinates = choose_coordinates(ranges) if first is not None else Coordinates.plain(len(columns.features))
+
+    def _wanted(self) -> list[str]:
+        assert self.columns.target is not None
+        return [*self.columns.features, self.columns.target, *([self.index_col] if self.index_col else [])]
 
     def _read(self, wanted: list[str]) -> Iterator[Any]:
         if kind(self.path) == "parquet":
@@ -156,13 +165,10 @@ class _ArrowBatches:
         yield from reader
 
     def __call__(self) -> Iterator[tuple[FloatArray, pd.Series]]:
-        from discaudit.sources.engines import float_block
-
         target = self.columns.target
         assert target is not None
-        wanted = [*self.columns.features, target, *([self.index_col] if self.index_col else [])]
         start = 0
-        for batch in self._read(wanted):
+        for batch in self._read(self._wanted()):
             n = batch.num_rows
             if self.index_col is not None:
                 index = pd.Index(
@@ -172,7 +178,8 @@ class _ArrowBatches:
                 index = pd.RangeIndex(start, start + n)
             start += n
             raw = batch.column(batch.schema.get_field_index(target)).to_pylist()
-            yield float_block(batch, self.columns.features), pd.Series(np.asarray(raw, dtype=object), index=index)
+            values = audit_values(raw_arrow_columns(batch, self.columns.features), self.coordinates)
+            yield values, pd.Series(np.asarray(raw, dtype=object), index=index)
 
 
 def _load_arrow(
@@ -185,31 +192,34 @@ def _load_arrow(
     batch_rows: int,
 ) -> AuditData:
     import narwhals as nw
-    import pyarrow as pa
 
-    schema = _arrow_schema(path, [*chosen, target])
-    empty = nw.from_native(pa.Table.from_batches([], schema=schema), eager_only=True)
-    columns = judge_columns(empty, target, config)
-    return load_batches(_ArrowBatches(path, columns, index_col, batch_rows), columns, config, random_state)
+    head = nw.from_native(_arrow_head(path, [*chosen, target]), eager_only=True)
+    columns = judge_columns(head, target, config)
+    batches = _ArrowBatches(path, columns, index_col, batch_rows)
+    return load_batches(batches, columns, batches.coordinates, config, random_state)
 
 
-def _arrow_schema(path: Path, wanted: list[str]) -> Any:
-    """The file's Arrow schema for ``wanted`` (a CSV's inferred from its first block)."""
+def _arrow_head(path: Path, wanted: list[str]) -> Any:
+    """The file's first rows as an Arrow table of the ``wanted`` columns (a CSV's types as pyarrow
+    infers them from its first block)."""
     import pyarrow as pa
 
     if kind(path) == "parquet":
         import pyarrow.parquet as pq
 
-        full = pq.ParquetFile(path).schema_arrow
+        batch = next(pq.ParquetFile(path).iter_batches(batch_size=16, columns=wanted), None)
     else:
         import pyarrow.csv as csv
 
-        full = csv.open_csv(
+        reader = csv.open_csv(
             path,
             read_options=csv.ReadOptions(block_size=_CSV_BLOCK_BYTES),
             convert_options=csv.ConvertOptions(include_columns=wanted),
-        ).schema
-    return pa.schema([full.field(full.get_field_index(c)) for c in wanted])
+        )
+        batch = next(iter(reader), None)
+    if batch is None:
+        raise DataError(f"{path}: the file has no data rows.")
+    return pa.Table.from_batches([batch]).select(wanted)
 
 
 def _first_line(exc: BaseException) -> str:

@@ -44,13 +44,13 @@ import numpy.typing as npt
 import pandas as pd
 
 from discaudit.config import Config
-from discaudit.dataset import AuditData, RowBlock, RowPass
+from discaudit.dataset import AuditData, Coordinates, RowBlock, RowPass
 from discaudit.errors import DataError
 from discaudit.jsonable import label
 from discaudit.sources.chunks import ChunkSummary, Reservoir, to_audit_data
 from discaudit.sources.frame_schema import CODE, KEY, ROW, FrameColumns, judge_columns
 from discaudit.sources.frames import summarize_batches
-from discaudit.sources.screening import check_magnitude, identical_columns, raise_for_missing
+from discaudit.sources.screening import check_magnitude, choose_coordinates, identical_columns, raise_for_missing
 from discaudit.stats.moments import ClassMoments
 from discaudit.stats.seeds import ENGINE_SAMPLE, stream_rng
 
@@ -91,7 +91,15 @@ class Engine(Protocol):
         """A pass over the rows of ``native`` (columns ROW, CODE, then ``features``)."""
         ...
 
-    def summaries(self, native: Any, target: str, columns: FrameColumns, config: Config, seed: int | None) -> Any:
+    def summaries(
+        self,
+        native: Any,
+        target: str,
+        columns: FrameColumns,
+        coordinates: Coordinates,
+        config: Config,
+        seed: int | None,
+    ) -> Any:
         """Per-batch summaries of ``native`` merged (the route above PUSHDOWN_MAX_FEATURES)."""
         ...
 
@@ -119,12 +127,20 @@ class _LocalEngine:
     def row_pass(self, native: Any, features: tuple[str, ...]) -> RowPass:
         return StreamedRows(lambda: self.batches(native), features)
 
-    def summaries(self, native: Any, target: str, columns: FrameColumns, config: Config, seed: int | None) -> Any:
+    def summaries(
+        self,
+        native: Any,
+        target: str,
+        columns: FrameColumns,
+        coordinates: Coordinates,
+        config: Config,
+        seed: int | None,
+    ) -> Any:
         def batches() -> Iterator[tuple[FloatArray, pd.Series]]:
             for batch in self.batches(native):
                 yield _batch_values(batch, columns.features, target)
 
-        return summarize_batches(batches, columns, config, seed)
+        return summarize_batches(batches, columns, coordinates, config, seed)
 
 
 class _PolarsLazy(_LocalEngine):
@@ -227,6 +243,21 @@ def float_block(batch: Any, features: tuple[str, ...]) -> FloatArray:
     return out
 
 
+def raw_arrow_columns(batch: Any, features: tuple[str, ...]) -> list[npt.NDArray[Any]]:
+    """The columns of an Arrow batch as numpy arrays: integers without nulls as integers (shifted
+    exactly by :func:`~discaudit.sources.screening.audit_values`), the rest as float64."""
+    import pyarrow as pa
+
+    out: list[npt.NDArray[Any]] = []
+    for j, name in enumerate(features):
+        column = _column(batch, name)
+        if pa.types.is_integer(column.type) and column.null_count == 0:
+            out.append(np.asarray(column.to_numpy(zero_copy_only=False)))
+        else:
+            out.append(float_block(batch, (features[j],))[:, 0])
+    return out
+
+
 def block_of(batch: Any, features: tuple[str, ...]) -> RowBlock:
     """A :class:`RowBlock` from a batch of audited rows (columns ROW, CODE, then ``features``)."""
     codes = np.asarray(_column(batch, CODE).to_numpy(zero_copy_only=False), dtype=np.intp)
@@ -257,19 +288,38 @@ class StreamedRows:
 
 @dataclass(frozen=True)
 class _Exprs:
-    """The narwhals expressions every query shares: float features, the audited-row filter."""
+    """The narwhals expressions every query shares: features in the audit's coordinates, the
+    audited-row filter."""
 
     target: str
     features: tuple[str, ...]
     float_target: bool
+    integers: frozenset[str] = frozenset()
+    coordinates: Coordinates | None = None
 
-    def x(self, name: str) -> Any:
+    def raw(self, name: str) -> Any:
+        """The column as the engine holds it, as float64 (for finiteness and rough means)."""
         import narwhals as nw
 
         return nw.col(name).cast(nw.Float64)
 
+    def x(self, name: str) -> Any:
+        """The column in the audit's coordinates, ``(x - location) * 2**-exponent``: an integer
+        column with an integer location is shifted in the engine's integer arithmetic first."""
+        import narwhals as nw
+
+        if self.coordinates is None:
+            return self.raw(name)
+        j = self.features.index(name)
+        location, exponent = self.coordinates.locations[j], self.coordinates.exponents[j]
+        if isinstance(location, int) and location and name in self.integers:
+            shifted = (nw.col(name) - nw.lit(location)).cast(nw.Float64)
+        else:
+            shifted = self.raw(name) - float(location) if location else self.raw(name)
+        return shifted * float(2.0**-exponent) if exponent else shifted
+
     def finite(self, name: str) -> Any:
-        return self.x(name).is_finite().fill_null(False)
+        return self.raw(name).is_finite().fill_null(False)
 
     def label_missing(self) -> Any:
         import narwhals as nw
@@ -313,11 +363,14 @@ def _first_pass(frame: Any, e: _Exprs) -> dict[str, Any]:
         nw.when(bad_row).then(nw.col(ROW)).min().alias("first_bad"),
     ]
     for j, c in enumerate(e.features):
+        exact = nw.col(c) if c in e.integers else e.raw(c)  # integers exactly, for the coordinates
         aggs += [
             _as_int(~e.finite(c)).sum().alias(f"miss{j}"),
-            nw.when(ok).then(e.x(c)).mean().alias(f"mean{j}"),
-            nw.when(ok).then(e.x(c)).min().alias(f"min{j}"),
-            nw.when(ok).then(e.x(c)).max().alias(f"max{j}"),
+            nw.when(ok).then(e.raw(c)).mean().alias(f"mean{j}"),
+            nw.when(ok).then(exact).min().alias(f"min{j}"),
+            nw.when(ok).then(exact).max().alias(f"max{j}"),
+            nw.when(e.finite(c)).then(exact).min().alias(f"lo{j}"),
+            nw.when(e.finite(c)).then(exact).max().alias(f"hi{j}"),
         ]
     keyed = frame.with_columns(e.label_missing().alias("__missing_label"))
     result = _collect(keyed.group_by(e.target, "__missing_label").agg(*aggs))
@@ -457,15 +510,18 @@ def load_lazy(
     source = frame.drop(label_column) if label_column is not None else frame
     columns = judge_columns(source, target, config)
     assert target is not None  # judge_columns demands it for a lazy frame
-    float_target = frame.collect_schema()[target].is_float()
-    e = _Exprs(target, columns.features, float_target)
+    schema = frame.collect_schema()
+    integers = frozenset(c for c in columns.features if schema[c].is_integer())
+    e = _Exprs(target, columns.features, schema[target].is_float(), integers)
     numbered = engine.numbered()
     lazy = nw.from_native(numbered)
     seed = int(stream_rng(random_state, ENGINE_SAMPLE).integers(2**31 - 1))
     try:
         if len(columns.features) > PUSHDOWN_MAX_FEATURES:
+            coordinates = _coordinates(_first_pass(lazy, e), len(columns.features))
+            e = dataclasses.replace(e, coordinates=coordinates)
             mapped = lazy.select(nw.col(ROW), nw.col(target), *[e.x(c).alias(c) for c in columns.features])
-            summary = engine.summaries(mapped.to_native(), target, columns, config, random_state)
+            summary = engine.summaries(mapped.to_native(), target, columns, coordinates, config, random_state)
         else:
             summary = _pushed_down(engine, numbered, lazy, e, columns, config, seed)
     except DataError:
@@ -476,6 +532,7 @@ def load_lazy(
             f"{type(exc).__name__}: {_first_line(exc)}"
         ) from None
     data = to_audit_data(summary, config, random_state)
+    e = dataclasses.replace(e, coordinates=summary.coordinates)
     codes = {c: k for k, c in enumerate(data.classes)}
     rows = lazy.filter(e.audited()).select(
         nw.col(ROW),
@@ -485,26 +542,62 @@ def load_lazy(
     return dataclasses.replace(data, all_rows=engine.row_pass(rows.to_native(), data.features))
 
 
+def _coordinates(first: dict[str, Any], p: int) -> Coordinates:
+    """The audit's coordinates from each column's exact range over its finite values."""
+    ranges: list[tuple[int | float, int | float] | None] = []
+    for j in range(p):
+        lows = [v for v in first[f"lo{j}"] if v is not None]
+        highs = [v for v in first[f"hi{j}"] if v is not None]
+        ranges.append((_exact(min(lows)), _exact(max(highs))) if lows else None)
+    return choose_coordinates(ranges)
+
+
+def _exact(value: Any) -> int | float:
+    return int(value) if isinstance(value, (int, np.integer)) and not isinstance(value, bool) else float(value)
+
+
+def _in_coordinates(value: Any, location: int | float, exponent: int) -> float:
+    """One raw value in the audit's coordinates, computed as :func:`screening.audit_values` does."""
+    if isinstance(location, int) and location and isinstance(value, (int, np.integer)):
+        shifted = float(int(value) - location)
+    else:
+        shifted = float(value) - location if location else float(value)
+    return float(np.ldexp(shifted, -exponent)) if exponent else shifted
+
+
 def _pushed_down(
     engine: Engine, numbered: Any, lazy: Any, e: _Exprs, columns: FrameColumns, config: Config, seed: int
 ) -> ChunkSummary:
+    import narwhals as nw
+
     p = len(e.features)
     first = _first_pass(lazy, e)
+    coordinates = _coordinates(first, p)
+    e = dataclasses.replace(e, coordinates=coordinates)
     groups = list(zip(first[e.target], first["__missing_label"], strict=True))
     missing_label_rows = sum(n for (_, gone), n in zip(groups, first["n_all"], strict=True) if gone)
+    unlabelled: tuple[Any, ...] = ()
+    if missing_label_rows:
+        found = _collect(lazy.filter(e.label_missing()).select(nw.col(ROW)).sort(ROW).head(5))
+        unlabelled = tuple(label(v) for v in found[ROW].to_list())
     missing = np.array([sum(first[f"miss{j}"]) for j in range(p)], dtype=np.int64)
     bad_rows = [r for r in first["first_bad"] if r is not None]
     first_bad = label(min(bad_rows)) if bad_rows else None
     if config.missing == "error":
-        raise_for_missing(missing, first_bad, missing_label_rows, list(e.features))
+        raise_for_missing(missing, first_bad, missing_label_rows, list(e.features), unlabelled)
     present = [r for r, (_, gone) in enumerate(groups) if not gone]
     dropped = {label(groups[r][0]): int(first["n_bad"][r]) for r in present if first["n_bad"][r]}
     kept = [r for r in present if first["n_ok"][r] > 0]
     classes = [groups[r][0] for r in kept]  # the engine's own values: queries compare against them
     counts = np.array([first["n_ok"][r] for r in kept], dtype=np.int64)
-    rough = np.array([[first[f"mean{j}"][r] for j in range(p)] for r in kept], dtype=np.float64).reshape(-1, p)
-    col_min = np.array([min((first[f"min{j}"][r] for r in kept), default=np.inf) for j in range(p)], dtype=float)
-    col_max = np.array([max((first[f"max{j}"][r] for r in kept), default=-np.inf) for j in range(p)], dtype=float)
+    where = list(zip(coordinates.locations, coordinates.exponents, strict=True))
+    rough = np.array(
+        [[_in_coordinates(first[f"mean{j}"][r], *where[j]) for j in range(p)] for r in kept], dtype=np.float64
+    ).reshape(-1, p)
+    low = np.array([[_in_coordinates(first[f"min{j}"][r], *where[j]) for j in range(p)] for r in kept]).reshape(-1, p)
+    high = np.array([[_in_coordinates(first[f"max{j}"][r], *where[j]) for j in range(p)] for r in kept]).reshape(-1, p)
+    col_min = low.min(axis=0) if kept else np.full(p, np.inf)
+    col_max = high.max(axis=0) if kept else np.full(p, -np.inf)
     check_magnitude(np.maximum(-col_min, col_max), list(e.features))  # before any square is formed
     if classes:
         d, s = _centred_pass(lazy, e, classes, rough)
@@ -512,7 +605,7 @@ def _pushed_down(
         scatter = s - d[:, :, None] * d[:, None, :] / counts[:, None, None]
     else:
         means, scatter = np.empty((0, p)), np.empty((0, p, p))
-    moments = ClassMoments(tuple(classes), counts, means, scatter)
+    moments = ClassMoments.from_summaries(tuple(classes), counts, means, scatter, low, high)
     capacity = config.sample_rows_per_class
     reservoirs = _sample(engine, numbered, e, classes, counts, capacity, seed) if classes else {}
     whole = all(n <= capacity for n in counts)
@@ -527,6 +620,7 @@ def _pushed_down(
         missing_per_column=missing,
         first_missing_row=first_bad,
         missing_labels=int(missing_label_rows),
+        missing_label_rows=unlabelled,
         dropped_per_class=dropped,
         non_numeric=columns.non_numeric,
         same_as=_same_as(lazy, e, sample, whole),
@@ -534,6 +628,7 @@ def _pushed_down(
         n_features_input=columns.n_features_input,
         capacity=capacity,
         distinct_limit=config.few_distinct_values,
+        coordinates=coordinates,
     )
 
 

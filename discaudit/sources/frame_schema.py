@@ -89,18 +89,27 @@ def judge_columns(frame: Any, target: str | None, config: Config, *, has_y: bool
             "one class label per row."
         )
     decimals = tuple(str(c) for c, t in schema.items() if isinstance(t, nw.Decimal) and c != target)
-    empty = frame.head(0)
+    # The shared rules judge a pandas frame: the first row (the rules refuse an input with none),
+    # typed by Arrow so that a null in it does not change its column's kind.
+    first = frame.head(1)
     if decimals:
-        empty = empty.with_columns(*[nw.col(c).cast(nw.Float64) for c in decimals])
-    if isinstance(empty, nw.LazyFrame):
-        empty = empty.collect()
-    zero: pd.DataFrame = empty.to_pandas()
-    columns, _ = split(zero, None if target is not None else np.empty(0), target)
-    lenient = dataclasses.replace(config, non_numeric="drop")
+        first = first.with_columns(*[nw.col(c).cast(nw.Float64) for c in decimals])
+    if isinstance(first, nw.LazyFrame):
+        first = first.collect()
+    head: pd.DataFrame = first.to_arrow().to_pandas(types_mapper=pd.ArrowDtype)
+    columns, _ = split(head, None if target is not None else np.empty(len(head)), target)
+    # Categorical codes (Config(categorical='codes')) and text holding numbers are conversions pandas
+    # input gets; an engine's column of that kind is judged as not numeric.
+    lenient = dataclasses.replace(config, non_numeric="drop", categorical="non_numeric")
     try:
-        numeric, non_numeric = numeric_columns(columns, lenient)
+        numeric, non_numeric, conversions = numeric_columns(columns, lenient)
     except DataError as exc:
         raise DataError(f"{engine} input: {exc}") from None
+    set_aside = {*non_numeric, *conversions}
+    non_numeric = [str(c) for c in columns.columns if str(c) in set_aside]  # in column order
+    numeric = numeric.drop(columns=list(conversions))
+    if not numeric.shape[1]:
+        raise DataError(f"{engine} input: no numeric feature: every feature column is non-numeric ({non_numeric[:8]}).")
     if non_numeric and config.non_numeric == "error":
         shown = ", ".join(f"{c!r} ({schema[c]})" for c in non_numeric[:8])
         raise DataError(

@@ -22,11 +22,11 @@ import numpy.typing as npt
 import pandas as pd
 
 from discaudit.config import Config
-from discaudit.dataset import AuditData, RowBlock
+from discaudit.dataset import AuditData, Coordinates, RowBlock
 from discaudit.errors import DataError
 from discaudit.sources.chunks import BlockSpec, ChunkSummary, block_spec, merge, summarize_values, to_audit_data
 from discaudit.sources.frame_schema import FrameColumns, judge_columns
-from discaudit.sources.screening import as_labels
+from discaudit.sources.screening import as_labels, audit_values, choose_coordinates, exact_range
 from discaudit.stats.seeds import CHUNK_MERGE, CHUNK_SAMPLE, stream_rng
 
 FloatArray = npt.NDArray[np.float64]
@@ -45,29 +45,36 @@ def is_eager_frame(X: Any) -> bool:
     return any(is_kind(X) for is_kind in kinds)
 
 
-def float_columns(frame: Any, names: tuple[str, ...]) -> FloatArray:
-    """The named columns of an eager narwhals frame as one C-ordered float64 array (nulls become NaN)."""
+def raw_columns(frame: Any, names: tuple[str, ...]) -> list[npt.NDArray[Any]]:
+    """The named columns of an eager narwhals frame as numpy arrays: integers as integers (so that
+    :func:`~discaudit.sources.screening.audit_values` can shift them exactly), the rest as float64
+    with nulls as NaN."""
     import narwhals as nw
 
-    out = np.empty((len(frame), len(names)), dtype=np.float64)
-    for j, name in enumerate(names):
-        out[:, j] = frame[name].cast(nw.Float64).to_numpy()
+    out = []
+    for name in names:
+        column = frame[name]
+        if column.dtype.is_integer() and column.null_count() == 0:
+            out.append(np.asarray(column.to_numpy()))
+        else:
+            out.append(np.asarray(column.cast(nw.Float64).to_numpy(), dtype=np.float64))
     return out
 
 
 @dataclass(frozen=True)
 class _Batches:
-    """The frame in batches: float features, labels indexed by row position."""
+    """The frame in batches: features in the audit's coordinates, labels indexed by row position."""
 
     frame: Any
     columns: FrameColumns
     labels: pd.Series | None  # external y, already on the row positions
+    coordinates: Coordinates
 
     def __call__(self) -> Iterator[tuple[FloatArray, pd.Series]]:
         n = len(self.frame)
         for a in range(0, max(n, 1), BATCH_ROWS):
             part = self.frame[a : a + BATCH_ROWS]
-            values = float_columns(part, self.columns.features)
+            values = audit_values(raw_columns(part, self.columns.features), self.coordinates)
             if self.labels is not None:
                 labels = self.labels.iloc[a : a + BATCH_ROWS]
             else:
@@ -104,21 +111,25 @@ def load_frame(X: Any, y: Any = None, *, target: str | None, config: Config, ran
         if isinstance(nw.from_native(y, series_only=True, pass_through=True), nw.Series):
             y = np.asarray(nw.from_native(y, series_only=True).to_numpy(), dtype=object)
         labels = as_labels(y, pd.RangeIndex(len(frame)))
-    return load_batches(_Batches(frame, columns, labels), columns, config, random_state)
+    # Coordinates from the first batch, as the chunked path chooses them from its first chunk.
+    first = raw_columns(frame[:BATCH_ROWS], columns.features)
+    coordinates = choose_coordinates([exact_range(c) for c in first])
+    return load_batches(_Batches(frame, columns, labels, coordinates), columns, coordinates, config, random_state)
 
 
 def load_batches(
     batches: Callable[[], Iterator[tuple[FloatArray, pd.Series]]],
     columns: FrameColumns,
+    coordinates: Coordinates,
     config: Config,
     random_state: int | None,
 ) -> AuditData:
     """The chunked path on float batches: summaries merged, then a row pass reading the batches again.
 
-    ``batches`` returns a fresh iterator of (features in ``columns.features`` order, labels indexed
-    by row label) each time it is called.
+    ``batches`` returns a fresh iterator of (features in ``columns.features`` order and in
+    ``coordinates``, labels indexed by row label) each time it is called.
     """
-    summary = summarize_batches(batches, columns, config, random_state)
+    summary = summarize_batches(batches, columns, coordinates, config, random_state)
     data = to_audit_data(summary, config, random_state)
     return dataclasses.replace(data, all_rows=FrameRows(batches, block_spec(summary, data, columns.target or "")))
 
@@ -126,6 +137,7 @@ def load_batches(
 def summarize_batches(
     batches: Callable[[], Iterator[tuple[FloatArray, pd.Series]]],
     columns: FrameColumns,
+    coordinates: Coordinates,
     config: Config,
     random_state: int | None,
 ) -> ChunkSummary:
@@ -139,10 +151,11 @@ def summarize_batches(
             config,
             config.sample_rows_per_class,
             stream_rng(random_state, CHUNK_SAMPLE, i),
+            coordinates=coordinates,
             non_numeric=columns.non_numeric,
             n_features_input=columns.n_features_input,
         )
         total = part if total is None else merge(total, part, stream_rng(random_state, CHUNK_MERGE, i))
-    if total is None:  # pragma: no cover - a frame always gives one batch
-        raise DataError(f"The {columns.engine} input has no rows.")
+    if total is None or total.n_rows_input == 0:
+        raise DataError(f"The {columns.engine} input has no data rows.")
     return total

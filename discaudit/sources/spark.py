@@ -27,7 +27,7 @@ import numpy as np
 import pandas as pd
 
 from discaudit.config import Config
-from discaudit.dataset import RowBlock, RowPass
+from discaudit.dataset import Coordinates, RowBlock, RowPass
 from discaudit.errors import DataError
 from discaudit.sources.chunks import ChunkSummary, merge, summarize_values
 from discaudit.sources.frame_schema import CODE, KEY, ROW, FrameColumns
@@ -99,9 +99,15 @@ class SparkEngine:
         return SparkRows(native, features)
 
     def summaries(
-        self, native: Any, target: str, columns: FrameColumns, config: Config, seed: int | None
+        self,
+        native: Any,
+        target: str,
+        columns: FrameColumns,
+        coordinates: Coordinates,
+        config: Config,
+        seed: int | None,
     ) -> ChunkSummary:
-        task = functools.partial(_summarize_partition, target, ROW, columns, config, seed)
+        task = functools.partial(_summarize_partition, target, ROW, columns, coordinates, config, seed)
         blobs = _collect_blobs(native.mapInPandas(task, schema="p long, blob binary"))
         parts = [pickle.loads(b) for b in blobs]
         if not parts:
@@ -127,6 +133,7 @@ def _summarize_partition(
     target: str,
     row: str,
     columns: FrameColumns,
+    coordinates: Coordinates,
     config: Config,
     seed: int | None,
     batches: Iterator[pd.DataFrame],
@@ -144,6 +151,7 @@ def _summarize_partition(
             config,
             config.sample_rows_per_class,
             stream_rng(seed, CHUNK_SAMPLE, p, i),
+            coordinates=coordinates,
             non_numeric=columns.non_numeric,
             n_features_input=columns.n_features_input,
         )
