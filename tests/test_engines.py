@@ -204,3 +204,16 @@ def test_numeric_labels_are_compared_as_the_engine_holds_them(engine, codes, off
     want = discaudit.preflight(frame, target="label")
     assert got.meta["classes"] == want.meta["classes"]
     assert_same_verdict(got, want)
+
+
+@pytest.mark.parametrize("engine", ["polars", "polars_lazy", "duckdb"])
+def test_integers_beyond_two_to_the_53_keep_their_varying_digits(engine, offset_data) -> None:
+    # float64 cannot hold every integer near 2**62: the shift to the column's origin is done in the
+    # engine's integer arithmetic before any float conversion, as pandas input does it.
+    rng = np.random.default_rng(2)
+    frame = offset_data.assign(big=np.int64(2**62) + rng.integers(0, 1000, len(offset_data)).astype(np.int64))
+    want = discaudit.preflight(frame, target="label")
+    got = discaudit.preflight(ENGINES[engine](frame), target="label")
+    assert_same_verdict(got, want)
+    assert_same_moments(moments(ENGINES[engine](frame)), moments(frame))
+    assert moments(frame).scatter[0, -1, -1] > 0  # the varying digits survived (a float cast would lose them)
