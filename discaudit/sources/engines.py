@@ -5,12 +5,17 @@ Nothing but summaries, a per-class sample and the results of the row pass leaves
 
 1. **Moments pushed down** (at most :data:`PUSHDOWN_MAX_FEATURES` features). One grouped query over
    every row gives, per class, the row count, the rows with a missing or non-finite value, each
-   column's missing count, and over the audited rows (label present, every feature finite) the
-   means, minima and maxima. A second grouped query gives the sums of centred products
-   ``sum((x - m)(y - m'))`` and the sums of deviations ``d = sum(x - m)``, each class centred at its
-   own mean from the first query; the mean is then ``m + d/n`` and the scatter
-   ``S - d d'/n`` (the corrected two-pass algorithm of Chan, Golub & LeVeque, 1983). Raw sums of
-   cross-products (``sum(x y) - n m m'``) are never formed: on offset data they lose every digit.
+   column's missing count and exact range (integers as integers), and over the audited rows (label
+   present, every feature finite) the means, minima and maxima. From the ranges the shared rule
+   (:func:`~discaudit.sources.screening.choose_coordinates`) picks the audit's coordinates, as for
+   pandas input: an offset-dominated column is audited about its minimum, an integer column beyond
+   2**53 is shifted in the engine's integer arithmetic before any float conversion. A second
+   grouped query, in those coordinates, gives the sums of centred products ``sum((x - m)(y - m'))``
+   and of deviations ``d = sum(x - m)``, each class centred at its own mean from the first query;
+   the mean is then ``m + d/n`` and the scatter ``S - d d'/n`` (the corrected two-pass algorithm;
+   Chan, Golub & LeVeque 1983, "Algorithms for computing the sample variance", The American
+   Statistician 37(3)). Raw sums of cross-products (``sum(x y) - n m m'``) are never formed: on
+   offset data they lose every digit.
 2. **A seeded per-class sample.** Each row gets a key in [0, 1) from a hash of its row label and a
    seed drawn from ``random_state`` (:data:`discaudit.stats.seeds.ENGINE_SAMPLE`); a class keeps its
    ``Config.sample_rows_per_class`` rows of smallest key (all its rows when it has fewer), a uniform
