@@ -81,6 +81,32 @@ def test_spark_row_pass_runs_on_the_executors(spark, offset_data) -> None:
     assert seen == list(range(len(offset_data)))  # every row once, labelled by its position
 
 
+def test_only_summaries_and_the_sample_reach_the_driver(monkeypatch, spark, offset_data) -> None:
+    sdf = spark.createDataFrame(offset_data)
+    DataFrame = type(sdf)  # the session's DataFrame class (classic or Connect)
+    fetched: list[int] = []
+    for name in ("collect", "toPandas", "toArrow", "_collect_as_arrow"):
+        original = getattr(DataFrame, name, None)
+        if original is None:
+            continue
+
+        def counted(self, *args, _original=original, **kwargs):
+            out = _original(self, *args, **kwargs)
+            rows = out.num_rows if hasattr(out, "num_rows") else len(out)
+            fetched.append(
+                rows
+                if not isinstance(out, list) or not out or not hasattr(out[0], "num_rows")
+                else sum(b.num_rows for b in out)
+            )
+            return out
+
+        monkeypatch.setattr(DataFrame, name, counted)
+    config = Config(sample_rows_per_class=10)
+    verdict = discaudit.preflight(sdf, target="label", config=config)
+    assert verdict.meta["n_rows"] == len(offset_data) and verdict.meta["sample"]["per_class"]["class_0"] == 10
+    assert fetched and max(fetched) < len(offset_data) / 2  # never the rows themselves: summaries, sample keys
+
+
 def test_spark_above_the_pushdown_limit_summarizes_in_map_in_pandas(monkeypatch, spark, offset_data) -> None:
     from discaudit.sources import engines
 
