@@ -29,7 +29,7 @@ from discaudit.config import Config
 from discaudit.dataset import AuditData, Coordinates
 from discaudit.errors import DataError
 from discaudit.sources.engines import load_lazy, raw_arrow_columns
-from discaudit.sources.files import choose_columns, file_columns, kind
+from discaudit.sources.files import choose_columns, file_columns, kind, no_data_rows
 from discaudit.sources.frame_schema import FrameColumns, judge_columns
 from discaudit.sources.frames import load_batches
 from discaudit.sources.screening import audit_values, choose_coordinates, exact_range
@@ -42,6 +42,30 @@ ARROW_BATCH_ROWS = 200_000
 _CSV_BLOCK_BYTES = 16 << 20
 
 READERS = ("auto", "duckdb", "arrow")
+
+#: Cells read as missing values in a CSV file: pandas' ``read_csv`` defaults (its ``na_values``
+#: documentation), so that DuckDB and pyarrow read a file as the in-memory reader does.
+CSV_MISSING = (
+    "",
+    "#N/A",
+    "#N/A N/A",
+    "#NA",
+    "-1.#IND",
+    "-1.#QNAN",
+    "-NaN",
+    "-nan",
+    "1.#IND",
+    "1.#QNAN",
+    "<NA>",
+    "N/A",
+    "NA",
+    "NULL",
+    "NaN",
+    "None",
+    "n/a",
+    "nan",
+    "null",
+)
 
 
 def duckdb_installed() -> bool:
@@ -65,8 +89,12 @@ def _relation(path: Path) -> Any:
     connection = duckdb.connect()
     try:
         if kind(path) == "parquet":
-            return connection.read_parquet(str(path))
-        return connection.read_csv(str(path))
+            relation = connection.read_parquet(str(path))
+        else:
+            relation = connection.read_csv(str(path), na_values=list(CSV_MISSING))
+        if not relation.limit(1).fetchall():
+            raise no_data_rows(path)
+        return relation
     except duckdb.Error as exc:
         raise DataError(f"{path}: DuckDB cannot read it: {_first_line(exc)}") from None
 
@@ -160,7 +188,9 @@ class _ArrowBatches:
         reader = csv.open_csv(
             self.path,
             read_options=csv.ReadOptions(block_size=_CSV_BLOCK_BYTES, use_threads=True),
-            convert_options=csv.ConvertOptions(include_columns=wanted, column_types=floats),
+            convert_options=csv.ConvertOptions(
+                include_columns=wanted, column_types=floats, null_values=list(CSV_MISSING), strings_can_be_null=True
+            ),
         )
         yield from reader
 
@@ -214,11 +244,13 @@ def _arrow_head(path: Path, wanted: list[str]) -> Any:
         reader = csv.open_csv(
             path,
             read_options=csv.ReadOptions(block_size=_CSV_BLOCK_BYTES),
-            convert_options=csv.ConvertOptions(include_columns=wanted),
+            convert_options=csv.ConvertOptions(
+                include_columns=wanted, null_values=list(CSV_MISSING), strings_can_be_null=True
+            ),
         )
         batch = next(iter(reader), None)
-    if batch is None:
-        raise DataError(f"{path}: the file has no data rows.")
+    if batch is None or batch.num_rows == 0:
+        raise no_data_rows(path)
     return pa.Table.from_batches([batch]).select(wanted)
 
 
