@@ -119,6 +119,9 @@ class AuditData:
     all_rows : RowPass or None
         Every row of the input in blocks; None when the input cannot be read again (a
         one-shot iterable of chunks).
+    memo : dict
+        Intermediate results that more than one check computes from these data (the per-class
+        robust fits), filled by :meth:`shared` on first use; never part of any output.
     """
 
     values: FloatArray
@@ -131,6 +134,7 @@ class AuditData:
     distinct_counts: dict[str, int] = field(default_factory=dict)
     sample: SampleInfo | None = None
     all_rows: RowPass | None = field(default=None, repr=False, compare=False)
+    memo: dict[Any, Any] = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def n(self) -> int:
@@ -143,3 +147,14 @@ class AuditData:
     def class_rows(self, k: int) -> npt.NDArray[np.intp]:
         """Positions of the rows of class code ``k``."""
         return np.flatnonzero(self.codes == k)
+
+    def shared(self, key: Any, compute: Callable[[], T]) -> T:
+        """``compute()`` once per key for these data; later calls return the same object.
+
+        For work two checks need (e.g. the robust fits the outlier and normality checks both
+        use): neither reads the other's finding, and the work is done once. ``key`` must name
+        everything the result depends on besides the data (settings, seed).
+        """
+        if key not in self.memo:
+            self.memo[key] = compute()
+        return self.memo[key]  # type: ignore[no-any-return]

@@ -23,6 +23,8 @@ The values are kept as they were when verdicts were first published, so old seed
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 
 CHUNK_SAMPLE = 1
@@ -43,7 +45,18 @@ def stream_rng(random_state: int | None, salt: int, *key: int) -> np.random.Gene
     return np.random.default_rng(np.random.SeedSequence(_entropy(random_state, salt, key)))
 
 
-def class_seeds(random_state: int | None, n_classes: int, salt: int) -> list[int]:
-    """One integer seed per class for the step named by ``salt`` (``SeedSequence`` spawning)."""
+def class_seeds(random_state: int | None, n_classes: int, salt: int, ranks: Sequence[int] | None = None) -> list[int]:
+    """One integer seed per class for the step named by ``salt`` (``SeedSequence`` spawning).
+
+    ``ranks`` gives each class's place in a canonical order that does not depend on the class
+    labels (:func:`discaudit.stats.canonical.canonical_ranks`): class k gets the seed of child
+    ``ranks[k]``, so renaming or reordering the labels hands every class the same seed. Without
+    it the seeds follow the class codes.
+    """
     base = np.random.SeedSequence(_entropy(random_state, salt, ()))
-    return [int(child.generate_state(1)[0]) for child in base.spawn(n_classes)]
+    children = [int(child.generate_state(1)[0]) for child in base.spawn(n_classes)]
+    if ranks is None:
+        return children
+    if sorted(ranks) != list(range(n_classes)):
+        raise ValueError(f"ranks must be a permutation of 0..{n_classes - 1}; got {list(ranks)}")
+    return [children[r] for r in ranks]
