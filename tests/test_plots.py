@@ -104,7 +104,8 @@ def test_cutoff_line_equals_the_findings_cutoff(demo, outlier_figure):
         y = line.get_ydata()
         assert y[0] == y[1] == pytest.approx(per_class[name]["cutoff"], rel=1e-12)
         # the default rule: the scaled F(p, m - p) 0.975 quantile for m fitted rows (scipy)
-        m = per_class[name]["n_reweighted"]
+        m = per_class[name]["fit_internals"]["n_reweighted"]
+        assert per_class[name]["fit_internals"]["p_used"] == p
         expected = p * (m - 1) * (m + 1) / (m * (m - p)) * sps.f.ppf(0.975, p, m - p)
         assert per_class[name]["cutoff"] == pytest.approx(expected, rel=1e-12)
 
@@ -126,7 +127,7 @@ def test_the_label_cap_keeps_the_farthest(demo, monkeypatch):
     for k, name in enumerate(demo.meta["classes"]):
         ax = _panel(fig, f"Outliers in class {name}")
         labels = {t.get_text() for t in _gids(ax, f"flag-label:{k}")}
-        farthest = rows[rows["class"] == name].sort_values("distance", ascending=False).index[:3]
+        farthest = rows[rows["class"] == name].sort_values("squared_distance", ascending=False).index[:3]
         assert labels == set(map(str, farthest))
 
 
@@ -157,7 +158,8 @@ def test_outlier_qq_positions_match_statsmodels(demo, outlier_figure):
     for k, name in enumerate(demo.meta["classes"]):
         (points,) = _gids(ax, f"qq:{k}")
         xy = points.get_offsets()
-        d = arrays["distance"][np.asarray(arrays["class"] == name)]
+        d = arrays["squared_distance"][np.asarray(arrays["class"] == name)]
+        assert len(demo.findings["outliers"].details["per_class"][name]["features_used"]) == p
         # statsmodels' plotting positions (i - a) / (n + 1 - 2a) with a = 0.5 are (i - 0.5) / n
         reference = ProbPlot(d, dist=sps.chi2, distargs=(p,), a=0.5, fit=False).theoretical_quantiles
         np.testing.assert_allclose(xy[:, 0], reference, rtol=1e-12)
@@ -372,7 +374,8 @@ def test_labels_with_dollar_signs_and_markup_draw_literally():
 def test_a_skipped_check_draws_a_message_and_is_not_plottable(flakes):
     frame, _ = flakes
     v = discaudit.preflight(frame, target=TARGET, config=discaudit.Config(severity={"outliers": "off"}), random_state=0)
-    assert "outliers" not in plottable(v) and "normality" not in plottable(v)
+    assert "outliers" not in plottable(v)
+    assert "normality" in plottable(v)  # its Q-Q distances are its own, not the outlier check's
     fig = v.plot("outliers")
     assert "did not run" in " ".join(t.get_text() for t in fig.axes[0].texts)
 
