@@ -7,6 +7,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 from scipy import linalg
 
+from discaudit.checks._robust import canonical_layout
 from discaudit.dataset import AuditData
 from discaudit.findings import Finding, fmt, fmt_p, names
 from discaudit.jsonable import label
@@ -65,14 +66,15 @@ def _spread(moments: ClassMoments, features: tuple[str, ...]) -> dict[Any, dict[
     return out
 
 
-def _most_different(spread: dict[Any, dict[str, Any]]) -> Any:
-    """The class whose most different direction is farthest from 1 (log scale); ties go to the wider class."""
+def _most_different(spread: dict[Any, dict[str, Any]], rank: dict[Any, int]) -> Any:
+    """The class whose most different direction is farthest from 1 (log scale); ties go to the wider class,
+    then to the class first in the canonical order (content, never names)."""
     return max(
         spread,
         key=lambda c: (
             round(abs(np.log(spread[c]["most_different_direction_variance_ratio"])), 12),
             spread[c]["most_different_direction_variance_ratio"] > 1,
-            str(c),
+            -rank[c],
         ),
     )
 
@@ -166,7 +168,9 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     box = box_m_from_moments(sub)
     bic = covariance_bic(sub)
     spread = _spread(sub, data.features)
-    worst = _most_different(spread)
+    _, ranks = canonical_layout(data)
+    rank = {label(data.classes[k]): ranks[k] for k in range(len(data.classes))}
+    worst = _most_different(spread, rank)
     details.update(
         {
             "box_m": {

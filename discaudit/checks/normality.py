@@ -308,11 +308,15 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     graded = [(cls, s) for cls, s in per_class.items() if "status" in s]
     failing = [c for c, s in graded if s["status"] == "fail"]
     warning = [c for c, s in graded if s["status"] == "warn"]
-    driven = [c for c, s in graded if s.get("driven_by_flagged_rows")]
+    rank = {label(data.classes[k]): ranks[k] for k in range(len(data.classes))}  # content, never names
+    driven = sorted(
+        (c for c, s in graded if s.get("driven_by_flagged_rows")),
+        key=lambda c: (-per_class[c]["n_flagged_by_outlier_check"], rank[c]),
+    )
     details["worst_class"] = None
     worst = None
     if graded:
-        worst_cls, worst = max(graded, key=lambda t: (_RANK[t[1]["status"]], t[1]["departure_size"], str(t[0])))
+        worst_cls, worst = max(graded, key=lambda t: (_RANK[t[1]["status"]], t[1]["departure_size"], -rank[t[0]]))
         details["worst_class"] = worst_cls
     K = len(data.classes)
     figure = f"{len(failing) + len(warning)}/{K} classes"

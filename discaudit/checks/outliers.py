@@ -22,7 +22,7 @@ import numpy as np
 import pandas as pd
 from scipy import stats as sps
 
-from discaudit.checks._robust import ClassFit, RobustFits, robust_fits, robust_min_rows
+from discaudit.checks._robust import ClassFit, RobustFits, canonical_layout, robust_fits, robust_min_rows
 from discaudit.dataset import AuditData, RowBlock
 from discaudit.findings import Finding, fmt, fmt_p, names
 from discaudit.jsonable import label
@@ -351,14 +351,14 @@ def _class_details(
     return details
 
 
-def _tie_statements(per_class: dict[Any, Any]) -> list[str]:
+def _tie_statements(per_class: dict[Any, Any], rank: dict[Any, int]) -> list[str]:
     """Sentences about exact fits and features left out of a class's fit, the largest share first."""
     exact_rows = []
     for cls, v in per_class.items():
         for feature, t in v["left_out_of_fit"].items():
             if t["reason"].endswith("(exact fit)"):
                 exact_rows.append((t["rows_at_modal_value"] / v["n"], cls, feature, t, v["n"]))
-    exact_rows.sort(key=lambda r: (-r[0], str(r[1]), r[2]))
+    exact_rows.sort(key=lambda r: (-r[0], rank[r[1]], r[2]))
     parts = [
         f"{t['rows_at_modal_value']} of {n} rows of class {cls} share {feature} {fmt(t['modal_value'], 6)}: a robust "
         "fit on it would be exact on that hyperplane, so distances off it would not be outlyingness, and it is "
@@ -375,7 +375,7 @@ def _tie_statements(per_class: dict[Any, Any]) -> list[str]:
             f"features with few distinct values within a class ({names(few, 4)}) are left out of that class's fit"
         )
     skewed = sorted(
-        ((abs(t["octile_skewness"]), str(cls), cls, f, t) for cls, v in per_class.items()
+        ((abs(t["octile_skewness"]), rank[cls], cls, f, t) for cls, v in per_class.items()
          for f, t in v["left_out_of_fit"].items() if t["reason"] == "strongly skewed"),
         key=lambda r: (-r[0], r[1], r[3]),
     )  # fmt: skip
@@ -397,7 +397,7 @@ def _tie_statements(per_class: dict[Any, Any]) -> list[str]:
     return parts
 
 
-def _tail_statement(per_class: dict[Any, Any], config: Config) -> str | None:
+def _tail_statement(per_class: dict[Any, Any], config: Config, rank: dict[Any, int]) -> str | None:
     """Classes whose rows lie beyond the Gaussian cut-off in bulk without being far out: a heavy tail."""
     heavy = [
         (v["fraction_beyond_cutoff"], cls, v)
@@ -406,7 +406,7 @@ def _tail_statement(per_class: dict[Any, Any], config: Config) -> str | None:
     ]
     if not heavy:
         return None
-    heavy.sort(key=lambda t: (-t[0], str(t[1])))
+    heavy.sort(key=lambda t: (-t[0], rank[t[1]]))
     share, cls, v = heavy[0]
     more = f" (and in {len(heavy) - 1} more classes)" if len(heavy) > 1 else ""
     return (
@@ -501,8 +501,10 @@ def judge(
     influence = (
         f"class means move up to {fmt(max_shift)} pooled SD beyond sampling noise and the flagged rows {widening}"
     )
-    statements = _tie_statements(per_class)
-    tail = _tail_statement(per_class, config)
+    _, ranks = canonical_layout(data)  # ties between classes are broken by content, never by name
+    rank = {label(data.classes[k]): ranks[k] for k in range(len(data.classes))}
+    statements = _tie_statements(per_class, rank)
+    tail = _tail_statement(per_class, config, rank)
     if tail:
         statements.append(tail)
     extra = "".join(f"; {s}" for s in statements)
@@ -527,7 +529,7 @@ def judge(
     if total and (max_shift > config.outlier_mean_shift_warn or some_excess or wide):
         share = ""
         if wide:
-            fraction, cls = max(wide, key=lambda t: (t[0], str(t[1])))
+            fraction, cls = max(wide, key=lambda t: (t[0], -rank[t[1]]))
             share = f"{fmt(100 * fraction, 3)}% of class {cls} is flagged; "
         return Finding(
             KEY,
