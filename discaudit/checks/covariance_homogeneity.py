@@ -50,6 +50,9 @@ def _spread(moments: ClassMoments, features: tuple[str, ...]) -> dict[Any, dict[
         S_other = scatter / (moments.counts[others].sum() - others.size)
         ld_k, ld_other = logdet_spd(covs[k]), logdet_spd(S_other)
         values, vectors = linalg.eigh(covs[k], S_other)
+        values = np.clip(
+            values, np.finfo(float).tiny, None
+        )  # rounding can push a ratio of a near-singular class below 0
         j = int(np.argmax(np.abs(np.log(values))))
         loading = vectors[:, j] * sd
         loading = loading / np.max(np.abs(loading))

@@ -287,6 +287,8 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         "discrete_features": list(discrete),
         "distinct_values": discrete,
         "features_tested": list(features),
+        "n_classes": len(data.classes),
+        "few_distinct_values": config.few_distinct_values,
         "alpha": config.normality_alpha,
         "rule": (
             f"fail when a test rejects at alpha = {config.normality_alpha} and the departure is large "

@@ -24,7 +24,7 @@ from scipy import stats as sps
 
 from discaudit.checks._robust import ClassFit, RobustFits, canonical_layout, robust_fits, robust_min_rows
 from discaudit.dataset import AuditData, RowBlock
-from discaudit.findings import Finding, fmt, fmt_p, names
+from discaudit.findings import Finding, fmt, fmt_p
 from discaudit.jsonable import label
 from discaudit.stats._linalg import logdet_spd, mahalanobis_sq
 from discaudit.stats.blocks import ROW_BLOCK, block_starts
@@ -351,42 +351,53 @@ def _class_details(
     return details
 
 
-def _tie_statements(per_class: dict[Any, Any], rank: dict[Any, int]) -> list[str]:
-    """Sentences about exact fits and features left out of a class's fit, the largest share first."""
-    exact_rows = []
-    for cls, v in per_class.items():
-        for feature, t in v["left_out_of_fit"].items():
-            if t["reason"].endswith("(exact fit)"):
-                exact_rows.append((t["rows_at_modal_value"] / v["n"], cls, feature, t, v["n"]))
-    exact_rows.sort(key=lambda r: (-r[0], rank[r[1]], r[2]))
-    parts = [
-        f"{t['rows_at_modal_value']} of {n} rows of class {cls} share {feature} {fmt(t['modal_value'], 6)}: a robust "
-        "fit on it would be exact on that hyperplane, so distances off it would not be outlyingness, and it is "
-        "left out of that class's fit"
-        for _, cls, feature, t, n in exact_rows[:SUMMARY_CLASSES]
-    ]
-    if len(exact_rows) > SUMMARY_CLASSES:
-        parts[-1] += f" (likewise {len(exact_rows) - SUMMARY_CLASSES} more features in the details)"
-    few = sorted(
-        {f for v in per_class.values() for f, t in v["left_out_of_fit"].items() if t["reason"] == "few distinct values"}
-    )
-    if few:
-        parts.append(
-            f"features with few distinct values within a class ({names(few, 4)}) are left out of that class's fit"
-        )
-    skewed = sorted(
-        ((abs(t["octile_skewness"]), rank[cls], cls, f, t) for cls, v in per_class.items()
-         for f, t in v["left_out_of_fit"].items() if t["reason"] == "strongly skewed"),
+_REASONS = {
+    "exact_fit": "for an exact fit",
+    "few distinct values": "with few distinct values",
+    "strongly skewed": "strongly skewed",
+}
+
+
+def left_out_counts(per_class: dict[Any, Any]) -> dict[str, int]:
+    """How many (feature, class) pairs are left out of a class's fit, by reason."""
+    counts = dict.fromkeys(_REASONS, 0)
+    for v in per_class.values():
+        for t in v["left_out_of_fit"].values():
+            counts["exact_fit" if t["reason"].endswith("(exact fit)") else t["reason"]] += 1
+    return counts
+
+
+def _tie_statements(per_class: dict[Any, Any], rank: dict[Any, int], counts: dict[str, int]) -> list[str]:
+    """Sentences about features left out of a class's fit (the largest exact-fit share as the example) and exact fits."""
+    parts = []
+    exact = sorted(
+        ((t["rows_at_modal_value"] / v["n"], rank[cls], cls, f, t, v["n"]) for cls, v in per_class.items()
+         for f, t in v["left_out_of_fit"].items() if t["reason"].endswith("(exact fit)")),
         key=lambda r: (-r[0], r[1], r[3]),
     )  # fmt: skip
-    if skewed:
-        _, _, cls, feature, t = skewed[0]
-        others = sorted({f for *_, f, _ in skewed[1:]} - {feature})
+    if exact:
+        _, _, cls, feature, t, n = exact[0]
         parts.append(
-            f"{feature} is strongly skewed within class {cls} (octile skewness {fmt(t['octile_skewness'])}): a robust "
-            "fit on its raw scale would read the long tail as outliers, so it is left out of that class's fit (a log "
-            "or similar transform may suit it)" + (f"; likewise {names(others, 4)}" if others else "")
+            f"{t['rows_at_modal_value']} of {n} rows of class {cls} share {feature} {fmt(t['modal_value'], 6)}: a "
+            "robust fit on it would be exact on that hyperplane, so distances off it would not be outlyingness, and "
+            "it is left out of that class's fit"
         )
+    total = sum(counts.values())
+    if total > len(exact[:1]):
+        kinds = ", ".join(f"{n} {_REASONS[k]}" for k, n in counts.items() if n)
+        skewed = sorted(
+            ((abs(t["octile_skewness"]), rank[cls], cls, f, t) for cls, v in per_class.items()
+             for f, t in v["left_out_of_fit"].items() if t["reason"] == "strongly skewed"),
+            key=lambda r: (-r[0], r[1], r[3]),
+        )  # fmt: skip
+        example = ""
+        if skewed:
+            _, _, cls, feature, t = skewed[0]
+            example = (
+                f"; the most skewed, {feature} in class {cls} (octile skewness {fmt(t['octile_skewness'])}), would "
+                "have its long tail read as outliers on its raw scale (a log or similar transform may suit it)"
+            )
+        parts.append(f"{total} feature-class pairs are left out of the robust fits ({kinds}){example}")
     for cls, v in per_class.items():
         if v["exact_fit"]:
             plane = v.get("hyperplane", {})
@@ -408,7 +419,8 @@ def _tail_statement(per_class: dict[Any, Any], config: Config, rank: dict[Any, i
         return None
     heavy.sort(key=lambda t: (-t[0], rank[t[1]]))
     share, cls, v = heavy[0]
-    more = f" (and in {len(heavy) - 1} more classes)" if len(heavy) > 1 else ""
+    n_more = len(heavy) - 1
+    more = f" (likewise in {n_more} more class{'es' if n_more > 1 else ''})" if n_more else ""
     return (
         f"{v['n_beyond_cutoff']} of {v['n']} rows of class {cls} ({fmt(100 * share, 3)}%) lie beyond the Gaussian "
         f"cut-off{more}, far more than a Gaussian tail gives ({fmt_p(v['beyond_cutoff_p_value'])}), but only those "
@@ -503,7 +515,14 @@ def judge(
     )
     _, ranks = canonical_layout(data)  # ties between classes are broken by content, never by name
     rank = {label(data.classes[k]): ranks[k] for k in range(len(data.classes))}
-    statements = _tie_statements(per_class, rank)
+    counts = left_out_counts(per_class)
+    details["left_out_of_fit_counts"] = counts
+    details["n_left_out_of_fit"] = sum(counts.values())
+    details["n_heavy_tailed_classes"] = sum(
+        v["fraction_beyond_cutoff"] > config.outlier_fraction_warn and v["beyond_cutoff_p_value"] < 0.001
+        for v in per_class.values()
+    )
+    statements = _tie_statements(per_class, rank, counts)
     tail = _tail_statement(per_class, config, rank)
     if tail:
         statements.append(tail)
@@ -514,7 +533,7 @@ def judge(
         return Finding(
             KEY,
             "fail",
-            f"{total} of {n_rows} rows lie far out from their class ({far}) and distort LDA's estimates: {influence}"
+            f"{total} of {n_rows} rows {'lies' if total == 1 else 'lie'} far out from their class ({far}) and {'distorts' if total == 1 else 'distort'} LDA's estimates: {influence}"
             f"{extra}.",
             details,
             figure,
@@ -534,13 +553,13 @@ def judge(
         return Finding(
             KEY,
             "warn",
-            f"{total} of {n_rows} rows lie far out from their class ({far}); {share}{influence}{extra}.",
+            f"{total} of {n_rows} rows {'lies' if total == 1 else 'lie'} far out from their class ({far}); {share}{influence}{extra}.",
             details,
             figure,
             arrays,
         )
     if total:
-        head = f"{total} of {n_rows} rows lie far out from their class ({far}), with little influence: {influence}"
+        head = f"{total} of {n_rows} rows {'lies' if total == 1 else 'lie'} far out from their class ({far}), with little influence: {influence}"
     else:
         head = f"No row lies far out from its class (0 of {n_rows} flagged)"
     return Finding(KEY, "pass", head + extra + ".", details, figure, arrays)

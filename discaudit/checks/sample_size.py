@@ -4,8 +4,6 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-import numpy as np
-
 from discaudit.checks._robust import canonical_layout
 from discaudit.dataset import AuditData
 from discaudit.findings import Finding, fmt, sentence
