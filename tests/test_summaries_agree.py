@@ -27,7 +27,7 @@ import discaudit
 from discaudit.findings import fmt
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks" / "validation"))
-from open_data import OPEN_DATA  # noqa: E402
+from open_data import OPEN_DATA
 
 DATASETS = [*OPEN_DATA, "demo"]
 NUMBER = re.compile(r"(?<![\w.])[-+]?\d+(?:\.\d+)?(?:e[-+]?\d+)?%?(?![\w])")
