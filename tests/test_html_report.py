@@ -234,7 +234,7 @@ def test_details_use_readable_headings_and_the_summary_number_format(demo, repor
     # Box's M p-value on the demo is 0 in float64: the table prints it as the summary does
     assert demo.findings["covariance_homogeneity"].details["box_m"]["p_value"] == 0.0
     section = report.split('id="finding-covariance_homogeneity"')[1].split("</section>")[0]
-    assert "<th>p-value</th><td class=\"num\">p &lt; 1e-16</td>" in section
+    assert '<th>p-value</th><td class="num">p &lt; 1e-16</td>' in section
     assert "<th>p_value</th>" not in section
     # feature names keep their underscores; detail keys do not
     assert "<th>thickness_um</th>" in report and "<th>max VIF feature</th>" in report

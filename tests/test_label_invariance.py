@@ -124,3 +124,22 @@ def test_renaming_out_of_order_and_shuffling_leave_every_figure_and_status(datas
     # the same rows are flagged, whatever the classes are called
     assert set(a.outlier_rows().index) == set(b.outlier_rows().index)
     assert {k: f.status for k, f in a.findings.items()} == {k: f.status for k, f in b.findings.items()}
+
+
+def test_row_keys_depend_on_values_only_and_digests_on_the_set_of_rows() -> None:
+    from discaudit.stats.canonical import canonical_order, canonical_ranks, content_digest, row_keys
+
+    rng = np.random.default_rng(0)
+    X = rng.normal(size=(500, 4))
+    X[7] = X[3]
+    X[11, 2] = -0.0
+    Y = X.copy()
+    Y[11, 2] = 0.0
+    keys = row_keys(X)
+    assert keys[7] == keys[3] and np.array_equal(keys, row_keys(Y))  # equal rows, and -0.0 == 0.0
+    assert len(set(keys.tolist())) == 499
+    order = rng.permutation(500)
+    assert content_digest(row_keys(X[order])) == content_digest(keys)
+    np.testing.assert_array_equal(X[order][canonical_order(row_keys(X[order]))], X[canonical_order(keys)])
+    assert not np.array_equal(row_keys(X[:, ::-1]), keys)  # column order matters
+    assert canonical_ranks([5, 3, 5], [9, 1, 2]) == [2, 0, 1]  # by count, then digest

@@ -406,7 +406,9 @@ def _renderer(fig):
     return canvas.get_renderer()
 
 
-@pytest.mark.parametrize("check", ["outliers", "normality", "collinearity", "scale_disparity", "covariance_homogeneity"])
+@pytest.mark.parametrize(
+    "check", ["outliers", "normality", "collinearity", "scale_disparity", "covariance_homogeneity"]
+)
 def test_legends_sit_outside_the_axes(demo, check):
     fig = plot_verdict(demo, check)
     renderer = _renderer(fig)
@@ -417,7 +419,12 @@ def test_legends_sit_outside_the_axes(demo, check):
         box, frame = legend.get_window_extent(renderer), ax.get_window_extent(renderer)
         assert box.x0 >= frame.x1 or box.y1 <= frame.y0, (check, ax.get_title(loc="left"))
     # and no boxed note inside any axes
-    assert not [t for ax in fig.axes for t in ax.texts if t.get_bbox_patch() is not None and "flag-label" not in (t.get_gid() or "")]
+    assert not [
+        t
+        for ax in fig.axes
+        for t in ax.texts
+        if t.get_bbox_patch() is not None and "flag-label" not in (t.get_gid() or "")
+    ]
 
 
 def test_flagged_row_labels_do_not_overlap(demo, outlier_figure):
