@@ -242,7 +242,7 @@ def test_details_use_readable_headings_and_the_summary_number_format(demo, repor
 
 def test_robust_fit_internals_are_collapsed(report) -> None:
     section = report.split('id="finding-outliers"')[1].split("</section>")[0]
-    internals = re.findall(r"<details(?: open)?><summary>[^<]*</summary>(?=<table><tr><th>h</th>)", section)
+    internals = re.findall(r'<details(?: open)?><summary>[^<]*</summary>(?=<table class="kv"><tr><th>h</th>)', section)
     assert internals and all(not d.startswith("<details open") for d in internals)
 
 

@@ -73,8 +73,8 @@ def _limits(verdict: Any, rows: np.ndarray, log: bool) -> tuple[tuple[float, flo
     if log:
         xs, ys = np.clip(xs, _FLOOR, None), np.clip(ys, _FLOOR, None)
         lo = float(min(xs.min(initial=1.0), ys.min(initial=1.0))) / 1.5
-        return (lo, float(xs.max(initial=1.0)) * 1.5), (lo, float(ys.max(initial=1.0)) * 1.5)
-    return (0.0, float(xs.max(initial=1.0)) * 1.05), (0.0, float(ys.max(initial=1.0)) * 1.05)
+        return (lo, float(xs.max(initial=1.0)) * 2.0), (lo, float(ys.max(initial=1.0)) * 3.0)  # room for labels
+    return (0.0, float(xs.max(initial=1.0)) * 1.08), (0.0, float(ys.max(initial=1.0)) * 1.15)
 
 
 def _draw_class(ax: Axes, verdict: Any, k: int, name: str, rows: np.ndarray, cap: int, log: bool) -> list[_Label]:
@@ -245,10 +245,11 @@ def draw_qq(verdict: Any, ax: Axes, ylim: tuple[float, float] | None = None, log
     ax.set_xlabel(
         f"chi-square quantile (df = features each class's distances use: {', '.join(map(str, dfs))})", fontsize=8
     )
-    ax.set_ylabel("robust squared distance, sorted", fontsize=8)
+    ax.set_ylabel("squared distance, sorted", fontsize=8)
     ax.legend(fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
     extra = f"; left out (no distances): {', '.join(c.short(n, 16) for n in left_out)}" if left_out else ""
-    c.status_title(ax, f"Outliers: chi-square Q-Q of robust distances{extra}", verdict, KEY)
+    kind = "robust " if any(_robust(verdict, name) for _, name, _ in groups) else ""
+    c.status_title(ax, f"Outliers: chi-square Q-Q of the {kind}squared distances{extra}", verdict, KEY)
 
 
 def qq_scatter(ax: Axes, k: int, name: str, d: np.ndarray, p: int, *, gid: str) -> float:
@@ -306,7 +307,8 @@ def draw_figure(verdict: Any) -> Figure:
     draw_qq(verdict, axes[len(groups)], ylim=ylim, log=log)
     handles = _legend_handles(True)
     fig.legend(handles=handles, loc="outside lower center", ncols=len(handles), fontsize=8, frameon=False)
-    c.figure_title(fig, "Outliers: robust squared distances per class (same scale in every panel)", verdict, KEY)
+    kind = "robust " if any(_robust(verdict, name) for _, name, _ in groups) else "classical "
+    c.figure_title(fig, f"Outliers: {kind}squared distances per class (same scale in every panel)", verdict, KEY)
     engine = fig.get_layout_engine()
     if engine is not None:
         engine.execute(fig)  # once, so that label spacing uses the final panel sizes

@@ -52,6 +52,7 @@ table { border-collapse: collapse; margin: .4em 0; font-size: .9em; }
 th, td { border: 1px solid #d0d0d0; padding: .2em .5em; text-align: left; vertical-align: top; }
 th { background: #f3f3f3; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; }
+table.kv td.num { text-align: left; }
 code { font-size: .95em; }
 .caution { border: 2px solid #000; padding: .6em .9em; background: #fffbea; }
 .status { font-weight: bold; white-space: nowrap; }
@@ -295,7 +296,7 @@ def _value(value: Any, depth: int, ctx: _Context, key: Any = "") -> str:
         if len(inner) > 1 and all(isinstance(v, dict) and v for v in inner):
             return _wide_table(value, depth, ctx, key)
         rows = "".join(f"<tr><th>{ctx.heading(k)}</th>{_cell(v, depth + 1, ctx, k)}</tr>" for k, v in value.items())
-        return _fold(f"<table>{rows}</table>", len(value), key, f"{ctx.heading(key)}: {len(value)} entries")
+        return _fold(f'<table class="kv">{rows}</table>', len(value), key, f"{ctx.heading(key)}: {len(value)} entries")
     if isinstance(value, (list, tuple)):
         if not value:
             return "none"
@@ -363,7 +364,7 @@ def _data_section(verdict: Verdict) -> str:
     counts = verdict.findings["sample_size"].details.get("class_counts") if "sample_size" in verdict.findings else None
     fingerprint = meta.get("fingerprint") or {}
     ctx = _Context(_data_names(verdict))
-    parts = ["<table>" + "".join(f"<tr><th>{_e(k)}</th>{_cell(v, 0, ctx)}</tr>" for k, v in rows)]
+    parts = ['<table class="kv">' + "".join(f"<tr><th>{_e(k)}</th>{_cell(v, 0, ctx)}</tr>" for k, v in rows)]
     if counts:
         parts.append(f"<tr><th>rows per class</th><td>{_value(counts, 1, ctx)}</td></tr>")
     else:
