@@ -21,6 +21,7 @@ once per audit (memoized on the data with the settings and seed it depends on, s
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
@@ -30,6 +31,7 @@ from scipy import stats as sps
 
 from discaudit._threads import map_in_threads
 from discaudit.dataset import AuditData
+from discaudit.errors import DegenerateDataWarning
 from discaudit.stats._linalg import mahalanobis_sq
 from discaudit.stats.blocks import ROW_BLOCK
 from discaudit.stats.canonical import canonical_order, canonical_ranks, content_digest, row_keys
@@ -147,7 +149,12 @@ def _compute(data: AuditData, config: Config, random_state: int | None) -> Robus
     def one(k: int) -> tuple[ClassFit, npt.NDArray[np.float64]]:
         return _fit_class(data, config, k, orders[k], seeds[k])
 
-    results = map_in_threads(one, range(len(data.classes)))
+    # The MCD's warning about an exact fit is not passed on: the finding states the exact fit. The
+    # filter is set once around the thread pool (warning filters are shared by all threads; setting
+    # them inside a worker would race with the others).
+    with warnings.catch_warnings():
+        warnings.filterwarnings("ignore", category=DegenerateDataWarning)
+        results = map_in_threads(one, range(len(data.classes)))
     fits = [f for f, _ in results]
     distances = [d for _, d in results]
     beyond = [
@@ -224,7 +231,7 @@ def _fit_class(
         return fit, np.zeros(rows.size)
     min_rows = robust_min_rows(columns.size, config)
     if rows.size >= min_rows:
-        return _robust(data, config, k, rows, X[:, columns], columns, screen, seed)
+        return _robust(data, config, k, rows, X[:, columns], fit_rows, columns, screen, seed)
     return _classical(data, config, k, rows, columns, screen, min_rows)
 
 
@@ -234,12 +241,22 @@ def _robust(
     k: int,
     rows: IntArray,
     X: npt.NDArray[np.float64],
+    fit_rows: IntArray,
     columns: IntArray,
     screen: tuple[TieScreen, Any, Any],
     seed: int,
 ) -> tuple[ClassFit, npt.NDArray[np.float64]]:
-    """Reweighted FAST-MCD of the fit rows ``X`` (the class's continuous columns); every class row scored."""
-    res: MCDResult = mcd(X, random_state=seed, cutoff_quantile=config.outlier_quantile, finite_sample_correction=True)
+    """Reweighted FAST-MCD of the fit rows ``X`` (the class's continuous columns); every class row scored.
+
+    Overflow in the deterministic starts' scale (squares of standardized values near 1e150 times
+    the class's spread) only gives such a row zero weight there, so it is silenced (``errstate`` is
+    local to the thread; the MCD's exact-fit warning is silenced around the thread pool, see
+    :func:`_compute`).
+    """
+    with np.errstate(over="ignore"):
+        res: MCDResult = mcd(
+            X, random_state=seed, cutoff_quantile=config.outlier_quantile, finite_sample_correction=True
+        )
     info: dict[str, Any] = {
         "h": res.h,
         "n_reweighted": res.n_reweighted,
@@ -256,7 +273,9 @@ def _robust(
             else {},
             "offset": res.hyperplane_offset,
             "n_on_hyperplane": res.n_on_hyperplane,
+            "fit_rows": int(X.shape[0]),
         }
+        info["off_hyperplane"] = fit_rows[~res.support]  # data positions of the fitted rows off the hyperplane
         fit = ClassFit(
             k, method, True, columns, res.location, res.covariance, float(res.cutoff), "none (exact fit)", None,
             *screen, exact_fit=True, usable=False, info=info,

@@ -9,6 +9,7 @@ from scipy import linalg
 
 from discaudit.checks._robust import canonical_layout
 from discaudit.dataset import AuditData
+from discaudit.errors import DataError
 from discaudit.findings import Finding, fmt, fmt_p, names
 from discaudit.jsonable import label
 from discaudit.stats._linalg import logdet_spd
@@ -49,7 +50,10 @@ def _spread(moments: ClassMoments, features: tuple[str, ...]) -> dict[Any, dict[
         scatter = moments.scatter[others].sum(axis=0)
         S_other = scatter / (moments.counts[others].sum() - others.size)
         ld_k, ld_other = logdet_spd(covs[k]), logdet_spd(S_other)
-        values, vectors = linalg.eigh(covs[k], S_other)
+        try:
+            values, vectors = linalg.eigh(covs[k], S_other)
+        except (linalg.LinAlgError, ValueError):  # the other classes' pooled covariance is not positive definite
+            values, vectors = np.ones(p), np.eye(p)
         values = np.clip(
             values, np.finfo(float).tiny, None
         )  # rounding can push a ratio of a near-singular class below 0
@@ -92,8 +96,12 @@ _FLURY_WORDS = {
 
 
 def _flury(sub: ClassMoments) -> dict[str, Any]:
-    """Flury's hierarchy in plain values."""
-    fl = flury_hierarchy(sub)
+    """Flury's hierarchy in plain values (or why it could not be fitted: nearly singular classes)."""
+    try:
+        with np.errstate(over="raise", invalid="raise", divide="raise", under="ignore"):
+            fl = flury_hierarchy(sub)
+    except (DataError, linalg.LinAlgError, np.linalg.LinAlgError, FloatingPointError) as exc:
+        return {"not_computed": f"the class covariances are too close to singular for the model fits ({exc})"}
     return {
         "best_by_bic": fl.best,
         "meaning": _FLURY_WORDS[fl.best],
@@ -218,7 +226,11 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         f"generalized variance per feature is {fmt(w['generalized_variance_ratio_to_pooled'])} times the pooled one "
         f"({w['direction']})"
     )
-    how = f"by BIC among Flury's models, {details['flury']['meaning']}"
+    how = (
+        f"by BIC among Flury's models, {details['flury']['meaning']}"
+        if "meaning" in details["flury"]
+        else "Flury's models could not be fitted (nearly singular classes)"
+    )
     tail = f"; singular classes {names(excluded)} left out" if excluded else ""
     if rejects and favours_separate:
         text = f"Class covariances differ by more than their extra parameters cost ({box_text}; {bic_text}); {where}; {how}{tail}."

@@ -24,7 +24,7 @@ from scipy import stats as sps
 
 from discaudit.checks._robust import ClassFit, RobustFits, canonical_layout, robust_fits, robust_min_rows
 from discaudit.dataset import AuditData, RowBlock
-from discaudit.findings import Finding, fmt, fmt_p
+from discaudit.findings import Finding, fmt, fmt_p, names
 from discaudit.jsonable import label
 from discaudit.stats._linalg import logdet_spd, mahalanobis_sq
 from discaudit.stats.blocks import ROW_BLOCK, block_starts
@@ -342,8 +342,14 @@ def _class_details(
         "masked_by_classical": out.masked,
     }
     if fit.exact_fit:
-        details["hyperplane"] = fit.info.get("hyperplane", {})
-    internals = {k: v for k, v in fit.info.items() if k != "hyperplane"}
+        off = np.asarray(fit.info.get("off_hyperplane", []), dtype=np.intp)
+        order = np.argsort([str(data.row_labels[i]) for i in off], kind="stable")
+        details["hyperplane"] = {
+            **fit.info.get("hyperplane", {}),
+            "n_off_hyperplane": int(off.size),
+            "rows_off_hyperplane": [label(data.row_labels[i]) for i in off[order][:MAX_LISTED_ROWS]],
+        }
+    internals = {k: v for k, v in fit.info.items() if k not in ("hyperplane", "off_hyperplane")}
     if fit.fence is not None:
         internals["fence_centre_cube_root"] = fit.fence.centre
         internals["fence_spread_cube_root"] = fit.fence.spread
@@ -401,9 +407,13 @@ def _tie_statements(per_class: dict[Any, Any], rank: dict[Any, int], counts: dic
     for cls, v in per_class.items():
         if v["exact_fit"]:
             plane = v.get("hyperplane", {})
+            off = plane.get("rows_off_hyperplane", [])
+            listed = f" ({names([f'row {r}' for r in off], 3)})" if off else ""
             parts.append(
-                f"in class {cls}, {plane.get('n_on_hyperplane', '?')} of {v['n']} rows lie on one hyperplane: the "
-                "robust fit is exact on it, so distances off it are not outlyingness and no row of the class is flagged"
+                f"in class {cls}, {plane.get('n_on_hyperplane', '?')} of {plane.get('fit_rows', v['n'])} fitted rows "
+                "lie on one hyperplane (a linear relation among its features, see the details): the robust fit is "
+                "exact on it, so distances from it do not measure outlyingness and nothing in the class is flagged; "
+                f"{plane.get('n_off_hyperplane', 0)} off it{listed}"
             )
     return parts
 

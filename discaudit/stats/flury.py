@@ -96,7 +96,7 @@ def _g_step(T: FloatArray, weights: FloatArray) -> FloatArray:
     Q = np.eye(2)
     for _ in range(_MAX_INNER):
         d = np.einsum("ji,kjl,li->ki", Q, T, Q)  # (K, 2): q_j' T_k q_j
-        coef = weights * (d[:, 0] - d[:, 1]) / (d[:, 0] * d[:, 1])
+        coef = weights * (1.0 / d[:, 1] - 1.0 / d[:, 0])  # (d1 - d2) / (d1 d2), without overflowing the product
         M = np.einsum("k,kij->ij", coef, T)
         _, vectors = np.linalg.eigh((M + M.T) / 2.0)
         # keep the column order closest to the current Q, so the iteration can settle
@@ -142,6 +142,9 @@ def cpc_axes(S: FloatArray, weights: FloatArray) -> tuple[FloatArray, int]:
     """
     K, p, _ = S.shape
     w = np.asarray(weights, dtype=np.float64)
+    # One common factor changes no axis: bring the matrices to unit geometric-mean variance first.
+    diag = np.einsum("kii->ki", S)
+    S = S / float(np.exp(np.mean(np.log(diag[diag > 0])))) if np.any(diag > 0) else S
     mean = np.einsum("k,kij->ij", w / w.sum(), S)
     _, B = np.linalg.eigh((mean + mean.T) / 2.0)
     B = B[:, ::-1].copy()
