@@ -1,31 +1,183 @@
-"""Thread use inside an audit: one BLAS thread per worker, and classes fitted side by side.
+"""Thread use inside an audit, and the process state audits share.
 
-An audit runs many small linear-algebra calls (p x p factorizations, triangular solves on
-blocks of rows). With a multi-threaded BLAS each call pays for waking and synchronising its
-threads, which on a shared 2-core machine made the audit up to five times slower than with
-one thread (benchmarks/RESULTS.md). The audit therefore limits BLAS to one thread while it
-runs and instead spreads independent work (one robust fit per class) over the cores.
+BLAS on one thread, classes side by side. An audit runs many small linear-algebra calls (p x p
+factorizations, triangular solves on blocks of rows). With a multi-threaded BLAS each call pays
+for waking and synchronising its threads, which on a shared 2-core machine made the audit up to
+five times slower than with one thread (benchmarks/RESULTS.md). The audit therefore limits BLAS
+to one thread while it runs and instead spreads independent work (one robust fit per class) over
+the cores.
+
+Shared process state, changed once and restored once. The BLAS thread limit and Python's warnings
+machinery (``warnings.filters``, ``warnings.showwarning``) belong to the whole process, so
+concurrent audits must not each save and restore them: with nested save/restore pairs from two
+threads, the one that leaves last restores the other's changes (an ``always`` filter left
+installed, BLAS left on one thread). Here the first audit to enter changes the state and the last
+to leave restores exactly what it found, under one lock (:class:`_Shared`), also when an audit
+raises.
+
+Warnings per audit. Python 3.11's warnings have no per-thread filters, and a caller's
+``simplefilter("error")`` would otherwise abort a statistic that warns, so while any audit runs
+the filters list is one ``always`` entry and :func:`_route` receives every warning. Each check
+runs inside :func:`recorded_warnings`, which sets a context variable to its own list; ``_route``
+appends a warning to the list of the context it was issued in (worker threads of
+:func:`map_in_threads` run in a copy of their caller's context), so two audits never see each
+other's warnings. A warning issued outside any audit while one runs (another thread of the
+caller's) is judged by the caller's own saved filters: raised for ``error``, dropped for
+``ignore``, shown by the caller's ``showwarning`` otherwise (``once`` and ``default`` then show it
+each time). A filter the caller adds from another thread while an audit runs is lost when the
+last audit leaves.
 """
 
 from __future__ import annotations
 
+import contextvars
 import os
+import threading
+import warnings
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import contextmanager
-from typing import TypeVar
+from typing import Any, Generic, TypeVar
 
 from threadpoolctl import threadpool_limits
 
 T = TypeVar("T")
 R = TypeVar("R")
+S = TypeVar("S")
+
+#: One lock for every piece of shared process state below.
+_STATE_LOCK = threading.Lock()
+
+
+class _Shared(Generic[S]):
+    """Process state changed by the first audit to enter and restored by the last to leave."""
+
+    def __init__(self, install: Callable[[], S], restore: Callable[[S], None]) -> None:
+        self._install, self._restore = install, restore
+        self._count = 0
+        self._saved: S | None = None
+
+    @contextmanager
+    def held(self) -> Iterator[None]:
+        with _STATE_LOCK:
+            try:
+                if self._count == 0:
+                    self._saved = self._install()
+                self._count += 1
+            except BaseException:  # Ctrl-C between installing and counting: undo, then go on raising
+                if self._count == 0:
+                    self._release()
+                raise
+        try:
+            yield
+        finally:
+            with _STATE_LOCK:
+                self._count -= 1
+                if self._count == 0:
+                    self._release()
+
+    def _release(self) -> None:
+        saved, self._saved = self._saved, None
+        if saved is not None:
+            self._restore(saved)
+
+
+def _limit_blas() -> Any:
+    return threadpool_limits(limits=1, user_api="blas")
+
+
+def _restore_blas(limiter: Any) -> None:
+    limiter.restore_original_limits()
+
+
+_BLAS = _Shared(_limit_blas, _restore_blas)
 
 
 @contextmanager
 def one_blas_thread() -> Iterator[None]:
-    """Limit the BLAS thread pools to one thread inside the block (restored on exit)."""
-    with threadpool_limits(limits=1, user_api="blas"):
+    """Limit the BLAS thread pools to one thread inside the block (restored when the last leaves)."""
+    with _BLAS.held():
         yield
+
+
+# ------------------------------------------------------------------------------------ warnings
+
+#: The list of the audit check whose context this is (None outside any audit).
+_RECORDER: contextvars.ContextVar[list[str] | None] = contextvars.ContextVar("discaudit_warnings", default=None)
+
+
+class _SavedWarnings:
+    def __init__(self) -> None:
+        self.filters: Any = warnings.filters
+        self.showwarning: Callable[..., Any] = warnings.showwarning
+
+
+def _install_warnings() -> _SavedWarnings:
+    saved = _SavedWarnings()
+    warnings.filters = [("always", None, Warning, None, 0)]
+    warnings._filters_mutated()  # type: ignore[attr-defined]  # as catch_warnings does
+    warnings.showwarning = _route
+    return saved
+
+
+def _restore_warnings(saved: _SavedWarnings) -> None:
+    warnings.filters = saved.filters  # the caller's very list object, as it was
+    warnings.showwarning = saved.showwarning
+    warnings._filters_mutated()  # type: ignore[attr-defined]
+
+
+_WARNINGS = _Shared(_install_warnings, _restore_warnings)
+
+
+def _caller_action(message: Any, category: type[Warning], filename: str, lineno: int) -> str:
+    """What the caller's own filters (saved when the first audit entered) do with a warning."""
+    saved = _WARNINGS._saved
+    filters = saved.filters if saved is not None else []
+    text = str(message)
+    module = os.path.splitext(os.path.basename(filename))[0]
+    for action, msg, cat, mod, line in filters:
+        if (
+            (msg is None or msg.match(text))
+            and issubclass(category, cat)
+            and (mod is None or mod.match(module))
+            and (line == 0 or lineno == line)
+        ):
+            return str(action)
+    return "default"
+
+
+def _route(
+    message: Any, category: type[Warning], filename: str, lineno: int, file: Any = None, line: Any = None
+) -> None:
+    """``warnings.showwarning`` while an audit runs: into the list of the audit that issued it."""
+    recorder = _RECORDER.get()
+    if recorder is not None:
+        recorder.append(f"{category.__name__}: {message}")
+        return
+    action = _caller_action(message, category, filename, lineno)
+    if action == "error":
+        raise message if isinstance(message, Warning) else category(message)
+    if action == "ignore":
+        return
+    saved = _WARNINGS._saved
+    show = saved.showwarning if saved is not None else warnings._showwarning_orig  # type: ignore[attr-defined]
+    show(message, category, filename, lineno, file, line)
+
+
+@contextmanager
+def recorded_warnings() -> Iterator[list[str]]:
+    """Every warning issued in this context (this thread and the workers it starts) into a list.
+
+    The caller's warnings filters and ``showwarning`` are exactly as before once the last
+    concurrent audit leaves, also when the block raises (see the module docstring).
+    """
+    caught: list[str] = []
+    token = _RECORDER.set(caught)
+    try:
+        with _WARNINGS.held():
+            yield caught
+    finally:
+        _RECORDER.reset(token)
 
 
 def usable_cores() -> int:
@@ -41,9 +193,12 @@ def map_in_threads(fn: Callable[[T], R], items: Sequence[T]) -> list[R]:
 
     numpy, scipy and BLAS release the GIL in their kernels, so independent per-class work
     overlaps. Results do not depend on the number of threads: every item carries its own seed.
+    Each item runs in a copy of the caller's context, so its warnings (and numpy's error state)
+    are those of the audit that asked for it.
     """
     workers = min(len(items), usable_cores())
     if workers <= 1:
         return [fn(x) for x in items]
+    contexts = [contextvars.copy_context() for _ in items]
     with ThreadPoolExecutor(max_workers=workers, thread_name_prefix="discaudit") as pool:
-        return list(pool.map(fn, items))
+        return list(pool.map(lambda pair: pair[0].run(fn, pair[1]), zip(contexts, items, strict=True)))

@@ -9,15 +9,15 @@ from __future__ import annotations
 
 import dataclasses
 import time
-import warnings
 from typing import Any
 
 from discaudit import checks
-from discaudit._threads import one_blas_thread
+from discaudit._threads import one_blas_thread, recorded_warnings
 from discaudit.config import Config
 from discaudit.dataset import AuditData
 from discaudit.decision import recommend
-from discaudit.decision.gate import gate_status
+from discaudit.decision.baseline import class_moments_record
+from discaudit.decision.gate import gate_status, judge
 from discaudit.findings import Finding, skipped
 from discaudit.jsonable import label
 from discaudit.sources import open_source
@@ -98,22 +98,25 @@ def _assemble(
 ) -> Verdict:
     """Findings -> recommendation, gate status and metadata: the one place a verdict is built."""
     meta = _meta(data, config, random_state)
-    return Verdict(findings, recommend(findings, config), gate_status(findings, config), meta, timings)
+    recommendation = recommend(findings, config)
+    return Verdict(findings, recommendation, gate_status(findings, config), meta, timings, judge(findings, config))
 
 
 def _run_check(
     key: str, run: checks.CheckFunction, data: AuditData, config: Config, random_state: int | None
 ) -> Finding:
-    """Run one check, turning third-party warnings into details and errors into a skip."""
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
+    """Run one check, turning third-party warnings into details and errors into a skip.
+
+    Warnings are recorded per audit, in a context this check owns (``_threads.recorded_warnings``:
+    safe when several audits run in threads; the caller's filters are restored exactly).
+    """
+    with recorded_warnings() as caught:
         try:
             finding = run(data, config, random_state)
         except Exception as exc:
             return skipped(key, f"The check could not run: {type(exc).__name__}: {exc}", check_error=True)
     if caught:
-        messages = sorted({f"{w.category.__name__}: {w.message}" for w in caught})
-        return dataclasses.replace(finding, details={**finding.details, "warnings": messages})
+        return dataclasses.replace(finding, details={**finding.details, "warnings": sorted(set(caught))})
     return finding
 
 
@@ -138,6 +141,7 @@ def _meta(data: AuditData, config: Config, random_state: int | None) -> dict[str
         "severity": {k: config.severity_of(k) for k in checks.CHECK_KEYS},
         "config": config.to_dict(),
         "fingerprint": _fingerprint(data),
+        "class_moments": class_moments_record(data.moments, data.features),
     }
 
 

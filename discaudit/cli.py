@@ -3,20 +3,24 @@
 Reads a CSV (``.csv``, ``.csv.gz``) or Parquet (``.parquet``, ``.pq``) file, runs
 :func:`discaudit.preflight`, writes a report and exits
 
-* 0 when the gate passes (the verdict's status is below ``--fail-on``),
+* 0 when the gate passes: the data are fit for ``--model`` (or, without it, usable and fit for
+  some candidate; :mod:`discaudit.decision.gate`) and, with ``--baseline``, the batch has not
+  drifted from the accepted report in a way that matters (:mod:`discaudit.decision.baseline`),
 * 1 when it fails,
-* 2 for a usage or data error, with one line on stderr naming the file, column or key at
+* 2 for a usage or data error, with one line on stderr naming the file, line, column or key at
   fault (never a traceback).
 
 Settings come from ``[tool.discaudit]`` of the nearest pyproject.toml or from ``--config
 FILE`` (see :mod:`discaudit.config_file`); command-line options win over the file, which
-wins over the defaults. Report formats are the entries of :data:`FORMATS`; to add one,
-register a renderer there (its name becomes a ``--format`` choice).
+wins over the defaults; one line on stderr says which file applied (or "defaults").
+Report formats are the entries of :data:`FORMATS`; to add one, register a renderer there
+(its name becomes a ``--format`` choice).
 """
 
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import os
 import re
 import sys
@@ -26,65 +30,89 @@ from typing import NoReturn, TextIO
 
 from discaudit import config_file
 from discaudit.audit import preflight
-from discaudit.config import MISSING_POLICIES, NON_NUMERIC_POLICIES, Config
-from discaudit.decision.gate import FAIL_ON_LEVELS, fails_gate
+from discaudit.config import CATEGORICAL_POLICIES, GATE_MODELS, MISSING_POLICIES, NON_NUMERIC_POLICIES, Config
+from discaudit.decision import baseline
+from discaudit.decision.gate import FAIL_ON_LEVELS
 from discaudit.errors import DataError
 from discaudit.progress import Progress
 from discaudit.verdict import Verdict
 
 __all__ = ["FORMATS", "build_parser", "main", "read_table"]
-from discaudit.sources.files import choose_columns, file_chunks, file_columns, kind_name, read_table
+from discaudit.sources.files import (
+    check_csv_layout,
+    choose_columns,
+    csv_line,
+    file_chunks,
+    file_columns,
+    kind,
+    kind_name,
+    read_table,
+    screen_labels,
+)
 from discaudit.stream import preflight_chunks
 
-#: A renderer turns a verdict into report text; it gets the gate level for formats that use it.
-Renderer = Callable[[Verdict, str], str]
+#: A renderer turns a finished (gated) verdict into report text.
+Renderer = Callable[[Verdict], str]
 
 
-def _text(verdict: Verdict, fail_on: str) -> str:
+def _text(verdict: Verdict) -> str:
     return str(verdict) + "\n"  # what print(verdict) shows
 
 
-def _json(verdict: Verdict, fail_on: str) -> str:
+def _json(verdict: Verdict) -> str:
     return verdict.to_json() + "\n"
 
 
-def _markdown(verdict: Verdict, fail_on: str) -> str:
+def _markdown(verdict: Verdict) -> str:
     return verdict.to_markdown()
 
 
-def _junit(verdict: Verdict, fail_on: str) -> str:
-    return verdict.to_junit(fail_on=fail_on)
+def _junit(verdict: Verdict) -> str:
+    return verdict.to_junit()
 
 
-def _html(verdict: Verdict, fail_on: str) -> str:
+def _html(verdict: Verdict) -> str:
     return verdict.to_html()
 
 
 #: ``--format`` name -> renderer. Adding a format is one entry here.
 FORMATS: dict[str, Renderer] = {"text": _text, "json": _json, "markdown": _markdown, "junit": _junit, "html": _html}
 
-_CONFIG_ADVICE = re.compile(r"Config\((missing|non_numeric)='(\w+)'\)")
+_CONFIG_ADVICE = re.compile(r"Config\((missing|non_numeric|categorical)='(\w+)'\)")
 
 EPILOG = """\
 examples:
   discaudit check flakes.csv --target family --index-col flake_id
+  discaudit check flakes.csv --target family --model regularized_lda
+  discaudit check accepted.csv --target family --write-baseline accepted.json
+  discaudit check new_batch.csv --target family --baseline accepted.json
   discaudit check flakes.csv --target family --index-col flake_id --format markdown --output audit.md
   discaudit check data.parquet --target label --format json --output audit.json
   discaudit check data.csv.gz --target label --exclude batch,operator --fail-on warn
   discaudit check data.csv --target label --format junit --output discaudit.xml --config ci/discaudit.toml
 
 exit status:
-  0  the gate passed: the verdict's status is below --fail-on (advisory checks never count)
-  1  the gate failed
-  2  usage or data error; one line on stderr names the file, column or key at fault
+  0  the data are fit for --model (without it: usable, and fit for at least one candidate) and,
+     with --baseline, the batch has not drifted from the accepted report in a way that matters
+  1  the gate failed: the report says which findings or which drift, and the rule it applied
+  2  usage or data error; one line on stderr names the file, line, column or key at fault
+
+the gate:
+  --model lda|regularized_lda|qda|logistic_regression|unpenalized_logistic_regression judges
+  the findings that bear on that model (unequal covariances do not fail a QDA gate, a
+  non-Gaussian shape does not fail a logistic gate, separation fails only the unpenalized
+  logistic gate); a finding fails it when it reaches --fail-on (advisory checks never count).
+  Without --model the gate fails only when the data are unusable or no candidate is fit.
 
 settings:
   Thresholds and per-check severities come from [tool.discaudit] in the nearest
-  pyproject.toml (searching from the current directory upward), or from the TOML file given
-  by --config. Command-line options override the file, which overrides the defaults.
+  pyproject.toml (searching from the current directory upward; a pyproject.toml without that
+  table means the defaults), or from the TOML file given by --config. Command-line options
+  override the file, which overrides the defaults. One line on stderr names the file used.
   Example:
     [tool.discaudit]
     fail_on = "fail"
+    model = "qda"
     vif_fail = 20
     [tool.discaudit.severity]
     normality = "advisory"
@@ -133,7 +161,32 @@ def build_parser() -> argparse.ArgumentParser:
         "--fail-on",
         choices=FAIL_ON_LEVELS,
         default=None,
-        help="lowest status that fails the gate (default: fail_on from the config file, else fail)",
+        help="lowest status of a finding that bears on the gated model that fails the gate (default: fail_on from "
+        "the config file, else fail)",
+    )
+    check.add_argument(
+        "--model",
+        choices=GATE_MODELS,
+        default=None,
+        help="the model to gate for: only findings that bear on it fail the gate (default: model from the config "
+        "file, else any candidate)",
+    )
+    check.add_argument(
+        "--baseline",
+        metavar="FILE",
+        help="JSON report of an accepted run: exit 1 when this batch drifted from it in a way that matters",
+    )
+    check.add_argument(
+        "--write-baseline",
+        metavar="FILE",
+        help="also write this run's JSON report to FILE, to accept it as the baseline of later batches",
+    )
+    check.add_argument(
+        "--min-class-rows",
+        type=_seed,
+        default=None,
+        metavar="N",
+        help="drop the rows of classes with fewer than N rows (named in a note) instead of stopping",
     )
     check.add_argument("--seed", type=_seed, default=0, help="seed of every random step (default: 0)")
     check.add_argument("--config", metavar="FILE", help="TOML settings file (default: nearest pyproject.toml)")
@@ -143,6 +196,12 @@ def build_parser() -> argparse.ArgumentParser:
         choices=NON_NUMERIC_POLICIES,
         default=None,
         help="non-numeric column policy (overrides the file)",
+    )
+    check.add_argument(
+        "--categorical",
+        choices=CATEGORICAL_POLICIES,
+        default=None,
+        help="categorical (Parquet dictionary) columns: as non-numeric, or their codes (overrides the file)",
     )
     check.add_argument(
         "--stream",
@@ -155,50 +214,79 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the command line; return the exit status (0 pass, 1 gate failed, 2 error)."""
-    parser = build_parser()
+    """Run the command line; return the exit status (0 pass, 1 gate failed, 2 error, 130 interrupted).
+
+    Ctrl-C at any point ends with one line on stderr and status 130: no traceback, and no report
+    file half written (reports are written to a temporary name and renamed).
+    """
     try:
-        args = parser.parse_args(argv)
-    except UsageError as exc:
-        return _error(str(exc))
-    except SystemExit as exc:  # --help and --version
-        return exc.code if isinstance(exc.code, int) else 0
-    try:
+        parser = build_parser()
+        try:
+            args = parser.parse_args(argv)
+        except UsageError as exc:
+            return _error(str(exc))
+        except SystemExit as exc:  # --help and --version
+            return exc.code if isinstance(exc.code, int) else 0
         return int(args.run(args))
     except KeyboardInterrupt:
         return _error("interrupted", status=130)
 
 
 def run_check(args: argparse.Namespace) -> int:
-    """The ``check`` subcommand: read, audit, report, gate."""
+    """The ``check`` subcommand: read, audit, compare with a baseline, report, gate."""
     stage = "reading the settings"
     where = args.config or "settings"
     try:
         settings = config_file.load(args.config) if args.config else config_file.discover()
-        config = config_file.make_config(settings, {"missing": args.missing, "non_numeric": args.non_numeric})
-        fail_on = args.fail_on or settings.fail_on or "fail"
+        config = config_file.make_config(
+            settings,
+            {
+                "missing": args.missing,
+                "non_numeric": args.non_numeric,
+                "categorical": args.categorical,
+                "model": args.model,
+                "fail_on": args.fail_on,
+            },
+        )
+        accepted = None
+        if args.baseline:
+            stage, where = "reading the baseline", args.baseline
+            accepted = baseline.load_baseline(args.baseline)
         stage, where = "reading the data", args.data
         if args.stream or _larger_than_memory_share(Path(args.data)):
+            if args.min_class_rows is not None:
+                raise DataError("--min-class-rows needs the whole file in memory; it cannot be used with --stream.")
             verdict = _stream_audit(args, config)  # reads while it audits: parse errors count as reading
         else:
             verdict = _in_memory_audit(args, config)
+        if accepted is not None:
+            stage, where = "comparing with the baseline", args.baseline
+            verdict = baseline.compare(verdict, accepted, config, source=str(args.baseline))
         stage, where = "writing the report", args.output or "<stdout>"
-        report = FORMATS[args.format](verdict, fail_on)
-        failed = fails_gate(verdict.status, fail_on)
+        report = FORMATS[args.format](verdict)
+        gate = verdict.gate
+        assert gate is not None  # every audit gates
+        if args.write_baseline:
+            stage, where = "writing the baseline", args.write_baseline
+            _write_file(Path(args.write_baseline), verdict.to_json() + "\n")
+            stage, where = "writing the report", args.output or "<stdout>"
         if args.output:
-            Path(args.output).write_text(report, encoding="utf-8")
-            outcome = "failed" if failed else "passed"
+            _write_file(Path(args.output), report)
+            drift = f"; {verdict.baseline.headline}" if verdict.baseline is not None else ""
             _write(
                 sys.stdout,
-                f"discaudit: gate {outcome} (status {verdict.status}, fail-on {fail_on}); "
+                f"discaudit: {gate.headline}{drift} (exit {0 if gate.passed else 1}); "
                 f"{args.format} report written to {args.output}\n",
             )
         else:
             _write(sys.stdout, report)
-        return 1 if failed else 0
+        _write(sys.stderr, f"discaudit: settings: {settings.source}\n")
+        if args.write_baseline:
+            _write(sys.stderr, f"discaudit: baseline written to {args.write_baseline}\n")
+        return 0 if gate.passed else 1
     except DataError as exc:
-        prefix = "" if str(exc).startswith(str(where)) or stage == "reading the settings" else f"{where}: "
-        return _error(prefix + _as_options(str(exc)))
+        prefix = "" if str(where) in str(exc) or stage == "reading the settings" else f"{where}: "
+        return _error(prefix + _as_options(str(exc)) + _lines_of(exc, args, stage))
     except FileNotFoundError as exc:
         return _error(f"{exc.filename or where}: no such file.")
     except IsADirectoryError as exc:
@@ -210,6 +298,8 @@ def run_check(args: argparse.Namespace) -> int:
     except Exception as exc:
         if stage == "reading the data":  # pandas and pyarrow parse errors
             return _error(f"{where}: cannot be read as {kind_name(args.data)}: {_first_line(exc)}")
+        if stage == "reading the baseline" and isinstance(exc, UnicodeDecodeError):
+            return _error(f"{where}: not a JSON report (the file is not UTF-8 text).")
         return _error(
             f"internal error while {stage} ({type(exc).__name__}: {_first_line(exc)}); please report it with "
             "the command that caused it."
@@ -224,8 +314,14 @@ def _in_memory_audit(args: argparse.Namespace, config: Config) -> Verdict:
         exclude=_names(args.exclude) or (),
         index_col=args.index_col,
     )
+    frame, notes = screen_labels(frame, args.target, args.data, args.min_class_rows)
+    for note in notes:
+        _write(sys.stderr, f"discaudit: {note}\n")
     with Progress(f"auditing {len(frame)} rows of {Path(args.data).name}"):
-        return preflight(frame, target=args.target, config=config, random_state=args.seed)
+        verdict = preflight(frame, target=args.target, config=config, random_state=args.seed)
+    if notes:  # shown under the table in every format
+        verdict = dataclasses.replace(verdict, meta={**verdict.meta, "notes": [*verdict.meta.get("notes", []), *notes]})
+    return verdict
 
 
 def _stream_audit(args: argparse.Namespace, config: Config) -> Verdict:
@@ -235,6 +331,8 @@ def _stream_audit(args: argparse.Namespace, config: Config) -> Verdict:
         raise FileNotFoundError(2, "No such file or directory", str(path))
     if args.batch_rows < 1:
         raise DataError("--batch-rows must be a positive number of rows.")
+    if kind(path) == "csv":
+        check_csv_layout(path)
     columns, stored_index = file_columns(path)
     chosen = choose_columns(
         columns,
@@ -253,6 +351,31 @@ def _stream_audit(args: argparse.Namespace, config: Config) -> Verdict:
             bar.update(done[0])
 
         return preflight_chunks(source, args.target, config=config, random_state=args.seed, progress=advance)
+
+
+def _write_file(path: Path, text: str) -> None:
+    """Write ``text`` to ``path`` whole or not at all: to a temporary name beside it, then renamed."""
+    temporary = path.with_name(f".{path.name}.{os.getpid()}.part")
+    try:
+        temporary.write_text(text, encoding="utf-8")
+        os.replace(temporary, path)
+    except BaseException:  # Ctrl-C or a full disk: leave no half-written file behind
+        temporary.unlink(missing_ok=True)
+        raise
+
+
+def _lines_of(exc: DataError, args: argparse.Namespace, stage: str) -> str:
+    """For an error about rows of a CSV file read without --index-col: the line the first is on."""
+    if stage != "reading the data" or args.index_col is not None or not exc.rows:
+        return ""
+    first = exc.rows[0]
+    if not isinstance(first, int):
+        return ""
+    try:
+        line = csv_line(args.data, first)
+    except (OSError, DataError, UnicodeError):
+        return ""
+    return "" if line is None else f" The first is on line {line} of {args.data}."
 
 
 def _larger_than_memory_share(path: Path, share: float = 0.25) -> bool:

@@ -13,13 +13,29 @@ from typing import Any
 from discaudit.checks import CHECK_KEYS
 from discaudit.errors import DataError
 
-__all__ = ["CHECK_KEYS", "MISSING_POLICIES", "NON_NUMERIC_POLICIES", "OUTLIER_CUTOFFS", "SEVERITIES", "Config"]
+__all__ = [
+    "CATEGORICAL_POLICIES",
+    "CHECK_KEYS",
+    "FAIL_ON_LEVELS",
+    "GATE_MODELS",
+    "MISSING_POLICIES",
+    "NON_NUMERIC_POLICIES",
+    "OUTLIER_CUTOFFS",
+    "SEVERITIES",
+    "Config",
+]
 
 
 MISSING_POLICIES = ("error", "drop_rows")
 NON_NUMERIC_POLICIES = ("error", "drop")
+CATEGORICAL_POLICIES = ("non_numeric", "codes")
 SEVERITIES = ("gate", "advisory", "off")
 OUTLIER_CUTOFFS = ("small_sample_f", "chi2", "hardin_rocke")
+#: Models a gate can judge: the four candidates (as the audit hands them out) and plain
+#: maximum-likelihood logistic regression, for teams that fit it without a penalty.
+GATE_MODELS = ("lda", "regularized_lda", "qda", "logistic_regression", "unpenalized_logistic_regression")
+#: Gate levels: the lowest status of a check that matters that fails the gate.
+FAIL_ON_LEVELS = ("warn", "fail")
 
 
 def _threshold(default: Any, doc: str, source: str) -> Any:
@@ -39,6 +55,13 @@ class Config:
     )
     non_numeric: str = _threshold(
         "error", "Non-numeric feature columns: 'error' raises DataError, 'drop' sets them aside.", "design choice"
+    )
+    categorical: str = _threshold(
+        "non_numeric",
+        "pandas categorical feature columns: 'non_numeric' treats them as non-numeric (see non_numeric); "
+        "'codes' audits their category codes as numbers (unused categories keep their codes, missing ones "
+        "become missing values).",
+        "design choice",
     )
     vif_warn: float = _threshold(5.0, "VIF above this is worth a look.", "common practice")
     vif_fail: float = _threshold(
@@ -206,6 +229,19 @@ class Config:
         "design choice, set on the tuning families of the validation study: 0 to 0.5 were best there, 1 and "
         "more cost accuracy (benchmarks/validation/tune.py)",
     )
+    log_loss_guard_se: float = _threshold(
+        1.0,
+        "A candidate whose leave-one-out log-loss exceeds the lowest by more than this many paired standard errors "
+        "is not a contender, whatever its accuracy (its predictive probabilities have collapsed).",
+        "design choice, set on the tuning families of the validation study with performance_switch_se fixed at 0.5 "
+        "(benchmarks/validation/tune.py)",
+    )
+    performance_max_rows: int = _threshold(
+        20000,
+        "Rows above which the leave-one-out predictions are scored on a seeded sample of about this many rows "
+        "(each refit still leaves out only the scored row).",
+        "design choice (the standard error of an accuracy on 20,000 rows is at most 0.35 points)",
+    )
     logistic_max_rows: int = _threshold(
         4000,
         "Rows of the seeded, class-proportional subsample on which logistic regression is cross-validated.",
@@ -215,6 +251,45 @@ class Config:
         10,
         "Folds of the stratified cross-validation of logistic regression (fewer when a class has fewer rows).",
         "Kohavi (1995, IJCAI): 10-fold cross-validation is a good compromise of bias and variance",
+    )
+    model: str | None = _threshold(
+        None,
+        "The model the gate judges: 'lda', 'regularized_lda', 'qda', 'logistic_regression' (L2-penalized, as the "
+        "audit scores and hands it out) or 'unpenalized_logistic_regression'; only the findings that bear on that "
+        "model fail the gate (discaudit.decision.gate.MATTERS). None: the gate fails only when the data are "
+        "unusable or no candidate is fit.",
+        "design choice (discaudit.decision.gate documents the reason for every check of every model)",
+    )
+    fail_on: str = _threshold(
+        "fail",
+        "Lowest status of a check that matters for the gated model that fails the gate: 'fail' or 'warn'.",
+        "design choice",
+    )
+    baseline_alpha: float = _threshold(
+        0.01,
+        "Family-wise significance level of the comparison with a baseline: every two-sample test (class priors; "
+        "each class's mean and covariance) is made at this level divided by the number of tests (Bonferroni).",
+        "design choice; Bonferroni's inequality bounds the chance that a batch from the accepted population fails "
+        "any test by this level",
+    )
+    baseline_mean_shift: float = _threshold(
+        0.2,
+        "Smallest shift of a class mean, as a Mahalanobis distance in units of the class's pooled (accepted and new) "
+        "standard deviation, that counts as drift when it is also significant.",
+        "Cohen (1988, Statistical Power Analysis for the Behavioral Sciences): d = 0.2 is a small effect",
+    )
+    baseline_spread_ratio: float = _threshold(
+        1.5,
+        "Smallest typical change of a class covariance that counts as drift when it is also significant: exp of "
+        "the root mean square of the log variance ratios along the eigen-directions of S_accepted^-1 S_new "
+        "(1 when the covariances are equal; 2 when one is doubled).",
+        "design choice (variances 50% larger or a third smaller in a typical direction: SDs off by more than 20%)",
+    )
+    baseline_prior_tolerance: float = _threshold(
+        0.05,
+        "Largest move of a class's share of the rows (absolute, e.g. 0.30 -> 0.35) tolerated; a larger move "
+        "counts as drift when the chi-square test of equal class shares is also significant.",
+        "design choice (5 percentage points)",
     )
     severity: dict[str, str] = field(
         default_factory=dict,
@@ -229,8 +304,14 @@ class Config:
             raise DataError(f"Config.missing must be one of {MISSING_POLICIES}; got {self.missing!r}.")
         if self.outlier_cutoff not in OUTLIER_CUTOFFS:
             raise DataError(f"Config.outlier_cutoff must be one of {OUTLIER_CUTOFFS}; got {self.outlier_cutoff!r}.")
+        if self.model is not None and self.model not in GATE_MODELS:
+            raise DataError(f"Config.model must be one of {list(GATE_MODELS)} or None; got {self.model!r}.")
+        if self.fail_on not in FAIL_ON_LEVELS:
+            raise DataError(f"Config.fail_on must be one of {list(FAIL_ON_LEVELS)}; got {self.fail_on!r}.")
         if self.non_numeric not in NON_NUMERIC_POLICIES:
             raise DataError(f"Config.non_numeric must be one of {NON_NUMERIC_POLICIES}; got {self.non_numeric!r}.")
+        if self.categorical not in CATEGORICAL_POLICIES:
+            raise DataError(f"Config.categorical must be one of {CATEGORICAL_POLICIES}; got {self.categorical!r}.")
         for f in dataclasses.fields(self):
             value = getattr(self, f.name)
             if f.type in ("float", "int"):
@@ -238,11 +319,21 @@ class Config:
                     raise DataError(f"Config.{f.name} must be a number; got {value!r}.")
                 if not value > 0:
                     raise DataError(f"Config.{f.name} must be positive; got {value!r}.")
-        for name in ("box_m_alpha", "signal_alpha", "normality_alpha", "outlier_fraction_warn", "variance_proportion"):
+        for name in (
+            "box_m_alpha",
+            "signal_alpha",
+            "normality_alpha",
+            "outlier_fraction_warn",
+            "variance_proportion",
+            "baseline_alpha",
+            "baseline_prior_tolerance",
+        ):
             if not 0 < getattr(self, name) < 1:
                 raise DataError(f"Config.{name} must lie strictly between 0 and 1; got {getattr(self, name)!r}.")
         if not 0.5 < self.outlier_quantile < 1:
             raise DataError(f"Config.outlier_quantile must lie in (0.5, 1); got {self.outlier_quantile!r}.")
+        if not self.baseline_spread_ratio > 1:
+            raise DataError(f"Config.baseline_spread_ratio must exceed 1; got {self.baseline_spread_ratio!r}.")
         if self.vif_fail < self.vif_warn:
             raise DataError("Config.vif_fail must not be below Config.vif_warn.")
         if self.condition_index_fail < self.condition_index_warn:

@@ -13,7 +13,7 @@ A source (:mod:`discaudit.sources`) validates its input once and returns an :cla
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Any, Protocol, TypeVar
 
@@ -29,6 +29,34 @@ T = TypeVar("T")
 
 
 @dataclass(frozen=True)
+class Coordinates:
+    """Where each feature is audited: ``(x - location) * 2**-exponent``, per column.
+
+    Every statistic of the audit is unchanged by shifting a feature, and all but the scale
+    comparisons by rescaling it; those read ``exponents`` to put the units back. A location is
+    0 unless the feature is offset-dominated (its spread below ``screening.OFFSET_FRACTION`` of its
+    magnitude) or an integer column beyond 2**53 that varies (then the location is an ``int`` and
+    the shift is done in integer arithmetic, before any float conversion). An exponent is 0
+    unless the centred magnitude is below ``screening.SMALLEST_SQUARABLE``. The rules that choose them live
+    in :func:`discaudit.sources.screening.choose_coordinates`.
+    """
+
+    locations: tuple[int | float, ...]
+    exponents: tuple[int, ...]
+
+    @classmethod
+    def plain(cls, p: int) -> Coordinates:
+        return cls((0,) * p, (0,) * p)
+
+    @property
+    def trivial(self) -> bool:
+        return not any(self.locations) and not any(self.exponents)
+
+    def take(self, columns: Sequence[int]) -> Coordinates:
+        return Coordinates(tuple(self.locations[j] for j in columns), tuple(self.exponents[j] for j in columns))
+
+
+@dataclass(frozen=True)
 class IntakeRecord:
     """What intake changed or set aside, for the ``data_hygiene`` finding."""
 
@@ -39,6 +67,8 @@ class IntakeRecord:
     non_numeric_dropped: tuple[str, ...] = ()
     constant_columns: tuple[str, ...] = ()
     duplicate_columns: tuple[tuple[str, str], ...] = ()
+    #: Conversions made on the way in (column or input -> what was done), e.g. masked -> missing.
+    conversions: dict[str, str] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -119,6 +149,9 @@ class AuditData:
     all_rows : RowPass or None
         Every row of the input in blocks; None when the input cannot be read again (a
         one-shot iterable of chunks).
+    coordinates : Coordinates or None
+        Per audited feature, the location subtracted and the power of two divided out before
+        the audit (``values`` and ``moments`` are in those coordinates); None means none.
     memo : dict
         Intermediate results that more than one check computes from these data (the per-class
         robust fits), filled by :meth:`shared` on first use; never part of any output.
@@ -134,6 +167,7 @@ class AuditData:
     distinct_counts: dict[str, int] = field(default_factory=dict)
     sample: SampleInfo | None = None
     all_rows: RowPass | None = field(default=None, repr=False, compare=False)
+    coordinates: Coordinates | None = None
     memo: dict[Any, Any] = field(default_factory=dict, repr=False, compare=False)
 
     @property

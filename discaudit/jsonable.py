@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections import Counter
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 import numpy as np
@@ -52,3 +53,19 @@ def label(value: Any) -> Any:
     if isinstance(value, (float, np.floating)) and float(value).is_integer():
         return int(value)
     return str(value)
+
+
+def distinct_names(values: Sequence[Any]) -> list[str]:
+    """Text for each value that tells apart any two which would print alike.
+
+    A value prints as ``str(label(v))`` unless another value in ``values`` prints the same, as
+    True and 'True' or 1 and '1' do: then each of those is shown as its ``repr`` (True, 'True';
+    1, '1'). Should reprs still coincide, a ``#k`` suffix (k the position) keeps them apart.
+    """
+    plain_text = [str(label(v)) for v in values]
+    counts = Counter(plain_text)
+    out = [repr(v) if counts[t] > 1 else t for v, t in zip(values, plain_text, strict=True)]
+    if len(set(out)) < len(out):
+        seen = Counter(out)
+        out = [f"{t} #{k}" if seen[t] > 1 else t for k, t in enumerate(out)]
+    return out

@@ -84,14 +84,25 @@ for reason in rec.reasons:
 
 # %% [markdown]
 # ## Policy as configuration
-# A team that fits a model robust to non-Gaussian shape may make `normality` advisory: it is
-# still shown, but it no longer fails the gate. The same setting can live in
-# `[tool.discaudit.severity]` of pyproject.toml for the command line.
+# The gate judges the model you ship: only the findings that bear on it fail it. Without a
+# model it asks whether the data are usable and fit for some candidate. `model` (and `fail_on`)
+# can also live in `[tool.discaudit]` of pyproject.toml for the command line (`--model`).
 
 # %%
-relaxed = discaudit.Config(severity={"normality": "advisory"})
+print(verdict.gate.outcome)
+for model in ("lda", "regularized_lda", "qda", "logistic_regression"):
+    gated = discaudit.preflight(flakes, target="family", config=discaudit.Config(model=model), random_state=0)
+    print(f"{model:20s}", gated.gate.headline, gated.gate.failing_checks)
+print(gated.gate.rule)
+
+# %% [markdown]
+# A team may also make a check advisory: it is still shown, but it never fails a gate. The same
+# setting can live in `[tool.discaudit.severity]` of pyproject.toml.
+
+# %%
+relaxed = discaudit.Config(model="qda", severity={"normality": "advisory"})
 relaxed_verdict = discaudit.preflight(flakes, target="family", config=relaxed, random_state=0)
-print("gate status:", verdict.status, "->", relaxed_verdict.status)
+print("worst check status:", verdict.status, "->", relaxed_verdict.status, "|", relaxed_verdict.gate.outcome)
 print(relaxed_verdict.to_frame().query("severity == 'advisory'")[["check", "status", "severity"]])
 
 # %% [markdown]

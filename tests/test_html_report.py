@@ -125,7 +125,8 @@ def test_report_holds_table_details_settings_fingerprint_and_caution(demo, repor
             assert escape(field["doc"], quote=True) in report
     fingerprint = demo.meta["fingerprint"]
     assert fingerprint["sha256"] in report and len(fingerprint["sha256"]) == 64
-    assert "Gate status" in text and "FAIL" in text
+    assert "Worst check status" in text and "FAIL" in text
+    assert demo.gate.outcome in text
 
 
 def test_fingerprint_is_sha256_of_matrix_codes_and_labels(flakes, demo):

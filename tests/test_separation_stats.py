@@ -386,3 +386,146 @@ class TestBlocks:
         finally:
             tracemalloc.stop()
         assert peak < X.nbytes
+
+
+def _signed_design(X: np.ndarray, y: np.ndarray, positive_class) -> np.ndarray:
+    """Rows a_i = s_i (z_i, 1) of the module, for all rows of one comparison."""
+    import discaudit.stats.separation as separation
+
+    space = separation._FeatureSpace(np.asarray(X, dtype=float), [f"x{j}" for j in range(X.shape[1])])
+    sign = np.where(y == positive_class, 1.0, -1.0)
+    return separation._SignedRows(space, sign).take(np.arange(len(y)))
+
+
+def _separable_case(seed: int) -> tuple[np.ndarray, np.ndarray]:
+    """Invented data separable by construction: completely (a random hyperplane through a
+    Gaussian cloud, so some rows lie very close to it) or quasi-completely (integer grid, rows on
+    the hyperplane x0 + x1 = 0 labelled at random)."""
+    rng = np.random.default_rng(seed)
+    if seed % 2 == 0:
+        p = 2 + seed % 5
+        X = rng.normal(size=(60 + 20 * (seed % 7), p))
+        u = rng.normal(size=p)
+        y = (X @ u > rng.normal(scale=0.3)).astype(int)
+    else:
+        X = rng.integers(-3, 4, size=(120, 3)).astype(float)
+        score = X[:, 0] + X[:, 1]
+        y = np.where(score > 0, 1, np.where(score < 0, 0, rng.integers(0, 2, 120)))
+    return X, y
+
+
+def _overlapping_case(seed: int, n: int = 400) -> tuple[np.ndarray, np.ndarray]:
+    """Invented data: Gaussian classes (K = 2 or 3) with shifted means that overlap."""
+    rng = np.random.default_rng(seed)
+    K = 2 + seed % 2
+    p = 2 + seed % 6
+    y = rng.integers(0, K, size=n)
+    X = rng.normal(size=(n, p)) + 0.75 * rng.normal(size=(K, p))[y]
+    return X, y
+
+
+class TestOverlapCertificate:
+    """The certificate of overlap tried before each detection LP (Stiemke's alternative)."""
+
+    @pytest.mark.parametrize("steps", [None, 60])
+    @pytest.mark.parametrize("seed", range(80))
+    def test_never_fires_on_separable_data(self, monkeypatch, seed, steps):
+        # Property: a certificate lambda > 0 with A' lambda = 0 cannot exist when some beta gives
+        # A beta >= 0, A beta != 0 (Stiemke 1915). The LP's reported hyperplane confirms, on the
+        # raw data, that each case is separated. With 60 Newton steps the weights of the strict
+        # rows of the quasi-complete cases fall to the rounding level and the candidate is
+        # positive in floating point: only the rounding bound refuses it there (without that
+        # bound it fires on 9 of these 80 seeds).
+        import discaudit.stats.separation as separation
+
+        if steps is not None:
+            monkeypatch.setattr(separation, "_CERTIFICATE_STEPS", steps)
+        X, y = _separable_case(seed)
+        (c,) = detect_separation(X, y, certify_overlap=False).comparisons
+        assert c.kind in ("complete", "quasi_complete")
+        v = _values(X, c)
+        sign = np.where(y == 1, 1.0, -1.0)
+        assert np.all(sign * v > -1e-8)
+        assert separation._overlap_weights(_signed_design(X, y, 1)) is None
+
+    @pytest.mark.parametrize("seed", range(12))
+    def test_weights_prove_overlap(self, seed):
+        # The weights are positive, A' lambda = 0 to rounding, and they give one point that is a
+        # positive convex combination of the rows of either side (checked on the raw data).
+        # statsmodels' Logit, whose MLE exists exactly under overlap (Albert & Anderson 1984),
+        # fits the same comparison without a perfect-separation warning.
+        import discaudit.stats.separation as separation
+
+        X, y = _overlapping_case(seed)
+        positive = y == 0
+        A = _signed_design(X, y, 0)
+        lam = separation._overlap_weights(A)
+        assert lam is not None
+        assert np.all(lam > 0)
+        assert np.linalg.norm(A.T @ lam) <= 1e-12 * float(lam @ np.linalg.norm(A, axis=1))
+        assert lam[positive].sum() == pytest.approx(lam[~positive].sum(), rel=1e-10)
+        point_p = lam[positive] @ X[positive] / lam[positive].sum()
+        point_n = lam[~positive] @ X[~positive] / lam[~positive].sum()
+        assert point_p == pytest.approx(point_n, abs=1e-9 * np.abs(X).max())
+        assert not _statsmodels_flags_separation(X, positive.astype(int))
+
+    def test_first_candidate_is_the_least_squares_fit_of_the_labels(self, monkeypatch):
+        # At beta = 0 the candidate weights are (1 - s_i yhat_i) / 2, yhat the least-squares fit
+        # of the +-1 labels on (x, 1) (numpy's lstsq on the raw data; the fit is affine
+        # invariant). It holds when no s_i yhat_i reaches 1, and is refused when one does.
+        import discaudit.stats.separation as separation
+
+        monkeypatch.setattr(separation, "_CERTIFICATE_STEPS", 1)
+        rng = np.random.default_rng(40)
+        for shift, holds in [(0.4, True), (4.0, False)]:
+            X = rng.normal(size=(300, 3))
+            y = np.repeat([0, 1], 150)
+            X[y == 1, 0] += shift
+            s = np.where(y == 1, 1.0, -1.0)
+            design = np.column_stack([X, np.ones(300)])
+            yhat = design @ np.linalg.lstsq(design, s, rcond=None)[0]
+            assert (np.max(s * yhat) < 1) == holds
+            lam = separation._overlap_weights(_signed_design(X, y, 1))
+            if holds:
+                assert lam == pytest.approx((1 - s * yhat) / 2, abs=1e-12)
+            else:
+                assert lam is None
+
+    @pytest.mark.parametrize("seed", range(40))
+    def test_results_identical_with_and_without(self, monkeypatch, seed):
+        # Property: the certificate only skips programs whose answer it has proven, so every
+        # field of the result is the same. Cases: overlapping or separable, K = 2 or 3, all rows
+        # or a subsample grown from max_rows = 60.
+        import discaudit.stats.separation as separation
+
+        X, y = _overlapping_case(seed, n=300) if seed % 4 < 2 else _separable_case(seed)
+        max_rows = 60 if seed % 2 else 2000
+        fired = []
+        original = separation._overlap_weights
+
+        def counting(A):
+            lam = original(A)
+            fired.append(lam is not None)
+            return lam
+
+        monkeypatch.setattr(separation, "_overlap_weights", counting)
+        with_it = detect_separation(X, y, max_rows=max_rows, random_state=seed)
+        without = detect_separation(X, y, max_rows=max_rows, random_state=seed, certify_overlap=False)
+        assert with_it == without
+        none = sum(c.kind == "none" for c in with_it.comparisons)
+        assert sum(fired) <= none  # it can decide only "none", once per comparison
+        if seed % 4 < 2 and max_rows == 2000:
+            assert sum(fired) == none == len(with_it.comparisons)  # overlapping Gaussian classes
+
+    def test_no_program_runs_when_every_comparison_is_certified(self, monkeypatch):
+        # Benchmark-like overlapping classes (K = 3, subsampled): the LP is never called.
+        import discaudit.stats.separation as separation
+
+        def no_lp(*args, **kwargs):
+            raise AssertionError("a linear program ran")
+
+        X, y = _overlapping_case(3, n=5000)
+        monkeypatch.setattr(separation, "_strict_lp", no_lp)
+        res = detect_separation(X, y, max_rows=500, random_state=0)
+        assert [c.kind for c in res.comparisons] == ["none"] * 3
+        assert all(c.n_used == 500 and c.subsampled for c in res.comparisons)

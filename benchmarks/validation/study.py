@@ -565,6 +565,16 @@ def summary_table(records: list[Record], split_name: str) -> list[str]:
                 f"{_pct(m['acceptable_informative'])} ({m['n_ok_informative']}/{m['n_informative']}) | "
                 f"{_pct(m['all_four_share'])} | {m['mean_regret']:.2f} | {m['max_regret']:.2f} | {m['n_big']} |"
             )
+        fitted = [r for r in rs if r.estimator.get("accuracy") is not None]
+        if fitted:
+            # The estimator the recommendation builds (its own shrinkage, reg_param or C), fitted on the
+            # training rows and scored on the test rows: what a user of the recommendation gets.
+            reg = [100.0 * (r.best_accuracy - r.estimator["accuracy"]) for r in fitted]
+            near = sum(x <= 100.0 * truth.MIN_MARGIN for x in reg)
+            L.append(
+                f"| {label} | audit's `estimator()` (its own settings) | {near}/{len(fitted)} within 1 pp of the best "
+                f"| - | - | {np.mean(reg):.2f} | {np.max(reg):.2f} | {sum(x > BIG_REGRET_PP for x in reg)} |"
+            )
     return L
 
 
@@ -862,7 +872,7 @@ def report(records, split_name: str, quick_rows, cache: TruthCache, elapsed: flo
         for q in quick_rows:
             acc = " / ".join(f"{100 * q['accuracy'][m]:.1f}" for m in truth.MODELS)
             L.append(
-                f"| {q['name']} | {q['shape']} | {SHORT[q['expected']]} | {acc} | {_set(q['acceptable'])} | "
+                f"| {q['name']} | {q['shape']} | {_set([q['expected']] if isinstance(q['expected'], str) else list(q['expected']))} | {acc} | {_set(q['acceptable'])} | "
                 f"{100 * q['gap_to_others_mean']:.1f} | {SHORT.get(q['audit'], q['audit'])} |"
             )
         L.append("")

@@ -43,6 +43,30 @@ def replay(details: dict, z: float) -> str:
     return best
 
 
+def replay_guarded(details: dict, z: float, z_ll: float) -> str:
+    """As :func:`replay`, among candidates whose log-loss is not worse than the best log-loss by more
+    than ``z_ll`` paired SE (a guard against accuracy that is high by chance while the predictive
+    probabilities have collapsed)."""
+    cand = details["candidates"]
+    best_ll = min(cand, key=lambda m: cand[m]["log_loss"])
+    keep = {
+        m
+        for m in cand
+        if m == best_ll
+        or details["paired"][m][best_ll]["log_loss_difference"] <= z_ll * details["paired"][m][best_ll]["log_loss_se"]
+    }
+    best = max(keep, key=lambda m: (cand[m]["accuracy"], -ORDER.index(m)))
+    for m in ORDER:
+        if m not in keep:
+            continue
+        if m == best:
+            return m
+        d = details["paired"][best][m]
+        if d["accuracy_difference"] <= z * d["accuracy_se"]:
+            return m
+    return best
+
+
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser()
     ap.add_argument("--only", nargs="*")
@@ -77,6 +101,9 @@ def main(argv: list[str] | None = None) -> int:
 
     for z in Z_GRID:
         line(f"z = {z:g}", [replay(d, z) for _, d, _ in rows])
+    for z_ll in (1.0, 2.0, 3.0, 5.0):
+        for z in (0.0, 0.5, 1.0):
+            line(f"g{z_ll:g} z{z:g}", [replay_guarded(d, z, z_ll) for _, d, _ in rows])
     line("log-loss", [min(d["candidates"], key=lambda m: d["candidates"][m]["log_loss"]) for _, d, _ in rows])
     line("audit", [m for _, _, m in rows])
     line("cv pick", [c.cv_pick for c, _, _ in rows])

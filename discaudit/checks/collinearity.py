@@ -102,7 +102,9 @@ def _combination_text(terms: dict[str, float]) -> str:
 def _shrinkage(data: AuditData) -> dict[str, Any]:
     """Ledoit-Wolf intensities of the pooled within-class covariance, raw and standardized."""
     m = data.moments
-    raw, standardized = pooled_ledoit_wolf_intensities(data.values, data.codes, m, (False, True))
+    raw, standardized = pooled_ledoit_wolf_intensities(
+        data.values, data.codes, m, (False, True), None if data.coordinates is None else data.coordinates.exponents
+    )
     retention = shrinkage_retention(m, standardized)
     return {
         "retained_separation": None if retention is None else retention.retained,

@@ -15,6 +15,8 @@ if TYPE_CHECKING:
     from discaudit.config import Config
 
 KEY = "discriminant_signal"
+#: Wilks' Lambda below this (float64's machine epsilon) is a rounding-level figure: "exact separation".
+_ROUNDING_LAMBDA = float(np.finfo(np.float64).eps)
 
 
 def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
@@ -23,6 +25,8 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     Fails when Lambda is not significant at ``signal_alpha`` (the class means may be
     equal: any classifier would be guessing); warns when Lambda exceeds
     ``weak_signal_lambda`` (under 10% of the generalized variance lies between classes).
+    A Lambda below machine precision (or an infinite F) is reported as exact separation (warn),
+    never as an ordinary pass: those figures come from rounding, not from a test.
     """
     try:
         w = wilks_lambda_from_moments(data.moments)
@@ -48,6 +52,25 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         "weak_signal_lambda": config.weak_signal_lambda,
         "definition": "Lambda = det W / det(W + B); eigenvalues of W^-1 B; Rao's F approximation",
     }
+    # Lambda = prod 1 / (1 + l_i): below machine precision, 1 + l_i has lost every digit of the
+    # within-class spread, so Lambda, F and its p-value only say "separated exactly": a rounding-
+    # level figure, not a significance level.
+    exact = not w.statistic >= _ROUNDING_LAMBDA or not np.isfinite(w.f)
+    details["exact_separation"] = exact
+    details["rounding_level_lambda"] = _ROUNDING_LAMBDA
+    if exact:
+        details["f"] = None
+        details["p_value"] = None
+        details["f_note"] = "beyond any finite meaning: Lambda is below machine precision"
+        return Finding(
+            KEY,
+            "warn",
+            f"Exact separation: Wilks' Lambda {fmt(w.statistic)} is below machine precision ({fmt(_ROUNDING_LAMBDA)}), "
+            "so the class means lie apart by many times any within-class spread and F has no finite meaning; every "
+            "linear rule separates the rows, and an estimate of accuracy from them is optimistic.",
+            details,
+            "exact separation",
+        )
     figure = f"Lambda {fmt(w.statistic)}"
     text = (
         f"Wilks' Lambda {fmt(w.statistic)} (F = {fmt(w.f)} on {fmt(w.df1)} and {fmt(w.df2)} df, {fmt_p(w.p_value)}); "

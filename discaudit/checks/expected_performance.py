@@ -29,8 +29,11 @@ import numpy as np
 from discaudit.dataset import AuditData, RowBlock
 from discaudit.findings import Finding, fmt, skipped
 from discaudit.jsonable import label
+from discaudit.stats._sampling import resolve_seed
 from discaudit.stats.leave_one_out import LeaveOneOutResult, LeaveOneOutRows, LeaveOneOutScorer, LeaveOneOutTally
 from discaudit.stats.logistic import LogisticEstimate, cross_validated_logistic
+from discaudit.stats.row_keys import keep_share
+from discaudit.stats.seeds import PERFORMANCE_ROWS
 
 if TYPE_CHECKING:
     from discaudit.config import Config
@@ -76,8 +79,18 @@ class _Scores:
     n_common: int
 
 
-def _tally(scorer: LeaveOneOutScorer, block: RowBlock) -> LeaveOneOutTally:
-    return scorer.tally([(block.values, block.codes)])
+def _tally(scorer: LeaveOneOutScorer, share: float, seed: int, origin: np.ndarray, block: RowBlock) -> LeaveOneOutTally:
+    """Leave-one-out sums of the block's rows, or of its rows whose key falls in the sampled share."""
+    keep = keep_share(block.values, share, seed, PERFORMANCE_ROWS, origin)
+    return scorer.tally([(block.values[keep], block.codes[keep])])
+
+
+def _origin(data: AuditData) -> np.ndarray:
+    """Each column's smallest value (from the moments), the origin of the row keys."""
+    m = data.moments
+    if m.minimum is None:
+        return np.zeros(data.p)
+    return np.asarray(m.minimum.min(axis=0), dtype=np.float64)
 
 
 def _total_scale(data: AuditData) -> np.ndarray:
@@ -88,15 +101,28 @@ def _total_scale(data: AuditData) -> np.ndarray:
     return np.where(sd > 0.0, sd, 1.0)
 
 
-def _gaussian(data: AuditData, scale: np.ndarray) -> tuple[LeaveOneOutScorer, LeaveOneOutResult]:
+def _gaussian(
+    data: AuditData, scale: np.ndarray, config: Config, random_state: int | None
+) -> tuple[LeaveOneOutScorer, LeaveOneOutResult]:
+    """Exact leave-one-out of the Gaussian candidates over every row, or over a seeded Bernoulli sample
+    of about ``Config.performance_max_rows`` rows (chosen by row keys, so the same rows whatever their
+    order or chunking); each scored row's refit still uses all the other rows."""
     m = data.moments
     scorer = LeaveOneOutScorer.from_moments(
         m.counts, m.means, m.scatter, shrinkage=SHRINKAGE_GRID, qda_reg_grid=QDA_REG_GRID, scale=scale
     )
+    share = min(1.0, config.performance_max_rows / m.n_total)
+    seed = resolve_seed(random_state)
     if data.all_rows is not None:
-        tally = data.all_rows.map_reduce(functools.partial(_tally, scorer), operator.add)
+        tally = data.all_rows.map_reduce(functools.partial(_tally, scorer, share, seed, _origin(data)), operator.add)
     else:  # a one-shot stream: the per-class sample stands in for the rows
-        tally = scorer.tally([(data.values, data.codes)])
+        tally = _tally(
+            scorer,
+            min(1.0, config.performance_max_rows / data.n),
+            seed,
+            _origin(data),
+            RowBlock(data.values, data.codes, data.row_labels),
+        )
     return scorer, tally.result()
 
 
@@ -119,7 +145,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     be scored, with the reason.
     """
     scale = _total_scale(data)
-    scorer, loo = _gaussian(data, scale)
+    scorer, loo = _gaussian(data, scale, config, random_state)
     chosen = {"lda": "lda" if "lda" in loo.names else None}
     chosen["regularized_lda"] = _best_of(loo, "regularized_lda")
     chosen["qda"] = _best_of(loo, "qda")
@@ -132,6 +158,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         max_rows=config.logistic_max_rows,
         random_state=random_state,
         scale=scale,
+        key_origin=_origin(data),
     )
     rows = logit.rows
     per_row = scorer.score_block(data.values[rows], data.codes[rows])
@@ -235,18 +262,30 @@ def _judge(
 ) -> Finding:
     figures = scores.figures
     scored = [c for c in CANDIDATES if c in figures]
-    not_scored = {c: _why_not(c, loo, logit, data.classes) for c in CANDIDATES if c not in figures}
+    not_scored = {c: _why_not(c, loo, logit, data) for c in CANDIDATES if c not in figures}
     if not scored:
         return skipped(KEY, "No candidate could be scored: " + "; ".join(f"{c}: {r}" for c, r in not_scored.items()))
     z = config.performance_switch_se
-    best = max(scored, key=lambda c: (figures[c]["accuracy"], -CANDIDATES.index(c)))
     paired = {a: {b: _difference(scores, loo, a, b) for b in scored if b != a} for a in scored}
     for pairs in paired.values():
         for d in pairs.values():
             d["within_noise"] = bool(abs(d["accuracy_difference"]) <= z * d["accuracy_se"])
+    # Competitive: log-loss not worse than the lowest by more than Config.log_loss_guard_se paired
+    # SE. A candidate whose accuracy is high by chance while its predictive probabilities have
+    # collapsed (p close to N - K) is not a contender, whatever its accuracy.
+    lowest = min(scored, key=lambda c: (figures[c]["log_loss"], CANDIDATES.index(c)))
+    g = config.log_loss_guard_se
+    competitive = [
+        c
+        for c in scored
+        if c == lowest or paired[c][lowest]["log_loss_difference"] <= g * paired[c][lowest]["log_loss_se"]
+    ]
+    best = max(competitive, key=lambda c: (figures[c]["accuracy"], -CANDIDATES.index(c)))
     versus_best = {c: paired[best][c] for c in scored if c != best}
     within = [
-        c for c in scored if c == best or versus_best[c]["accuracy_difference"] <= z * versus_best[c]["accuracy_se"]
+        c
+        for c in competitive
+        if c == best or versus_best[c]["accuracy_difference"] <= z * versus_best[c]["accuracy_se"]
     ]
     counts = data.moments.counts
     majority = float(counts.max() / counts.sum())
@@ -263,13 +302,17 @@ def _judge(
         "best": best,
         "within_noise_of_best": within,
         "most_efficient_within_noise": efficient,
+        "lowest_log_loss": lowest,
+        "competitive_by_log_loss": competitive,
         "majority_rule_accuracy": majority,
         "beats_majority_rule": beats_majority,
         "paired": paired,
         "switch_se": z,
-        "switch_rule": f"a candidate is within noise of the best when its accuracy is lower by at most {z:g} paired "
-        "standard errors (Config.performance_switch_se); candidates are ordered from the most to the least "
-        "efficient: " + ", ".join(CANDIDATES),
+        "log_loss_guard_se": g,
+        "switch_rule": f"candidates whose log-loss exceeds the lowest by more than {g:g} paired standard errors "
+        "(Config.log_loss_guard_se) are not contenders; among the others, one is within noise of the best when its "
+        f"accuracy is lower by at most {z:g} paired standard errors (Config.performance_switch_se); the most "
+        "efficient candidate within noise is kept, in the order " + ", ".join(CANDIDATES),
         "rows_scored": {"leave_one_out": loo.n_used, "logistic_subsample": scores.n_common},
         "sample_note": None if data.sample is None or data.all_rows is not None else "scored on the per-class sample",
     }
@@ -334,7 +377,7 @@ def _pct(x: float) -> str:
     return f"{100 * x:.1f}%"
 
 
-def _why_not(model: str, loo: LeaveOneOutResult, logit: LogisticEstimate, classes: tuple[Any, ...]) -> str:
+def _why_not(model: str, loo: LeaveOneOutResult, logit: LogisticEstimate, data: AuditData) -> str:
     """Why a candidate was not scored: for a grid, the reason of its least demanding setting."""
     if model == "logistic_regression":
         reason = str(logit.skipped)
@@ -343,4 +386,5 @@ def _why_not(model: str, loo: LeaveOneOutResult, logit: LogisticEstimate, classe
         reason = reasons[-1].split(": ", 1)[-1] if reasons else "not scored"
         if model == "lda" and "eigenvalue" in reason:
             reason = f"the pooled within-class covariance is singular or nearly so ({reason})"
-    return re.sub(r"class code (\d+)", lambda m: f"class {label(classes[int(m.group(1))])}", reason)
+    reason = re.sub(r"class code (\d+)", lambda m: f"class {label(data.classes[int(m.group(1))])}", reason)
+    return re.sub(r"feature (\d+)", lambda m: f"feature {data.features[int(m.group(1))]}", reason)

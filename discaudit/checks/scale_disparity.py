@@ -38,9 +38,12 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     Threshold ``scale_ratio_warn`` (common practice: 1e3).
     """
     S = data.moments.pooled_covariance
-    sd = np.sqrt(np.clip(np.diag(S), 0.0, None))
-    positive = sd > 0
-    raw_cond = _condition_number(S)
+    audited_sd = np.sqrt(np.clip(np.diag(S), 0.0, None))
+    # A feature audited after a power-of-two rescaling (tiny magnitudes) is compared in its own units.
+    power = np.zeros(data.p, dtype=np.intp) if data.coordinates is None else np.asarray(data.coordinates.exponents)
+    sd = np.ldexp(audited_sd, power)
+    positive = audited_sd > 0
+    raw_cond = _condition_number(np.ldexp(S, power[:, None] + power[None, :]) if power.any() else S)
     details: dict[str, object] = {
         "pooled_within_sd": dict(zip(data.features, sd.tolist(), strict=True)),
         "threshold": config.scale_ratio_warn,
@@ -59,8 +62,12 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             details,
             "SD ratio n/a",
         )
-    ratio = float(sd.max() / sd.min())
-    largest, smallest = data.features[int(np.argmax(sd))], data.features[int(np.argmin(sd))]
+    # log2 of each SD in its own units, so the ratio of a 1e-300 feature to a unit one is exact
+    log2_sd = np.log2(audited_sd) + power
+    top, bottom = int(np.argmax(log2_sd)), int(np.argmin(log2_sd))
+    with np.errstate(over="ignore"):
+        ratio = float(np.exp2(log2_sd[top] - log2_sd[bottom]))
+    largest, smallest = data.features[top], data.features[bottom]
     std_cond = _condition_number(correlation_from_covariance(S))
     median_sd = float(np.median(sd))
     band = float(np.sqrt(config.scale_ratio_warn))

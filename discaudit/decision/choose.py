@@ -18,7 +18,10 @@ from discaudit.decision.figures import (
     BEATS_MAJORITY,
     BEST,
     CANDIDATE_FIGURES,
+    CLASS_ENCODING_FEATURES,
+    COMPETITIVE,
     DELTA_BIC,
+    LOWEST_LOG_LOSS,
     MAJORITY_ACCURACY,
     MOST_EFFICIENT_WITHIN_NOISE,
     PAIRED,
@@ -82,6 +85,11 @@ def choose(findings: Findings) -> Choice:
     paired: dict[str, Any] = PAIRED.read(findings)
     best: str = BEST.read(findings)
     model: str = MOST_EFFICIENT_WITHIN_NOISE.read(findings)
+    encoders = CLASS_ENCODING_FEATURES.read(findings) or []
+    if encoders and model == "lda":
+        # A feature constant within every class makes the pooled covariance singular: plain LDA is
+        # not a model of these data whatever its scored accuracy.
+        model = next((c for c in ORDER if c in candidates and c != "lda"), model)
 
     def versus(a: str, b: str) -> dict[str, float]:
         return dict(paired[a][b])
@@ -92,7 +100,15 @@ def choose(findings: Findings) -> Choice:
         if c in candidates
     )
     reasons = [f"Predicted held-out accuracy: {listing}."]
-    close = [c for c in ORDER if c in candidates and c != model and _within(versus(c, model))]
+    competitive = COMPETITIVE.read(findings) or list(candidates)
+    lowest = LOWEST_LOG_LOSS.read(findings)
+    close = [c for c in ORDER if c in candidates and c in competitive and c != model and _within(versus(c, model))]
+    if encoders:
+        reasons.append(
+            f"{_join([str(e) for e in encoders])} {'encodes' if len(encoders) == 1 else 'encode'} the class "
+            "(constant within every class, different between them): the pooled covariance is singular, so plain "
+            "LDA is ruled out; check whether the column leaks the label."
+        )
     not_scored = dict(findings["expected_performance"].details.get("not_scored") or {})
     for c, why in not_scored.items():
         reasons.insert(0, f"{_cap(NAMES[c])} could not be scored: {why}.")
@@ -110,7 +126,10 @@ def choose(findings: Findings) -> Choice:
                 "preferred because it predicts best and is the more efficient model."
             )
         else:
-            reasons.append(f"{_cap(NAMES[model])} predicts best, beyond the noise of every other candidate.")
+            reasons.append(
+                f"{_cap(NAMES[model])} predicts best; no other contender comes within {fmt(SWITCH_SE.read(findings))} "
+                "paired SE of it."
+            )
     else:
         lead = versus(best, model)
         reasons.append(
@@ -119,6 +138,15 @@ def choose(findings: Findings) -> Choice:
             f"less than the {fmt(SWITCH_SE.read(findings))} SE needed to switch; {NAMES[model]} "
             f"is preferred because {_EFFICIENCY[model]}."
         )
+    for c in ORDER:
+        if c in candidates and c not in competitive and candidates[c]["accuracy"] >= candidates[model]["accuracy"]:
+            d = versus(c, lowest)
+            reasons.append(
+                f"{_cap(NAMES[c])} predicts as many rows right, but its log-loss is higher than {NAMES[lowest]}'s by "
+                f"{fmt(d['log_loss_difference'], 2)} (paired SE {fmt(d['log_loss_se'], 2)}, more than the "
+                f"{fmt(findings['expected_performance'].details.get('log_loss_guard_se', 1.0))} SE allowed): its "
+                "predicted probabilities fit the held-out rows less well, so it is not a contender."
+            )
     for check, (argued, words, statuses) in _ARGUES_FOR.items():
         if status(findings, check) not in statuses:
             continue
@@ -149,7 +177,13 @@ def choose(findings: Findings) -> Choice:
         why = (
             f"predicted {_pct(candidates[c]['accuracy'])}, {_signed(d['accuracy_difference'])} points against "
             f"{NAMES[model]} (paired SE {_pts(d['accuracy_se'])}); "
-            + ("within noise of the recommendation" if c in close else "outside the noise of the recommendation")
+            + (
+                "within noise of the recommendation"
+                if c in close
+                else "not a contender: its log-loss is too high"
+                if c not in competitive
+                else "outside the noise of the recommendation"
+            )
         )
         alternatives.append({"model": c, "reason": why})
     for c in ORDER:

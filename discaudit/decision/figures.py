@@ -53,12 +53,18 @@ MOST_DIFFERENT_CLASS = Figure("covariance_homogeneity", ("most_different_class",
 ANY_COMPLETE_SEPARATION = Figure("separation", ("any_complete",))
 ANY_QUASI_COMPLETE_SEPARATION = Figure("separation", ("any_quasi_complete",))
 DISCRETE_FEATURES = Figure("normality", ("discrete_features",))
+#: Features with one value per class that vary across classes: plain LDA's pooled covariance is singular.
+CLASS_ENCODING_FEATURES = Figure("data_hygiene", ("class_encoding_features",))
+#: Wilks' Lambda below machine precision: the classes separate exactly (a rounding-level figure).
+EXACT_SEPARATION = Figure("discriminant_signal", ("exact_separation",))
 
 CANDIDATE_FIGURES = Figure("expected_performance", ("candidates",))
 PAIRED = Figure("expected_performance", ("paired",))
 BEST = Figure("expected_performance", ("best",))
 MOST_EFFICIENT_WITHIN_NOISE = Figure("expected_performance", ("most_efficient_within_noise",))
 SWITCH_SE = Figure("expected_performance", ("switch_se",))
+COMPETITIVE = Figure("expected_performance", ("competitive_by_log_loss",))
+LOWEST_LOG_LOSS = Figure("expected_performance", ("lowest_log_loss",))
 BEATS_MAJORITY = Figure("expected_performance", ("beats_majority_rule",))
 MAJORITY_ACCURACY = Figure("expected_performance", ("majority_rule_accuracy",))
 
@@ -86,4 +92,8 @@ FIGURES: tuple[Figure, ...] = (
     SWITCH_SE,
     BEATS_MAJORITY,
     MAJORITY_ACCURACY,
+    COMPETITIVE,
+    LOWEST_LOG_LOSS,
+    CLASS_ENCODING_FEATURES,
+    EXACT_SEPARATION,
 )

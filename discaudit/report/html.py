@@ -97,7 +97,8 @@ def render(verdict: Verdict, *, plots: bool = True, dpi: int = DPI) -> str:
         "</head>",
         "<body>",
         f"<h1>{_e(table.title)}</h1>",
-        f'<p>Gate status: <span class="status">{_e(status_label(verdict.status))}</span>. '
+        f"<p>{_e(table.gate_outcome)} " if table.gate_outcome else "<p>",
+        f'Worst check status: <span class="status">{_e(status_label(verdict.status))}</span>. '
         f"Written by discaudit {_e(_version())}; this file is self-contained (no scripts, no external resources).</p>",
         f'<div class="caution"><strong>Caution.</strong> {_e(CAUTION.removeprefix("Caution: "))}</div>',
         _contents(verdict),

@@ -34,8 +34,13 @@ def format_table(table: VerdictTable) -> str:
     e = _text
     parts = [
         '<div class="discaudit-verdict">',
-        f'<p><strong>{e(table.title)}</strong><br>Gate status: <strong style="white-space:nowrap">'
-        f"{e(status_label(table.status))}</strong></p>",
+        f"<p><strong>{e(table.title)}</strong><br>"
+        + (
+            f'<strong class="gate" data-passed="{str(table.gate_passed).lower()}">{e(table.gate_outcome)}</strong><br>'
+            if table.gate_outcome
+            else ""
+        )
+        + f'Worst check status: <strong style="white-space:nowrap">{e(status_label(table.status))}</strong></p>',
         "<table>",
         "<thead><tr>"
         + "".join(f"<th {_CELL}>{h}</th>" for h in ("check", "status", "key figure", "summary"))
@@ -51,6 +56,10 @@ def format_table(table: VerdictTable) -> str:
             f"<td {_CELL}>{e(row.summary)}</td></tr>"
         )
     parts += ["</tbody>", "</table>"]
+    if table.gate_rule:
+        parts.append(f'<p class="gate-rule"><em>{e(table.gate_rule)}</em></p>')
+    if table.baseline is not None:
+        parts.append(format_baseline(table))
     parts.append(
         f"<p><strong>Recommendation:</strong> {e(MODEL_NAMES[table.model])} (<code>{e(table.model)}</code>)<br>"
         f"<strong>Suggested settings:</strong> {e(format_params(table.params))}"
@@ -71,6 +80,40 @@ def format_table(table: VerdictTable) -> str:
         parts.append(f"<p><strong>Alternatives, best first:</strong></p><ol>{items}</ol>")
     parts += [f"<p><small>{e(note)}</small></p>" for note in table.notes]
     parts.append("</div>")
+    return "\n".join(parts)
+
+
+def format_baseline(table: VerdictTable) -> str:
+    """The 'compared with the baseline' section as an HTML fragment."""
+    e = _text
+    b = table.baseline
+    assert b is not None
+    word = "drifted" if b.drifted else "within noise"
+    parts = [
+        f'<section class="baseline" data-drifted="{str(b.drifted).lower()}">',
+        f"<h3>Compared with the baseline (<code>{e(b.source)}</code>): {e(word)}</h3>",
+        f"<p>{e(b.outcome)}</p>",
+    ]
+    if b.changes:
+        items = "".join(
+            f'<li data-counts="{str(c.counts).lower()}">{"<strong>counts</strong>" if c.counts else "noted"}: '
+            f"{e(c.summary)}</li>"
+            for c in b.changes
+        )
+        parts.append(f"<ul>{items}</ul>")
+    if b.classes:
+        head = "".join(
+            f"<th {_CELL}>{h}</th>"
+            for h in ("class", "rows then -> now", "share then -> now", "mean shift", "covariance")
+        )
+        body = "".join(
+            f'<tr data-drifted="{str(r.drifted).lower()}">'
+            + "".join(f"<td {_CELL}>{e(v)}</td>" for v in (r.label, r.rows, r.share, r.mean, r.covariance))
+            + "</tr>"
+            for r in b.classes
+        )
+        parts.append(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>")
+    parts += [f"<p><em>{e(b.rule)}</em></p>", "</section>"]
     return "\n".join(parts)
 
 

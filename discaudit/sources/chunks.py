@@ -22,15 +22,20 @@ import numpy.typing as npt
 import pandas as pd
 
 from discaudit.config import Config
-from discaudit.dataset import AuditData, IntakeRecord, RowBlock, RowPass, SampleInfo
+from discaudit.dataset import AuditData, Coordinates, IntakeRecord, RowBlock, RowPass, SampleInfo
 from discaudit.errors import DataError
 from discaudit.jsonable import label
 from discaudit.sources.screening import (
+    audit_values,
     check_classes,
     check_magnitude,
+    choose_coordinates,
     column_range,
     distinct_values,
+    exact_range,
+    frame_columns,
     identical_columns,
+    named_columns,
     numeric_columns,
     raise_for_missing,
     screen_columns,
@@ -98,6 +103,8 @@ class ChunkSummary:
     missing_per_column: npt.NDArray[np.int64]
     first_missing_row: Any
     missing_labels: int
+    #: Labels of the first rows (at most 5) whose class label is missing.
+    missing_label_rows: tuple[Any, ...]
     dropped_per_class: dict[Any, int]
     non_numeric: tuple[str, ...]
     #: For each column, the first column holding the same values in every row seen (itself if none).
@@ -106,6 +113,9 @@ class ChunkSummary:
     n_features_input: int
     capacity: int
     distinct_limit: int = field(default=5)
+    #: The coordinates every chunk is audited in (chosen from the first chunk; see Coordinates).
+    coordinates: Coordinates | None = None
+    conversions: dict[str, str] = field(default_factory=dict)
 
 
 def summarize(
@@ -115,22 +125,26 @@ def summarize(
     capacity: int,
     rng: np.random.Generator,
     features: tuple[str, ...] | None = None,
+    coordinates: Coordinates | None = None,
 ) -> ChunkSummary:
     """Summarize one chunk (a DataFrame holding the target column).
 
     ``features`` fixes the feature columns (from the first chunk); a later chunk that lacks
-    one raises DataError naming it.
+    one raises DataError naming it. ``coordinates`` (from the first chunk) fix where every
+    feature is audited, so that all summaries merge; by default they are chosen from this chunk.
     """
     frame, labels = split(chunk, None, target)
     n_features_input = frame.shape[1]
-    frame, non_numeric = numeric_columns(frame, config)
+    frame, non_numeric, conversions = numeric_columns(frame, config)
     if features is not None:
         missing_cols = [f for f in features if f not in frame.columns]
         if missing_cols:
             raise DataError(f"A later chunk lacks feature columns {missing_cols[:8]} (or they are not numeric there).")
         frame = frame[list(features)]
-    with np.errstate(invalid="ignore"):
-        values = np.ascontiguousarray(frame.to_numpy(dtype=np.float64, na_value=np.nan))
+    columns = frame_columns(frame)
+    if coordinates is None:
+        coordinates = choose_coordinates([exact_range(c) for c in columns])
+    values = audit_values(columns, coordinates)
     screen = screen_missing(values, labels, frame.index)
     dropped = labels[screen.bad_rows & ~screen.missing_label].value_counts().to_dict()
     keep = screen.keep
@@ -155,6 +169,7 @@ def summarize(
         missing_per_column=screen.missing_per_column,
         first_missing_row=screen.first_bad_row,
         missing_labels=int(screen.missing_label.sum()),
+        missing_label_rows=tuple(label(r) for r in frame.index[screen.missing_label][:5]),
         dropped_per_class={label(k): int(v) for k, v in dropped.items()},
         non_numeric=tuple(non_numeric),
         same_as=identical_columns(values),
@@ -162,6 +177,8 @@ def summarize(
         n_features_input=n_features_input,
         capacity=capacity,
         distinct_limit=limit,
+        coordinates=coordinates,
+        conversions=conversions,
     )
 
 
@@ -175,6 +192,8 @@ def merge(a: ChunkSummary, b: ChunkSummary, rng: np.random.Generator) -> ChunkSu
     """Exact merge of two summaries of disjoint rows."""
     if a.features != b.features:
         raise DataError(f"Chunks disagree on the feature columns: {list(a.features)[:5]} vs {list(b.features)[:5]}.")
+    if a.coordinates != b.coordinates:  # pragma: no cover - every source passes the first chunk's
+        raise ValueError("chunk summaries in different coordinates cannot be merged")
     reservoirs = dict(a.reservoirs)
     for c, r in b.reservoirs.items():
         reservoirs[c] = reservoirs[c].merge(r, a.capacity, rng) if c in reservoirs else r
@@ -195,6 +214,7 @@ def merge(a: ChunkSummary, b: ChunkSummary, rng: np.random.Generator) -> ChunkSu
         missing_per_column=a.missing_per_column + b.missing_per_column,
         first_missing_row=a.first_missing_row if a.first_missing_row is not None else b.first_missing_row,
         missing_labels=a.missing_labels + b.missing_labels,
+        missing_label_rows=(a.missing_label_rows + b.missing_label_rows)[:5],
         dropped_per_class=dropped,
         non_numeric=a.non_numeric,
         same_as=_refine(a.same_as, b.same_as),
@@ -202,6 +222,8 @@ def merge(a: ChunkSummary, b: ChunkSummary, rng: np.random.Generator) -> ChunkSu
         n_features_input=a.n_features_input,
         capacity=a.capacity,
         distinct_limit=a.distinct_limit,
+        coordinates=a.coordinates,
+        conversions={**a.conversions, **b.conversions},
     )
 
 
@@ -219,7 +241,13 @@ def to_audit_data(
     """
     features = list(summary.features)
     if config.missing == "error":
-        raise_for_missing(summary.missing_per_column, summary.first_missing_row, summary.missing_labels, features)
+        raise_for_missing(
+            summary.missing_per_column,
+            summary.first_missing_row,
+            summary.missing_labels,
+            features,
+            summary.missing_label_rows,
+        )
     summary = _unify_label_types(summary, random_state)
     classes = ordered_unique(list(summary.moments.classes))
     moments = _reorder(summary.moments, classes)
@@ -242,6 +270,7 @@ def to_audit_data(
         non_numeric_dropped=summary.non_numeric,
         constant_columns=screen.constant,
         duplicate_columns=screen.duplicates,
+        conversions=summary.conversions,
     )
     sample = SampleInfo(
         n_total=moments.n_total,
@@ -249,8 +278,19 @@ def to_audit_data(
         capacity=summary.capacity,
         random_state=random_state,
     )
+    coordinates = None if summary.coordinates is None else summary.coordinates.take(idx.tolist())
     return AuditData(
-        values, codes, tuple(classes), kept_features, row_labels, moments, record, distinct, sample, all_rows
+        values,
+        codes,
+        tuple(classes),
+        kept_features,
+        row_labels,
+        moments,
+        record,
+        distinct,
+        sample,
+        all_rows,
+        None if coordinates is None or coordinates.trivial else coordinates,
     )
 
 
@@ -270,7 +310,7 @@ def _unify_label_types(summary: ChunkSummary, random_state: int | None) -> Chunk
     reservoirs: dict[Any, Reservoir] = {}
     for k, c in enumerate(labels):
         text = str(c)
-        part = ClassMoments((text,), m.counts[k : k + 1], m.means[k : k + 1], m.scatter[k : k + 1])
+        part = m.take_classes([k], (text,))
         merged = part if merged is None else merged.merge(part)
         r = summary.reservoirs[c]
         reservoirs[text] = reservoirs[text].merge(r, summary.capacity, rng) if text in reservoirs else r
@@ -282,8 +322,7 @@ def _unify_label_types(summary: ChunkSummary, random_state: int | None) -> Chunk
 
 
 def _reorder(moments: ClassMoments, classes: list[Any]) -> ClassMoments:
-    order = [moments.classes.index(c) for c in classes]
-    return ClassMoments(tuple(classes), moments.counts[order], moments.means[order], moments.scatter[order])
+    return moments.take_classes([moments.classes.index(c) for c in classes], tuple(classes))
 
 
 def summarize_chunks(
@@ -303,12 +342,13 @@ def summarize_chunks(
             config.sample_rows_per_class,
             stream_rng(random_state, CHUNK_SAMPLE, i),
             None if total is None else total.features,
+            None if total is None else total.coordinates,
         )
         total = part if total is None else merge(total, part, stream_rng(random_state, CHUNK_MERGE, i))
         if progress is not None:
             progress(len(chunk))
-    if total is None:
-        raise DataError("The input has no rows.")
+    if total is None or total.n_rows_input == 0:
+        raise DataError("The input has no data rows.")
     return total
 
 
@@ -326,10 +366,15 @@ class BlockSpec:
     kept: npt.NDArray[np.intp]
     codes: dict[Any, int]
     text_labels: bool
+    coordinates: Coordinates | None = None
+    config: Config | None = None
 
     def block(self, chunk: pd.DataFrame) -> RowBlock:
-        with np.errstate(invalid="ignore"):
-            values = np.ascontiguousarray(chunk[list(self.columns)].to_numpy(dtype=np.float64, na_value=np.nan))
+        frame = named_columns(chunk.drop(columns=[self.target]))[list(self.columns)]
+        if self.config is not None:  # the same conversions as pass 1 (e.g. categorical codes)
+            frame = numeric_columns(frame, self.config)[0]
+        columns = frame_columns(frame)
+        values = audit_values(columns, self.coordinates or Coordinates.plain(len(columns)))
         labels = chunk[self.target]
         screen = screen_missing(values, labels, chunk.index)
         raw = labels.to_numpy(dtype=object)
@@ -341,12 +386,14 @@ class BlockSpec:
         return RowBlock(np.ascontiguousarray(values[np.ix_(rows, self.kept)]), codes[rows], chunk.index[rows])
 
 
-def block_spec(summary: ChunkSummary, data: AuditData, target: str) -> BlockSpec:
+def block_spec(summary: ChunkSummary, data: AuditData, target: str, config: Config | None = None) -> BlockSpec:
     """The :class:`BlockSpec` that maps raw chunks onto ``data``'s columns and classes."""
     position = {name: j for j, name in enumerate(summary.features)}
     kept = np.array([position[f] for f in data.features], dtype=np.intp)
     text = all(isinstance(c, str) for c in data.classes)
-    return BlockSpec(target, summary.features, kept, {c: k for k, c in enumerate(data.classes)}, text)
+    return BlockSpec(
+        target, summary.features, kept, {c: k for k, c in enumerate(data.classes)}, text, summary.coordinates, config
+    )
 
 
 @dataclass(frozen=True)
@@ -380,4 +427,4 @@ def load_chunks(
     data = to_audit_data(summary, config, random_state)
     if source is None:
         return data
-    return dataclasses.replace(data, all_rows=ChunkRows(source, block_spec(summary, data, target)))
+    return dataclasses.replace(data, all_rows=ChunkRows(source, block_spec(summary, data, target, config)))

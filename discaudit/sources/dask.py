@@ -41,9 +41,17 @@ def _dask() -> tuple[Callable[..., tuple[Any, ...]], Callable[[Callable[..., Any
 
 
 def _summarize_partition(
-    part: pd.DataFrame, target: str, config: Config, random_state: int | None, i: int
+    part: pd.DataFrame,
+    target: str,
+    config: Config,
+    random_state: int | None,
+    i: int,
+    first: ChunkSummary | None = None,
 ) -> ChunkSummary:
-    return summarize(part, target, config, config.sample_rows_per_class, stream_rng(random_state, CHUNK_SAMPLE, i))
+    rng = stream_rng(random_state, CHUNK_SAMPLE, i)
+    if first is None:
+        return summarize(part, target, config, config.sample_rows_per_class, rng)
+    return summarize(part, target, config, config.sample_rows_per_class, rng, first.features, first.coordinates)
 
 
 def _merge_pair(a: ChunkSummary, b: ChunkSummary, random_state: int | None, level: int, j: int) -> ChunkSummary:
@@ -77,7 +85,14 @@ def load_dask(ddf: Any, *, target: str | None, config: Config, random_state: int
     if target not in ddf.columns:
         raise DataError(f"Target column {target!r} not found; the columns are: {', '.join(map(str, ddf.columns[:8]))}.")
     parts = ddf.to_delayed()
-    nodes = [delayed(_summarize_partition)(part, target, config, random_state, i) for i, part in enumerate(parts)]
+    # The first partition is summarized first: its coordinates (where each feature is audited, see
+    # Coordinates) and columns fix those of every other partition, so all summaries merge exactly.
+    (first,) = compute(delayed(_summarize_partition)(parts[0], target, config, random_state, 0))
+    nodes = [first] + [
+        delayed(_summarize_partition)(part, target, config, random_state, i, first)
+        for i, part in enumerate(parts)
+        if i > 0
+    ]
     level = 0
     while len(nodes) > 1:
         paired = [
@@ -87,4 +102,4 @@ def load_dask(ddf: Any, *, target: str | None, config: Config, random_state: int
         level += 1
     (summary,) = compute(nodes[0])
     data = to_audit_data(summary, config, random_state)
-    return dataclasses.replace(data, all_rows=PartitionRows(parts, block_spec(summary, data, target)))
+    return dataclasses.replace(data, all_rows=PartitionRows(parts, block_spec(summary, data, target, config)))

@@ -15,14 +15,18 @@ import numpy.typing as npt
 import pandas as pd
 
 from discaudit.config import Config
-from discaudit.dataset import ArrayRows, AuditData, IntakeRecord
+from discaudit.dataset import ArrayRows, AuditData, Coordinates, IntakeRecord
 from discaudit.errors import DataError
 from discaudit.jsonable import label
 from discaudit.sources.screening import (
     as_labels,
+    audit_values,
+    choose_coordinates,
     column_range,
     distinct_values,
     encode,
+    exact_range,
+    frame_columns,
     identical_columns,
     numeric_columns,
     raise_for_missing,
@@ -44,11 +48,12 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
     DataError
         For a missing target, fewer than two classes, a class with fewer than two rows, no
         numeric feature, mismatched lengths, non-finite values under ``missing="error"``,
-        or non-numeric features under ``non_numeric="error"``.
+        non-numeric features under ``non_numeric="error"``, and complex columns.
     """
+    X, y, conversions = unwrap_arrays(X, y)
     plain = _plain_array(X, y, target)
     if plain is not None:
-        values, labels = plain
+        values, labels, coordinates = plain
         columns: list[Any] = [f"x{j}" for j in range(values.shape[1])]
         n_rows_input, n_features_input = values.shape
         non_numeric: list[str] = []
@@ -57,14 +62,21 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
     else:
         frame, labels = split(X, y, target)
         n_rows_input, n_features_input = frame.shape
-        frame, non_numeric = numeric_columns(frame, config)
-        values, frame, labels, dropped, unlabelled = _handle_missing(frame, labels, config)
+        frame, non_numeric, converted = numeric_columns(frame, config)
+        conversions.update(converted)
+        try:
+            values, frame, labels, dropped, unlabelled, coordinates = _handle_missing(frame, labels, config)
+        except DataError as exc:
+            if any(v.startswith("masked") for v in conversions.values()):
+                raise DataError(f"{exc} (Masked entries count as missing values.)") from None
+            raise
         columns = list(frame.columns)
     codes, classes = encode(labels)
     col_min, col_max = column_range(values)  # reductions only: no temporary copy of the data
     screen = screen_columns(col_min, col_max, identical_columns(values), [str(c) for c in columns])
     if not screen.keep.all():
         values = np.ascontiguousarray(values[:, screen.keep])
+        coordinates = coordinates.take(np.flatnonzero(screen.keep).tolist())
     features = tuple(str(c) for c, k in zip(columns, screen.keep, strict=True) if k)
     moments = ClassMoments.from_arrays(values, codes, classes)
     distinct = {
@@ -80,25 +92,102 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
         non_numeric_dropped=tuple(non_numeric),
         constant_columns=screen.constant,
         duplicate_columns=screen.duplicates,
+        conversions=conversions,
     )
     rows = ArrayRows(values, codes, labels.index)
-    return AuditData(values, codes, classes, features, labels.index, moments, record, distinct, all_rows=rows)
+    return AuditData(
+        values,
+        codes,
+        classes,
+        features,
+        labels.index,
+        moments,
+        record,
+        distinct,
+        all_rows=rows,
+        coordinates=None if coordinates.trivial else coordinates,
+    )
 
 
-def _plain_array(X: Any, y: Any, target: str | None) -> tuple[FloatArray, pd.Series] | None:
+def unwrap_arrays(X: Any, y: Any) -> tuple[Any, Any, dict[str, str]]:
+    """numpy masked and structured arrays as plain input, and the conversions made (documented).
+
+    A masked entry of X becomes a missing value (NaN), so it follows ``Config.missing``; a masked
+    label becomes a missing label. A structured array becomes a DataFrame with one column per
+    field (a field holding sub-arrays raises DataError naming it).
+    """
+    conversions: dict[str, str] = {}
+    if isinstance(X, np.ma.MaskedArray):
+        mask = np.ma.getmaskarray(X)
+        if X.dtype.names is None:
+            if X.dtype.kind not in "fiub":
+                raise DataError(
+                    f"X is a masked array of dtype {X.dtype}; pass numbers (a masked array of floats or integers)."
+                )
+            X = np.ma.filled(X.astype(np.float64), np.nan)
+        else:
+            X = _structured_frame(np.ma.getdata(X), np.ma.getmaskarray(X))
+        if mask.any():
+            conversions["X"] = f"masked array: {int(mask.sum())} masked entries became missing values (Config.missing)"
+    if isinstance(X, np.ndarray) and X.dtype.names is not None:
+        X = _structured_frame(X, None)
+        conversions.setdefault("X", "structured array: one feature column per field")
+    if isinstance(y, np.ma.MaskedArray):
+        mask = np.ma.getmaskarray(y)
+        labels = np.ma.getdata(y).astype(object)
+        labels[mask] = None
+        y = labels
+        if mask.any():
+            conversions["y"] = f"masked array: {int(mask.sum())} masked labels became missing labels"
+    return X, y, conversions
+
+
+def _structured_frame(X: np.ndarray, mask: Any) -> pd.DataFrame:
+    if X.ndim != 1:
+        raise DataError(f"X is a structured array of shape {X.shape}; pass a one-dimensional one (one record per row).")
+    assert X.dtype.names is not None
+    columns: dict[str, Any] = {}
+    for name in X.dtype.names:
+        field = X[name]
+        if field.ndim != 1:
+            raise DataError(
+                f"Field {name!r} of the structured array X holds sub-arrays of shape {field.shape[1:]}; "
+                "pass one scalar field per feature."
+            )
+        if mask is not None and mask[name].any():
+            field = field.astype(np.float64 if field.dtype.kind in "fiub" else object)
+            field[mask[name]] = np.nan if field.dtype.kind == "f" else None
+        columns[name] = field
+    frame: pd.DataFrame = pd.DataFrame(columns)
+    return frame
+
+
+def _plain_array(X: Any, y: Any, target: str | None) -> tuple[FloatArray, pd.Series, Coordinates] | None:
     """A finite numeric 2-D ndarray X with labels y, taken as is (no copy if float64, C order).
 
     The common case of ``preflight(X, y)``: no DataFrame is built and the array is audited in
     place, through a read-only view. Anything else (missing values or labels, other types)
-    returns None and takes the general path, which reports problems by column and row.
+    returns None and takes the general path, which reports problems by column and row. A
+    column that needs other coordinates (offset-dominated, integers beyond 2**53, tiny
+    magnitudes) is audited from a converted copy.
     """
     if target is not None or y is None or not isinstance(X, np.ndarray) or X.ndim != 2:
         return None
     if X.dtype.kind not in "fiub" or X.shape[1] == 0 or X.shape[0] == 0:
         return None
-    values = np.asarray(X, dtype=np.float64, order="C")
-    if not all(np.isfinite(values[a : a + ROW_BLOCK]).all() for a in block_starts(values.shape[0])):
-        return None
+    if X.dtype.kind in "iu":
+        low, high = X.min(axis=0).tolist(), X.max(axis=0).tolist()
+        coordinates = choose_coordinates([(int(a), int(b)) for a, b in zip(low, high, strict=True)])
+    else:
+        values = np.asarray(X, dtype=np.float64, order="C")
+        if not all(np.isfinite(values[a : a + ROW_BLOCK]).all() for a in block_starts(values.shape[0])):
+            return None
+        low, high = column_range(values)
+        coordinates = choose_coordinates([(float(a), float(b)) for a, b in zip(low, high, strict=True)])
+    if coordinates.trivial:
+        values = np.asarray(X, dtype=np.float64, order="C")
+    else:
+        values = audit_values([X[:, j] for j in range(X.shape[1])], coordinates)
     view = values.view()
     view.flags.writeable = False
     try:
@@ -107,14 +196,15 @@ def _plain_array(X: Any, y: Any, target: str | None) -> tuple[FloatArray, pd.Ser
         return None
     if labels.isna().any():
         return None
-    return view, labels
+    return view, labels, coordinates
 
 
 def _handle_missing(
     frame: pd.DataFrame, labels: pd.Series, config: Config
-) -> tuple[FloatArray, pd.DataFrame, pd.Series, dict[Any, int], int]:
-    with np.errstate(invalid="ignore"):
-        values = np.ascontiguousarray(frame.to_numpy(dtype=np.float64, na_value=np.nan))
+) -> tuple[FloatArray, pd.DataFrame, pd.Series, dict[Any, int], int, Coordinates]:
+    columns = frame_columns(frame)
+    coordinates = choose_coordinates([exact_range(c) for c in columns])
+    values = audit_values(columns, coordinates)
     screen = screen_missing(values, labels, frame.index)
     if config.missing == "error":
         raise_for_missing(
@@ -124,7 +214,7 @@ def _handle_missing(
             list(frame.columns),
             [label(r) for r in frame.index[screen.missing_label][:5]],
         )
-        return values, frame, labels, {}, 0
+        return values, frame, labels, {}, 0, coordinates
     dropped = labels[screen.bad_rows & ~screen.missing_label].value_counts().to_dict()
     kept = screen.keep
     return (
@@ -133,4 +223,5 @@ def _handle_missing(
         labels[kept],
         {label(k): int(v) for k, v in dropped.items()},
         int(screen.missing_label.sum()),
+        coordinates,
     )

@@ -19,8 +19,9 @@ import numpy.typing as npt
 import pandas as pd
 
 from discaudit.config import Config
+from discaudit.dataset import Coordinates
 from discaudit.errors import DataError
-from discaudit.jsonable import label
+from discaudit.jsonable import distinct_names, label
 from discaudit.stats._inputs import check_magnitude, label_codes
 from discaudit.stats.blocks import ROW_BLOCK, block_starts
 
@@ -33,14 +34,22 @@ _DISTINCT_SCREEN_ROWS = 1000
 
 __all__ = [
     "ColumnScreen",
+    "Coordinates",
     "MissingScreen",
     "as_labels",
+    "audit_values",
     "check_classes",
     "check_magnitude",
+    "choose_coordinates",
+    "column_kind",
     "column_range",
+    "distinct_classes",
     "distinct_values",
     "encode",
+    "exact_range",
+    "frame_columns",
     "identical_columns",
+    "named_columns",
     "numeric_columns",
     "raise_for_missing",
     "screen_columns",
@@ -73,7 +82,19 @@ def split(X: Any, y: Any, target: str | None) -> tuple[pd.DataFrame, pd.Series]:
         raise DataError(f"Column names {dup} appear more than once; rename them so findings can name them.")
     if frame.shape[1] == 0:
         raise DataError("No feature columns: X has only the target.")
-    return frame, labels
+    if frame.shape[0] == 0:
+        raise DataError("The input has no data rows; an audit needs labelled rows.")
+    return named_columns(frame), labels
+
+
+def named_columns(frame: pd.DataFrame) -> pd.DataFrame:
+    """The frame with each column named by the text findings show (columns 1 and '1' become 1 and
+    '1', see :func:`~discaudit.jsonable.distinct_names`); the caller's frame is not changed."""
+    names = distinct_names(list(frame.columns))
+    if list(frame.columns) == names:
+        return frame
+    renamed: pd.DataFrame = frame.set_axis(pd.Index(names, dtype=object), axis=1)
+    return renamed
 
 
 def _as_frame(X: Any) -> pd.DataFrame:
@@ -108,23 +129,228 @@ def as_labels(y: Any, index: pd.Index) -> pd.Series:
     return labels
 
 
-def numeric_columns(frame: pd.DataFrame, config: Config) -> tuple[pd.DataFrame, list[str]]:
-    """The numeric (and boolean) feature columns, and the names of the others (error or set aside)."""
-    non_numeric = [
-        str(c)
-        for c in frame.columns
-        if not (pd.api.types.is_numeric_dtype(frame[c].dtype) or pd.api.types.is_bool_dtype(frame[c].dtype))
-        or isinstance(frame[c].dtype, pd.CategoricalDtype)
-    ]
-    if non_numeric and config.non_numeric == "error":
+#: What to do about each kind of column that is not plain numbers (the fix named in the error).
+_FIXES = {
+    "text": "encode it as numbers or drop it",
+    "mixed": "clean it: it mixes numbers and other values, so the export or the reader mis-typed it",
+    "datetime": "convert it to elapsed time, e.g. (s - s.min()).dt.total_seconds(), or drop it",
+    "timedelta": "convert it to a number of units, e.g. s.dt.total_seconds(), or drop it",
+    "categorical": "one-hot encode it, or pass Config(categorical='codes') to audit its category codes",
+    "complex": "split each into real columns (its real and imaginary parts, or its modulus) or drop it",
+    "other": "convert it to numbers or drop it",
+}
+
+
+def column_kind(column: pd.Series) -> str:
+    """What a feature column holds: ``numeric`` (audited as is), ``number_objects`` (an object column
+    of real numbers, converted), or a kind that is not numbers (``text``, ``mixed``, ``datetime``,
+    ``timedelta``, ``categorical``, ``complex``, ``other``)."""
+    dtype = column.dtype
+    if isinstance(dtype, pd.CategoricalDtype):
+        return "categorical"
+    if pd.api.types.is_complex_dtype(dtype):
+        return "complex"
+    if pd.api.types.is_bool_dtype(dtype) or pd.api.types.is_numeric_dtype(dtype):
+        return "numeric"
+    if pd.api.types.is_datetime64_any_dtype(dtype) or isinstance(dtype, pd.PeriodDtype):
+        return "datetime"
+    if pd.api.types.is_timedelta64_dtype(dtype):
+        return "timedelta"
+    if pd.api.types.is_string_dtype(dtype) or pd.api.types.is_object_dtype(dtype):
+        present = column[column.notna()]
+        numbers = present.map(_is_real_number).to_numpy(dtype=bool)
+        if numbers.all():
+            return "number_objects" if len(present) else "text"
+        if numbers.any():
+            return "mixed"
+        return "text"
+    return "other"
+
+
+def _is_real_number(value: Any) -> bool:
+    if isinstance(value, (bool, np.bool_, str, bytes)):
+        return isinstance(value, (bool, np.bool_))
+    if isinstance(value, (complex, np.complexfloating)):
+        return False
+    try:
+        float(value)
+    except (TypeError, ValueError, OverflowError):
+        return False
+    return True
+
+
+def _describe(column: pd.Series, kind: str) -> str:
+    """A column's kind in words, for an error message (the mixed types and the first stray value)."""
+    if kind == "mixed":
+        present = column[column.notna()]
+        stray = present[~present.map(_is_real_number).to_numpy(dtype=bool)]
+        types = sorted({type(v).__name__ for v in present})
+        return f"mixed types {', '.join(types)}; first non-number {stray.iloc[0]!r} at row {label(stray.index[0])!r}"
+    return {"text": "text", "other": f"dtype {column.dtype}"}.get(kind, f"{kind} ({column.dtype})")
+
+
+def numeric_columns(frame: pd.DataFrame, config: Config) -> tuple[pd.DataFrame, list[str], dict[str, str]]:
+    """The numeric feature columns, the names set aside as not numbers, and the conversions made.
+
+    Numbers (any integer, float or boolean dtype, pandas nullable ones included) are kept as
+    they are. Converted, and recorded: an object column whose every value is a real number
+    (pd.to_numeric), and a categorical column under ``Config(categorical='codes')`` (its
+    category codes; a missing category becomes a missing value). Complex columns are refused
+    whatever the policy (auditing their real part would drop half the number without a word).
+    Every other kind (text, mixed numbers and text, datetime, timedelta, categorical) follows
+    ``Config.non_numeric``: a DataError naming each column, its kind and the fix, or set aside.
+    """
+    kinds = {c: column_kind(frame[c]) for c in frame.columns}
+    complex_cols = [str(c) for c, k in kinds.items() if k == "complex"]
+    if complex_cols:
         raise DataError(
-            f"Non-numeric feature columns {non_numeric[:8]}: encode them as numbers, drop them, or pass "
-            "Config(non_numeric='drop') to set them aside."
+            f"Feature columns {complex_cols[:8]} hold complex numbers; {_FIXES['complex']}. "
+            "An audit of the real part alone would silently drop the imaginary part."
         )
-    keep = [c for c in frame.columns if str(c) not in non_numeric]
+    conversions: dict[str, str] = {}
+    converted: dict[Any, pd.Series] = {}
+    for c, kind in kinds.items():
+        if kind == "number_objects":
+            converted[c] = pd.to_numeric(frame[c], errors="raise").astype(np.float64)
+            conversions[str(c)] = "object column of numbers converted to float64"
+        elif kind == "categorical" and config.categorical == "codes":
+            codes = frame[c].cat.codes.astype(np.float64)
+            converted[c] = codes.where(codes >= 0, np.nan)
+            conversions[str(c)] = "categorical: its category codes audited as numbers (Config.categorical='codes')"
+    for c in converted:
+        kinds[c] = "numeric"
+    non_numeric = [c for c, k in kinds.items() if k != "numeric"]
+    if non_numeric and config.non_numeric == "error":
+        shown = [str(c) for c in non_numeric[:8]]
+        listed = "; ".join(f"{c!s} ({_describe(frame[c], kinds[c])}): {_FIXES[kinds[c]]}" for c in non_numeric[:8])
+        more = f"; and {len(non_numeric) - 8} more" if len(non_numeric) > 8 else ""
+        raise DataError(
+            f"Non-numeric feature columns {shown}: {listed}{more}. Or pass Config(non_numeric='drop') to set them aside."
+        )
+    keep = [c for c in frame.columns if kinds[c] == "numeric"]
     if not keep:
-        raise DataError(f"No numeric feature: every feature column is non-numeric ({non_numeric[:8]}).")
-    return frame[keep], non_numeric
+        shown = [str(c) for c in non_numeric[:8]]
+        raise DataError(f"No numeric feature: every feature column is non-numeric ({shown}).")
+    kept = frame[keep]
+    if converted:
+        kept = kept.copy()  # the caller's frame is never changed
+        for c, values in converted.items():
+            kept[c] = values
+    return kept, [str(c) for c in non_numeric], conversions
+
+
+#: A feature is offset-dominated when its spread is below this fraction of its magnitude: fewer
+#: than about 33 of float64's 53 bits then vary, and sums of squares about a rounded mean lose them.
+OFFSET_FRACTION = 2.0**-20
+#: A feature whose centred magnitude is below this is rescaled by a power of two (exact), since
+#: its squares would fall among float64's subnormal numbers (below 2.2e-308) or to zero.
+SMALLEST_SQUARABLE = 1e-150
+#: Integers beyond this are not all exact in float64, so they are centred in integer arithmetic.
+EXACT_INTEGERS = 2**53
+
+
+def _integer_column(column: Any) -> npt.NDArray[Any] | None:
+    """The values of an integer column as a numpy integer array (missing ones as 0), else None."""
+    dtype = getattr(column, "dtype", None)
+    if dtype is None or not pd.api.types.is_integer_dtype(dtype) or pd.api.types.is_bool_dtype(dtype):
+        return None
+    if isinstance(column, pd.Series):
+        target = np.uint64 if str(dtype).lower().startswith("uint") else np.int64
+        out: npt.NDArray[Any] = column.to_numpy(dtype=target, na_value=0)
+        return out
+    return np.asarray(column)
+
+
+def exact_range(column: Any) -> tuple[int | float, int | float] | None:
+    """Smallest and largest finite value, exactly (Python ints for integer columns); None if none."""
+    ints = _integer_column(column)
+    if ints is not None:
+        present = ints if not isinstance(column, pd.Series) else ints[column.notna().to_numpy()]
+        return (int(present.min()), int(present.max())) if present.size else None
+    with np.errstate(invalid="ignore"):
+        values = np.asarray(
+            column.to_numpy(dtype=np.float64, na_value=np.nan) if isinstance(column, pd.Series) else column,
+            dtype=np.float64,
+        )
+    finite = values[np.isfinite(values)]
+    return (float(finite.min()), float(finite.max())) if finite.size else None
+
+
+def choose_coordinates(ranges: Sequence[tuple[int | float, int | float] | None]) -> Coordinates:
+    """The coordinates of some numeric columns from their exact ranges (see :class:`Coordinates`)."""
+    locations: list[int | float] = []
+    exponents: list[int] = []
+    for found in ranges:
+        location: int | float = 0
+        if found is not None:
+            lo, hi = found
+            magnitude, spread = max(abs(lo), abs(hi)), hi - lo
+            big_integers = isinstance(lo, int) and magnitude > EXACT_INTEGERS
+            if spread > 0 and (big_integers or spread < OFFSET_FRACTION * magnitude):
+                location = lo
+        centred = 0.0 if found is None else float(max(abs(found[0] - location), abs(found[1] - location)))
+        exponents.append(int(np.frexp(centred)[1]) if 0 < centred < SMALLEST_SQUARABLE else 0)
+        locations.append(location)
+    return Coordinates(tuple(locations), tuple(exponents))
+
+
+def audit_values(columns: Sequence[Any], coordinates: Coordinates) -> FloatArray:
+    """Numeric columns as one C-ordered float64 array in the audit's coordinates (a new array).
+
+    Missing values become NaN. Integer columns with a location are shifted in integer
+    arithmetic before conversion, so integers near 2**62 keep every digit that varies.
+    """
+    n = len(columns[0]) if columns else 0
+    out = np.empty((n, len(columns)), dtype=np.float64)
+    for j, (column, location, exponent) in enumerate(
+        zip(columns, coordinates.locations, coordinates.exponents, strict=True)
+    ):
+        ints = _integer_column(column) if isinstance(location, int) and location else None
+        if ints is not None and isinstance(location, int):
+            shifted = _shift_integers(ints, location)
+            if isinstance(column, pd.Series) and column.hasnans:
+                shifted[column.isna().to_numpy()] = np.nan
+            out[:, j] = shifted
+        else:
+            with np.errstate(invalid="ignore"):
+                if isinstance(column, pd.Series):
+                    out[:, j] = column.to_numpy(dtype=np.float64, na_value=np.nan)
+                else:
+                    out[:, j] = column
+            if location:
+                out[:, j] -= location
+        if exponent:
+            out[:, j] = np.ldexp(out[:, j], -exponent)
+    return out
+
+
+def _shift_integers(values: npt.NDArray[Any], location: int) -> FloatArray:
+    """``values - location`` as float64, computed exactly in integers where the result fits."""
+    if values.dtype.kind == "u":
+        anchor_u = np.uint64(max(location, 0))
+        below = values < anchor_u
+        unsigned: FloatArray = (values - anchor_u).astype(np.float64)  # wraps below the anchor: fixed next
+        unsigned[below] = -((anchor_u - values[below]).astype(np.float64))
+        return unsigned
+    wide = values.astype(np.int64)
+    try:
+        anchor = np.int64(location)
+    except OverflowError:
+        fallback: FloatArray = wide.astype(np.float64) - float(location)
+        return fallback
+    with np.errstate(over="ignore"):
+        diff = wide - anchor
+    # where the difference overflowed int64 its sign is wrong: fall back to float there
+    wrong = (wide >= anchor) != (diff >= 0)
+    out: FloatArray = diff.astype(np.float64)
+    if wrong.any():
+        out[wrong] = wide[wrong].astype(np.float64) - float(location)
+    return out
+
+
+def frame_columns(frame: pd.DataFrame) -> list[pd.Series]:
+    """The columns of a frame as Series (by position, so duplicated or odd names do no harm)."""
+    return [frame.iloc[:, j] for j in range(frame.shape[1])]
 
 
 @dataclass(frozen=True)
@@ -162,21 +388,37 @@ def raise_for_missing(
         where = f" (rows {list(label_rows)[:5]})" if len(label_rows) else ""
         raise DataError(
             f"The target has {n_missing_labels} missing labels{where}; label or drop them, "
-            "or pass Config(missing='drop_rows')."
+            "or pass Config(missing='drop_rows').",
+            rows=list(label_rows)[:5],
         )
     if missing_per_column.any():
         cols = [f"{columns[int(j)]} ({int(missing_per_column[j])})" for j in np.flatnonzero(missing_per_column)]
         raise DataError(
             f"NaN or infinite values in columns {', '.join(cols[:8])} (first at row "
-            f"{first_bad_row}); impute or drop them, or pass Config(missing='drop_rows')."
+            f"{first_bad_row}); impute or drop them, or pass Config(missing='drop_rows').",
+            rows=[first_bad_row],
         )
 
 
 def encode(labels: pd.Series) -> tuple[npt.NDArray[np.intp], tuple[Any, ...]]:
-    """Integer codes of the labels and the classes (sorted when comparable); DataError if too few."""
+    """Integer codes of the labels and the classes (sorted when comparable); DataError if too few.
+
+    Classes that would print alike (True and 'True', 1 and '1') are renamed to the text that tells
+    them apart (see :func:`distinct_classes`), so no report or mapping shows two as one.
+    """
     codes, classes = label_codes(labels)
+    classes = distinct_classes(classes)
     check_classes(classes, np.bincount(codes, minlength=len(classes)))
     return codes, tuple(classes)
+
+
+def distinct_classes(classes: Sequence[Any]) -> list[Any]:
+    """The classes, with those that would print alike replaced by their repr (others unchanged)."""
+    shown = [label(c) for c in classes]
+    if len({str(s) for s in shown}) == len(shown):
+        return list(classes)
+    names = distinct_names(list(classes))
+    return [c if str(label(c)) == n else n for c, n in zip(classes, names, strict=True)]
 
 
 def check_classes(classes: Sequence[Any], counts: npt.NDArray[np.int64]) -> None:

@@ -123,6 +123,7 @@ def _tau_rows(Y: FloatMatrix) -> FloatVector:
     safe = np.where(ok, s0, 1.0)
     # In place: A becomes the bisquare weights (1 - (|d| / (c1 s0))^2)_+^2.
     A /= (TAU_C1 * safe)[:, None]
+    np.minimum(A, 1.0, out=A)  # beyond c1 s0 the weight is 0 either way; clipping keeps squares finite
     np.square(A, out=A)
     np.subtract(1.0, A, out=A)
     np.maximum(A, 0.0, out=A)
@@ -130,8 +131,9 @@ def _tau_rows(Y: FloatMatrix) -> FloatVector:
     shift = np.einsum("ij,ij->i", A, D) / A.sum(axis=1)  # mu - mu0
     D -= shift[:, None]
     D /= safe[:, None]
+    np.abs(D, out=D)
+    np.minimum(D, TAU_C2, out=D)  # min(d^2, c2^2) as min(|d|, c2)^2: no square can overflow
     np.square(D, out=D)
-    np.minimum(D, TAU_C2 * TAU_C2, out=D)
     return np.where(ok, safe * np.sqrt(D.mean(axis=1)), 0.0)
 
 

@@ -73,15 +73,16 @@ def whiten(data: FloatMatrix, names: list[str], *, statistic: str, subsampled: b
             f"{statistic} need more rows than features: got {n} rows and {p} features{where}, so "
             "the sample covariance is singular. Drop features or add rows."
         )
-    mean = data.mean(axis=0)
-    centred = data - mean
-    # Divide by each column's range first (exact for the statistics, which are scale free),
+    # Shift by a location first (the first row: an offset of 1e15 then keeps the digits that
+    # vary), then divide by each column's range (exact for the statistics, which are scale free),
     # so squares of tiny or huge values neither underflow nor overflow.
+    shifted = data - data[0]
+    centred = shifted - shifted.mean(axis=0)
     spread = np.ptp(data, axis=0)
     with np.errstate(divide="ignore", invalid="ignore"):
         centred = np.where(spread > 0, centred / np.where(spread > 0, spread, 1.0), 0.0)
     sd = np.sqrt(np.einsum("ij,ij->j", centred, centred) / n)
-    constant = (spread == 0) | (sd * spread <= 1e-12 * np.abs(mean))
+    constant = spread == 0  # an exact fact: a column that takes two values varies, however little
     if constant.any():
         cols = [names[j] for j in np.flatnonzero(constant)]
         raise DataError(

@@ -23,8 +23,8 @@ from scipy.special import expit
 
 from discaudit.errors import DataError
 from discaudit.stats._sampling import resolve_seed
-from discaudit.stats.blocks import ROW_BLOCK
-from discaudit.stats.seeds import LOGISTIC_CV, stream_rng
+from discaudit.stats.row_keys import row_keys
+from discaudit.stats.seeds import LOGISTIC_CV
 
 FloatArray = npt.NDArray[np.float64]
 IntArray = npt.NDArray[np.intp]
@@ -64,11 +64,6 @@ LBFGS_MAXLS = 50
 #: L-BFGS-B iterations at most (project choice; scikit-learn's default ``max_iter`` is 100). A fit that
 #: stops there is kept, finite, and reported with ``converged=False``.
 LBFGS_MAX_ITER = 1000
-
-#: Multipliers and shifts of the splitmix64 output function (Steele, Lea & Flood 2014), which mixes the
-#: bits of the row keys.
-_MIX_SHIFTS = (np.uint64(30), np.uint64(27), np.uint64(31))
-_MIX_MULTIPLIERS = (np.uint64(0xBF58476D1CE4E5B9), np.uint64(0x94D049BB133111EB))
 
 
 def _readonly(a: npt.ArrayLike, dtype: Any = np.float64) -> Any:
@@ -426,6 +421,9 @@ def fit_logistic(
         Inverse penalty strength (> 0), scikit-learn's ``C``.
     init : LogisticFit, optional
         A fit to start from (a warm start; e.g. the fit at a neighbouring C). Any centre and scale.
+    key_origin : array-like, shape (p,), optional
+        Subtracted from the rows before their keys are computed (e.g. each column's minimum), so that
+        shifting a column by a constant that is exact in float64 (integer data) chooses the same rows.
     scale : array-like, shape (p,), optional
         Positive per-feature scale: the model is fitted to u = (x - centre) / scale.
     centre : array-like, shape (p,), optional
@@ -512,27 +510,6 @@ def fit_logistic(
 
 # ---------------------------------------------------------------------------------------------------
 # Subsample and folds
-
-
-def _mix(x: UIntArray) -> UIntArray:
-    """splitmix64's output function, elementwise (wrapping uint64 arithmetic)."""
-    x = x ^ (x >> _MIX_SHIFTS[0])
-    x = x * _MIX_MULTIPLIERS[0]
-    x = x ^ (x >> _MIX_SHIFTS[1])
-    x = x * _MIX_MULTIPLIERS[1]
-    return np.asarray(x ^ (x >> _MIX_SHIFTS[2]), dtype=np.uint64)
-
-
-def _row_keys(X: FloatArray, seed: int) -> UIntArray:
-    """A pseudo-random 64-bit key per row from its values and the seed alone (not its position)."""
-    n, p = X.shape
-    salt = stream_rng(seed, LOGISTIC_CV).integers(0, 2**64, size=p + 1, dtype=np.uint64, endpoint=False)
-    keys = np.empty(n, dtype=np.uint64)
-    for a in range(0, n, ROW_BLOCK):
-        bits = (X[a : a + ROW_BLOCK] + 0.0).view(np.uint64)  # + 0.0: -0.0 and 0.0 get one key
-        mixed = _mix(bits ^ salt[:p])
-        keys[a : a + ROW_BLOCK] = _mix(mixed.sum(axis=1, dtype=np.uint64) ^ salt[p])
-    return keys
 
 
 def _quotas(counts: npt.NDArray[np.int64], max_rows: int, folds: int, first_key: UIntArray) -> npt.NDArray[np.int64]:
@@ -661,6 +638,7 @@ def cross_validated_logistic(
     max_rows: int = DEFAULT_MAX_ROWS,
     random_state: int | None = None,
     scale: npt.ArrayLike | None = None,
+    key_origin: npt.ArrayLike | None = None,
 ) -> LogisticEstimate:
     """Out-of-fold accuracy and log-loss of L2-penalized logistic regression, C chosen by cross-validation.
 
@@ -760,7 +738,7 @@ def cross_validated_logistic(
     seed = resolve_seed(random_state)
     n = Xa.shape[0]
 
-    keys = _row_keys(Xa, seed)
+    keys = row_keys(Xa, seed, LOGISTIC_CV, origin=key_origin)
     counts = np.bincount(ca, minlength=K).astype(np.int64)
     by_class = [np.flatnonzero(ca == k) for k in range(K)]
     ordered = [idx[np.lexsort((idx, keys[idx]))] for idx in by_class]

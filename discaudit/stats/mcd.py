@@ -138,8 +138,6 @@ _NULL_EIGENVALUE = 1e-9
 #: largest standard deviation of the fitted rows (in units of the column standard deviations),
 #: or within the largest residual of the rows that revealed the fit.
 _ON_PLANE = 1e-6
-#: Largest magnitude accepted: squares (covariance entries) must stay finite in float64.
-_LARGEST_SQUARABLE = 1e150
 #: Elements of the temporary arrays of one batch of starts.
 _BATCH_ELEMENTS = 1 << 22
 #: Quantile of chi-square(p) below which rows are kept in the reweighting step.
@@ -508,13 +506,7 @@ def mcd(
     """
     data, names = as_matrix(X, min_rows=2)
     n, p = data.shape
-    huge = np.abs(data).max(axis=0) > _LARGEST_SQUARABLE
-    if huge.any():
-        cols = [names[j] for j in np.flatnonzero(huge)]
-        raise DataError(
-            f"X has columns {cols[:8]} with values beyond 1e150 in magnitude, whose squares "
-            "overflow float64; rescale them (e.g. divide by a power of ten) first."
-        )
+    # as_matrix has already refused values whose squares would overflow (check_magnitude).
     if n <= p:
         raise DataError(
             f"X has {n} rows and {p} features; the MCD needs more rows than features "

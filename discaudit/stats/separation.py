@@ -1,4 +1,4 @@
-"""Complete and quasi-complete separation of the classes, detected by linear programming."""
+"""Complete and quasi-complete separation of the classes: an overlap certificate, else linear programming."""
 
 from __future__ import annotations
 
@@ -8,8 +8,9 @@ from typing import Any, cast
 
 import numpy as np
 import numpy.typing as npt
-from scipy import sparse
+from scipy import linalg, sparse
 from scipy.optimize import linprog
+from scipy.special import expit
 
 from discaudit.errors import DataError
 from discaudit.stats._inputs import FloatMatrix, as_labels, as_matrix
@@ -32,6 +33,15 @@ _BETA_BOXES = (1e6, 1e3)
 #: Eigenvalue ratio of the standardized cross-product matrix above which all features are
 #: linearly independent without a QR (see _independent_columns).
 _GRAM_SCREEN = 1e-8
+#: Newton steps of the overlap certificate (see _overlap_weights). On overlapping Gaussian
+#: classes it holds within 2 to 5 steps, on nearly separated ones within about 9; separated data
+#: never let it hold, and after this many steps the linear program decides.
+_CERTIFICATE_STEPS = 12
+#: Smallest singular-value ratio of the working set at which the certificate is tried: well
+#: above rounding, so that the computed smallest singular value is a reliable bound.
+_CERTIFICATE_RANK = 1e-6
+#: Unit roundoff of float64.
+_UNIT_ROUNDOFF = float(np.finfo(np.float64).eps) / 2
 
 IntArray = npt.NDArray[np.intp]
 
@@ -137,7 +147,9 @@ class SeparationResult:
         return self.any_complete or self.any_quasi_complete
 
 
-def detect_separation(X: Any, y: Any, *, max_rows: int = 2000, random_state: int | None = None) -> SeparationResult:
+def detect_separation(
+    X: Any, y: Any, *, max_rows: int = 2000, random_state: int | None = None, certify_overlap: bool = True
+) -> SeparationResult:
     """Detect complete and quasi-complete separation of the classes by linear programming.
 
     Under complete or quasi-complete separation the maximum likelihood estimate of a logistic
@@ -156,6 +168,10 @@ def detect_separation(X: Any, y: Any, *, max_rows: int = 2000, random_state: int
     random_state : int or None, default None
         Seed of the subsamples. If None and a subsample is needed, a fresh seed is drawn and
         recorded in the result.
+    certify_overlap : bool, default True
+        Try the overlap certificate (Notes) before the first linear program of each comparison.
+        It only ever skips a program whose answer it has proven, so the result is the same
+        either way; False runs the programs always (for checking and timing).
 
     Returns
     -------
@@ -208,6 +224,44 @@ def detect_separation(X: Any, y: Any, *, max_rows: int = 2000, random_state: int
     a_i' beta / ||w||_2 on P. Minimizing the L1 norm keeps the direction sparse, so
     ``separating_features`` names few features when few suffice.
 
+    Overlap certificate, before any LP. By Stiemke's theorem of the alternative [2]_, either some
+    beta has A beta >= 0 with A beta != 0, or some lambda with every lambda_i > 0 has
+    A' lambda = sum_i lambda_i a_i = 0, never both. Such a lambda says that the two sides carry
+    equal total weight and that sum_P lambda_i z_i / sum_P lambda_i = sum_N lambda_i z_i /
+    sum_N lambda_i: one point is a convex combination, with every weight positive, of the rows
+    of either side, i.e. the relative interiors of the two convex hulls meet. It therefore
+    proves both "not completely separated" and "not quasi-completely separated" (the overlap
+    of Albert and Anderson 1984); by Gordan's theorem a lambda >= 0, lambda != 0 would prove
+    only the first, so it is not used. Before each detection LP of a comparison the certificate
+    is sought on the working set W of that round (all rows, the starting subsample, or the set
+    grown as described below): if it is found and the rows of W have full column rank, every
+    beta with A_W beta >= 0 is 0, the cone of all rows lies in that of W, and the comparison is
+    "none" with ``n_used`` = |W| -- the answer, and the ``n_used``, that the LP and the checks
+    after it would have given. It is never used to claim separation: when it is not found, the
+    LPs decide as below.
+
+    The lambda comes from Newton's method for the logistic regression of the two sides on W
+    (Santner and Duffy 1986 [3]_ decide the three cases by linear programming, as the LPs
+    below do; the likelihood gives the cheaper proof of overlap): its maximum likelihood
+    estimate beta_hat exists exactly under overlap, and its score equations
+    sum_i sigma(-a_i' beta_hat) a_i = 0 are such a lambda, lambda_i = sigma(-a_i' beta_hat) in
+    (0, 1). At each iterate beta, with lambda_i = sigma(-a_i' beta), w_i = lambda_i (1 -
+    lambda_i) and the Newton step delta = (A' diag(w) A)^-1 A' lambda, the linearized weights
+    mu = lambda - w * (A delta) satisfy A' mu = 0 exactly in exact arithmetic; the certificate
+    is the first mu > 0 (at most 12 steps; overlapping classes need 2 to 9). At beta = 0, mu_i = (1 - s_i yhat_i) / 2 with yhat
+    the least-squares fit of the +-1 labels on (z, 1) (Fisher's direction): the first candidate
+    holds when no fitted value goes beyond its own row's label. Rounding is bounded, not
+    ignored: with r the computed A' mu, gamma = m u / (1 - m u) (u the unit roundoff, m = |W|)
+    and sigma_min the smallest singular value of A_W, the exact vector mu - A (A'A)^-1 A' mu is
+    orthogonal to the columns and differs from mu by at most (||r|| + gamma sum_i |mu_i|
+    ||a_i||) / sigma_min in every entry; it is accepted only when that is at most half of
+    min_i mu_i (and sigma_min is at least 1e-6 times the largest singular value). On the
+    benchmark's overlapping Gaussian classes (n 500 to 10,000, p 5 to 30) it decided every
+    comparison, about 0.3 ms each against 7 to 25 ms for an LP, and cut the time of this
+    function by 85 to 97 %; with the class means moved 3 or 6 times as far apart (many
+    comparisons separated, or their subsample is) it decided fewer and cost up to 13 % more
+    (benchmarks/bench_separation.py).
+
     Large data: the LPs run on a working set W of rows and the answer is certified for all
     rows. W starts as all rows if there are at most ``max_rows``, else as a seeded subsample
     stratified by side (up to ``max_rows // 2`` rows from each side, more from one side if the
@@ -242,6 +296,11 @@ def detect_separation(X: Any, y: Any, *, max_rows: int = 2000, random_state: int
     ----------
     .. [1] Albert, A. and Anderson, J. A. (1984). On the existence of maximum likelihood
        estimates in logistic regression models. Biometrika, 71(1), 1-10.
+    .. [2] Stiemke, E. (1915). Über positive Lösungen homogener linearer Gleichungen.
+       Mathematische Annalen, 76, 340-342.
+    .. [3] Santner, T. J. and Duffy, D. E. (1986). A note on A. Albert and J. A. Anderson's
+       conditions for the existence of maximum likelihood estimates in logistic regression
+       models. Biometrika, 73(3), 755-758.
 
     Examples
     --------
@@ -279,7 +338,9 @@ def detect_separation(X: Any, y: Any, *, max_rows: int = 2000, random_state: int
     comparisons = []
     for k, versus in plan:
         positive = codes == k
-        comparisons.append(_compare(space, positive, classes[k], versus, int(counts[k]), max_rows, rng))
+        comparisons.append(
+            _compare(space, positive, classes[k], versus, int(counts[k]), max_rows, rng, certify_overlap)
+        )
     notes = []
     if space.dropped:
         notes.append(f"constant features ignored: {', '.join(space.dropped)}")
@@ -334,7 +395,7 @@ class _FeatureSpace:
         self.mean = moments.means[0]
         cross = moments.scatter[0]
         self.sd = np.sqrt(np.diag(cross) / n)
-        keep = (np.ptp(values, axis=0) > 0) & (self.sd > 1e-12 * np.abs(self.mean))
+        keep = (np.ptp(values, axis=0) > 0) & (self.sd > 0)  # constant = min == max, exactly
         self.keep = np.flatnonzero(keep)
         self.dropped = [names[j] for j in np.flatnonzero(~keep)]
         independent = _independent_columns(self, cross)
@@ -460,6 +521,7 @@ def _compare(
     n_positive: int,
     max_rows: int,
     rng: np.random.Generator | None,
+    certify_overlap: bool = True,
 ) -> SeparationComparison:
     n = positive.size
     sign = np.where(positive, 1.0, -1.0)
@@ -470,13 +532,51 @@ def _compare(
     else:
         start = np.arange(n)
     A = _SignedRows(space, sign)
-    strict, beta_detect, boundary_span, used = _maximal_strict_set(A, start, max_rows)
+    strict, beta_detect, boundary_span, used = _maximal_strict_set(A, start, max_rows, certify_overlap)
     if not strict.any():
         return _not_separated(label, versus, n_used=used, n_total=n)
     beta = _min_l1_direction(A, strict, boundary_span, max_rows)
     if beta is None:  # only through solver tolerances: keep the detection LP's hyperplane
         beta = beta_detect
     return _separated(space, label, versus, A, beta, strict, n_used=used)
+
+
+def _overlap_weights(A: FloatMatrix) -> npt.NDArray[np.float64] | None:
+    """Weights lambda > 0 with A' lambda = 0 (to the rounding bound), A of full column rank; or None.
+
+    Weights returned prove that no beta != 0 has A beta >= 0 (overlap of the rows of A, by
+    Stiemke's alternative). They are sought among the linearized weights of Newton's method for
+    the logistic likelihood sum_i log(1 + exp(-a_i' beta)); see the Notes of
+    :func:`detect_separation` for the rounding bound. None means "not proven" (separated, or
+    an overlap the few steps did not reach): the LP decides.
+    """
+    m, d = A.shape
+    if m <= d:
+        return None
+    singular = np.linalg.svd(np.linalg.qr(A, mode="r"), compute_uv=False)
+    if not singular[-1] > _CERTIFICATE_RANK * singular[0]:
+        return None
+    lengths = np.linalg.norm(A, axis=1)
+    gamma = m * _UNIT_ROUNDOFF / (1.0 - m * _UNIT_ROUNDOFF)
+    beta = np.zeros(d)
+    for _ in range(_CERTIFICATE_STEPS):
+        lam = expit(-(A @ beta))
+        w = lam * (1.0 - lam)
+        try:
+            factor = linalg.cho_factor((A * w[:, None]).T @ A, check_finite=False)
+        except linalg.LinAlgError:  # weights underflowed: the rows look separated
+            return None
+        step = linalg.cho_solve(factor, A.T @ lam, check_finite=False)
+        if not np.all(np.isfinite(step)):
+            return None
+        mu: npt.NDArray[np.float64] = lam - w * (A @ step)
+        smallest = float(mu.min())
+        if smallest > 0:
+            drift = float(np.linalg.norm(A.T @ mu)) + gamma * float(mu @ lengths)
+            if drift <= 0.5 * smallest * float(singular[-1]):
+                return mu
+        beta += step
+    return None
 
 
 def _not_separated(label: Any, versus: tuple[Any, ...], *, n_used: int, n_total: int) -> SeparationComparison:
@@ -594,7 +694,7 @@ def _grow(work: IntArray, candidates: IntArray, score: npt.NDArray[np.float64], 
 
 
 def _maximal_strict_set(
-    A: _SignedRows, start: IntArray, chunk: int
+    A: _SignedRows, start: IntArray, chunk: int, certify_overlap: bool = True
 ) -> tuple[npt.NDArray[np.bool_], npt.NDArray[np.float64], FloatMatrix, int]:
     """Rows i with a_i' beta > 0 for some beta in the cone C = {beta : A beta >= 0}.
 
@@ -607,13 +707,21 @@ def _maximal_strict_set(
       non-strict for every member of C (C lies in the cone of W, whose non-strict rows are
       implicit equalities with a linear conic hull); any other such row joins W.
 
+    Before each program (if ``certify_overlap``) the overlap certificate is tried on W: when it
+    holds, the program would find no strict row and a full-rank W, so the answer (no strict
+    row, |W|) is returned without it.
+
     Returns the strict mask over all rows, the final beta (a member of C), an orthonormal
     basis of the span of all non-strict rows (= L_W at the end) and |W|.
     """
     n = A.n
     work = np.asarray(start, dtype=np.intp)
     while True:
-        beta, t = _strict_lp(A.take(work))
+        rows = A.take(work)
+        if certify_overlap and _overlap_weights(rows) is not None:
+            # Proven: no beta != 0 has A_W beta >= 0, so no row is strict for any separating beta.
+            return np.zeros(n, dtype=bool), np.zeros(A.d), np.eye(A.d), int(work.size)
+        beta, t = _strict_lp(rows)
         strict_w = t > 0.5
         span, complement = _row_space(A.take(work[~strict_w]))
         strict = np.zeros(n, dtype=bool)

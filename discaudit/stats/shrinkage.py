@@ -22,7 +22,7 @@ def class_centred_fourth_sums(
     ``scales`` has one row per scale (S, p); the result has S sums, from one pass over X in
     blocks of rows (no second full copy of X): ||z_i||^2 = sum_j (x_ij - m_kj)^2 / scale_j^2.
     """
-    inv_sq = 1.0 / np.atleast_2d(scales) ** 2
+    inv_sq = (1.0 / np.atleast_2d(scales)) ** 2  # invert first: a scale of 2**996 squared overflows
     total = np.zeros(inv_sq.shape[0])
     for _, part in class_centred_blocks(X, codes, means):
         part *= part
@@ -120,13 +120,19 @@ def pooled_ledoit_wolf(
 
 
 def pooled_ledoit_wolf_intensities(
-    X: FloatArray, codes: npt.NDArray[np.intp], moments: ClassMoments, standardize: tuple[bool, ...]
+    X: FloatArray,
+    codes: npt.NDArray[np.intp],
+    moments: ClassMoments,
+    standardize: tuple[bool, ...],
+    exponents: npt.ArrayLike | None = None,
 ) -> tuple[float, ...]:
     """Intensities for each ``standardize`` flag, from one pass over the rows.
 
     Without standardizing, all features are divided by one common power-of-two scale first:
     the intensity is invariant to a common rescaling (numerator and denominator both scale
-    by c^4), and fourth powers of large values would otherwise overflow.
+    by c^4), and fourth powers of large values would otherwise overflow. ``exponents`` says
+    that feature j of X is ``x_j * 2**-exponents[j]`` (an exact rescaling of tiny values): the
+    unstandardized intensity is then that of the x_j, in their own units.
 
     Raises
     ------
@@ -138,12 +144,17 @@ def pooled_ledoit_wolf_intensities(
     sd = np.sqrt(np.diag(W) / N)
     if any(standardize) and np.any(sd <= 0):
         raise DataError("standardize=True needs every feature to vary within classes.")
-    largest = float(sd.max())
-    if not largest > 0:
+    if not sd.max() > 0:
         return tuple(0.0 for _ in standardize)
-    common = np.full(sd.shape, 2.0 ** np.round(np.log2(largest)))
+    power = np.zeros(sd.shape, dtype=np.intp) if exponents is None else np.asarray(exponents, dtype=np.intp)
+    with np.errstate(divide="ignore"):
+        largest_log2 = float(np.max(np.log2(sd) + power))  # of the features in their own units
+    with np.errstate(over="ignore"):  # a feature more than 2**1023 below the largest: scale inf, weight 0
+        common = np.ldexp(1.0, int(np.round(largest_log2)) - power)
     scales = np.array([sd if flag else common for flag in standardize])
     fourth = class_centred_fourth_sums(X, codes, moments.means, scales)
     return tuple(
-        ledoit_wolf_intensity(W / np.outer(scale, scale), N, float(f)) for scale, f in zip(scales, fourth, strict=True)
+        # (W / s_i) / s_j, not W / (s_i s_j): that product overflows for a rescaled tiny feature
+        ledoit_wolf_intensity(W / scale[:, None] / scale[None, :], N, float(f))
+        for scale, f in zip(scales, fourth, strict=True)
     )
