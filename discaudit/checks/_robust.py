@@ -21,7 +21,6 @@ once per audit (memoized on the data with the settings and seed it depends on, s
 
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
@@ -31,7 +30,6 @@ from scipy import stats as sps
 
 from discaudit._threads import map_in_threads
 from discaudit.dataset import AuditData
-from discaudit.errors import DegenerateDataWarning
 from discaudit.stats._linalg import mahalanobis_sq
 from discaudit.stats.blocks import ROW_BLOCK
 from discaudit.stats.canonical import canonical_order, canonical_ranks, content_digest, row_keys
@@ -119,7 +117,8 @@ def canonical_layout(data: AuditData) -> tuple[list[IntArray], list[int]]:
     """Per class, the canonical order of its held rows, and the classes' canonical ranks (memoized)."""
 
     def compute() -> tuple[list[IntArray], list[int]]:
-        keys = [row_keys(data.values, data.class_rows(k)) for k in range(len(data.classes))]
+        origin = data.values.min(axis=0) if data.n else None  # exact shifts of a column change no key
+        keys = [row_keys(data.values, data.class_rows(k), origin) for k in range(len(data.classes))]
         counts = [int(k.size) for k in keys]
         return [canonical_order(k) for k in keys], canonical_ranks(counts, [content_digest(k) for k in keys])
 
@@ -149,12 +148,9 @@ def _compute(data: AuditData, config: Config, random_state: int | None) -> Robus
     def one(k: int) -> tuple[ClassFit, npt.NDArray[np.float64]]:
         return _fit_class(data, config, k, orders[k], seeds[k])
 
-    # The MCD's warning about an exact fit is not passed on: the finding states the exact fit. The
-    # filter is set once around the thread pool (warning filters are shared by all threads; setting
-    # them inside a worker would race with the others).
-    with warnings.catch_warnings():
-        warnings.filterwarnings("ignore", category=DegenerateDataWarning)
-        results = map_in_threads(one, range(len(data.classes)))
+    # An exact fit the screen could not foresee still makes the MCD warn; the audit records that
+    # warning in the finding's details (warning filters are process state: never changed here).
+    results = map_in_threads(one, range(len(data.classes)))
     fits = [f for f, _ in results]
     distances = [d for _, d in results]
     beyond = [
@@ -249,9 +245,8 @@ def _robust(
     """Reweighted FAST-MCD of the fit rows ``X`` (the class's continuous columns); every class row scored.
 
     Overflow in the deterministic starts' scale (squares of standardized values near 1e150 times
-    the class's spread) only gives such a row zero weight there, so it is silenced (``errstate`` is
-    local to the thread; the MCD's exact-fit warning is silenced around the thread pool, see
-    :func:`_compute`).
+    the class's spread) only gives such a row zero weight there, so it is silenced (numpy's
+    ``errstate`` is local to the thread; warning filters are not touched).
     """
     with np.errstate(over="ignore"):
         res: MCDResult = mcd(

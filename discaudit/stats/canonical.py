@@ -34,13 +34,19 @@ __all__ = ["canonical_order", "canonical_ranks", "content_digest", "row_keys"]
 U64 = npt.NDArray[np.uint64]
 
 
-def row_keys(X: npt.NDArray[np.float64], rows: npt.NDArray[np.intp] | None = None) -> U64:
-    """The content key of each row of ``X[rows]`` (all rows if None), a block of rows at a time."""
+def row_keys(
+    X: npt.NDArray[np.float64], rows: npt.NDArray[np.intp] | None = None, origin: npt.ArrayLike | None = None
+) -> U64:
+    """The content key of each row of ``X[rows]`` (all rows if None), a block of rows at a time.
+
+    ``origin`` (one value per column, e.g. each column's minimum over all rows) is subtracted first,
+    so that an exact shift of a column leaves the keys, and hence the order, unchanged.
+    """
     if rows is None:
-        return _keys.row_keys(X, 0, CANONICAL)
+        return _keys.row_keys(X, 0, CANONICAL, origin)
     out = np.empty(rows.size, dtype=np.uint64)
     for a in range(0, rows.size, ROW_BLOCK):
-        out[a : a + ROW_BLOCK] = _keys.row_keys(np.take(X, rows[a : a + ROW_BLOCK], axis=0), 0, CANONICAL)
+        out[a : a + ROW_BLOCK] = _keys.row_keys(np.take(X, rows[a : a + ROW_BLOCK], axis=0), 0, CANONICAL, origin)
     return out
 
 
