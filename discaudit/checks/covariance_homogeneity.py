@@ -110,6 +110,8 @@ def _flury(sub: ClassMoments) -> dict[str, Any]:
         "n_params": fl.n_params,
         "steps": fl.steps,
         "proportional_factors": {label(c): float(r) for c, r in zip(sub.classes, fl.proportional_factors, strict=True)},
+        "cpc_converged": fl.cpc_converged,
+        "cpc_sweeps": fl.cpc_sweeps,
         "models": "equal: one covariance; proportional: Sigma_k = rho_k Sigma (size only); cpc: common principal "
         "axes, class-specific spreads along them; unrelated: free covariances. Maximum likelihood from the class "
         "scatter matrices (divisor n_k); nested likelihood-ratio tests; lowest BIC chosen",
@@ -209,7 +211,11 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             "log_determinants": {label(c): v for c, v in zip(sub.classes, box.log_determinants, strict=True)},
             "spread": spread,
             "most_different_class": worst,
-            "flury": _flury(sub),
+            "flury": _flury(sub)
+            if box.p_value < config.box_m_alpha or bic.delta_bic > 0
+            else {
+                "not_computed": "Box's M does not reject and the BIC favours one shared covariance: no difference to locate"
+            },
         }
     )
     rejects = box.p_value < config.box_m_alpha

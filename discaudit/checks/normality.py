@@ -306,7 +306,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         "covariance_divisor": "n (Mardia, Henze-Zirkler)",
         "pairwise_max_rows": config.pairwise_max_rows,
     }
-    arrays = _qq_arrays(data, continuous, flags)
+    arrays = _qq_arrays(data, continuous, flags, orders, seeds, config.pairwise_max_rows)
     graded = [(cls, s) for cls, s in per_class.items() if "status" in s]
     failing = [c for c, s in graded if s["status"] == "fail"]
     warning = [c for c, s in graded if s["status"] == "warn"]
@@ -383,8 +383,19 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     return Finding(KEY, status, sentence(parts), details, figure, arrays)
 
 
-def _qq_arrays(data: AuditData, continuous: list[int], flags: list[np.ndarray]) -> dict[str, Any]:
-    """Per row: classical squared distance from its class mean and covariance on the tested features."""
+def _qq_arrays(
+    data: AuditData,
+    continuous: list[int],
+    flags: list[np.ndarray],
+    orders: list[np.ndarray],
+    seeds: list[int],
+    max_rows: int,
+) -> dict[str, Any]:
+    """Per row: classical squared distance from its class mean and covariance on the tested features.
+
+    For the Q-Q plot: a class with more than ``max_rows`` rows gets distances for a seeded subsample
+    of that many (drawn in the canonical order, NaN elsewhere), which is plenty for a Q-Q plot.
+    """
     n = data.n
     d = np.full(n, np.nan)
     flagged = np.zeros(n, dtype=bool)
@@ -395,11 +406,16 @@ def _qq_arrays(data: AuditData, continuous: list[int], flags: list[np.ndarray]) 
         flagged[rows] = flags[k]
         if idx.size == 0 or rows.size <= idx.size:
             continue
+        chosen = rows
+        if rows.size > max_rows:
+            canon = rows[orders[k]]
+            chosen = np.sort(canon[np.random.default_rng(seeds[k]).choice(canon.size, max_rows, replace=False)])
         cov = m.class_covariances()[k][np.ix_(idx, idx)]
-        values = data.values if idx.size == data.p else data.values[:, idx]
-        got = mahalanobis_sq(values, m.means[k][idx], cov, rows) if np.all(np.isfinite(cov)) else None
+        if not np.all(np.isfinite(cov)):
+            continue
+        got = mahalanobis_sq(np.take(data.values, chosen, axis=0)[:, idx], m.means[k][idx], cov)
         if got is not None:
-            d[rows] = got
+            d[chosen] = got
     return {
         "row_label": data.row_labels,
         "class": np.asarray(data.classes, dtype=object)[data.codes],

@@ -109,6 +109,26 @@ def _kept_moments(
     return mean, cross - n_kept * np.outer(delta, delta)
 
 
+def _without(data: AuditData, k: int, out: np.ndarray) -> tuple[np.ndarray | None, np.ndarray | None]:
+    """Mean and scatter of class k without the rows ``out``, from the class's exact moments.
+
+    Sum_kept (x - m)(x - m)' = S - sum_out (x - m)(x - m)' (m the class mean), so only the few
+    rows left out are read. When they carry nearly all of the scatter the difference would lose
+    its digits to cancellation; the kept rows are then summed directly.
+    """
+    m = data.moments
+    centre, n = m.means[k], int(m.counts[k])
+    total_out, cross_out = _scatter_about(data.values, out, centre)
+    n_kept = n - out.size
+    total_kept = centre * n - total_out
+    cross = m.scatter[k] - cross_out
+    if not np.trace(cross) > 1e-8 * np.trace(m.scatter[k]):
+        rows = data.class_rows(k)
+        kept = np.setdiff1d(rows, out, assume_unique=True)
+        total_kept, cross = _scatter_about(data.values, kept, centre)
+    return _kept_moments(total_kept, cross, n_kept, centre)
+
+
 def _score_held(data: AuditData, rf: RobustFits) -> tuple[list[ClassOutcome], dict[str, Any]]:
     """Outcomes and per-row arrays for the rows held in ``data``."""
     n = data.n
@@ -142,9 +162,7 @@ def _score_held(data: AuditData, rf: RobustFits) -> tuple[list[ClassOutcome], di
         arrays["flagged"][rows] = flagged
         kept_mean = kept_scatter = None
         if flagged.any():
-            kept = rows[~flagged]
-            total, cross = _scatter_about(data.values, kept, m.means[fit.code])
-            kept_mean, kept_scatter = _kept_moments(total, cross, kept.size, m.means[fit.code])
+            kept_mean, kept_scatter = _without(data, fit.code, rows[flagged])
         masked = int((flagged & (d_classical <= fit.threshold)).sum())
         outcomes.append(
             ClassOutcome(

@@ -93,7 +93,7 @@ def draw(verdict: Any, ax: Axes) -> None:
     c.status_title(ax, "Normality: Mahalanobis Q-Q per class", verdict, KEY)
 
 
-def _class_title(name: str, info: dict[str, Any]) -> str:
+def _class_title(name: str, info: dict[str, Any], shown: int | None = None) -> str:
     if "status" not in info:
         return f"Normality, class {c.short(name, 20)} [tests not run]\n{c.wrap(c.short(info.get('skipped', ''), 140))}"
     judged = "" if info.get("rows_judged") == "all rows" else f" ({info.get('rows_judged')})"
@@ -103,7 +103,10 @@ def _class_title(name: str, info: dict[str, Any]) -> str:
         f"Mardia kurtosis {fmt(info.get('mardia_kurtosis_ratio'))} x normal, "
         f"Henze-Zirkler {fmt_p(info.get('henze_zirkler_p_value'))}"
     )
-    return f"{head}\n{c.wrap(second + judged)}"
+    sample = (
+        f"; Q-Q of a seeded subsample of {shown} rows" if shown is not None and shown < info.get("n", shown) else ""
+    )
+    return f"{head}\n{c.wrap(second + judged + sample)}"
 
 
 def draw_figure(verdict: Any) -> Figure:
@@ -125,7 +128,7 @@ def draw_figure(verdict: Any) -> Figure:
         ax.set_ylim(0.0, max(top_d, top_q) * 1.05)
         _identity(ax, max(top_d, top_q) * 1.05)
         _axes_labels(ax, df)
-        ax.set_title(_class_title(name, per_class.get(name, {})), loc="left", fontsize=9)
+        ax.set_title(_class_title(name, per_class.get(name, {}), d.size), loc="left", fontsize=9)
     _legend(fig, outside_below=True)
     c.figure_title(
         fig, "Normality: per-class Q-Q of classical squared Mahalanobis distances (same scale)", verdict, KEY
