@@ -5,6 +5,8 @@ PYTHON ?= python3
 VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
+# The demo needs discaudit and matplotlib only (the report's figures): its own, lighter stamp.
+DEMO_STAMP := $(VENV)/.demo-installed
 PKG_TMP := $(shell mktemp -u /tmp/discaudit-package.XXXXXX)
 
 .PHONY: demo test lint types check package validate bench clean
@@ -15,7 +17,13 @@ $(STAMP): pyproject.toml
 	$(PY) -m pip install --quiet -e '.[test,sklearn,plot,dev]'
 	touch $(STAMP)
 
-demo: $(STAMP)
+$(DEMO_STAMP): pyproject.toml
+	test -x $(PY) || $(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e '.[plot]'
+	touch $(DEMO_STAMP)
+
+demo: $(DEMO_STAMP)
 	$(PY) examples/make_flake_data.py --output examples/data/flakes.csv
 	$(PY) examples/audit_flakes.py examples/data/flakes.csv
 	$(PY) examples/write_report.py examples/data/flakes.csv examples/output/flakes_report.html

@@ -126,8 +126,8 @@ class Config:
     robust_min_rows_per_feature: float = _threshold(
         10.0,
         "A class gets a robust (MCD) fit only with at least this many rows per feature; fewer use classical distances.",
-        "Rousseeuw & Van Driessen (1999) advise n > 5p for MCD (from memory); on seeded Gaussian classes with "
-        "6 rows per feature the reweighted MCD still flagged 10-30% of clean rows, so we ask for 10 (design choice)",
+        "design choice: on seeded Gaussian classes with 6 rows per feature the reweighted MCD still flagged "
+        "10-30% of clean rows, so we ask for 10",
     )
     robust_fit_max_rows: int = _threshold(
         10000,
@@ -136,6 +136,30 @@ class Config:
         "design choice (bounds the cost of the C-steps: 0.38 s per class at p = 30 against 0.58 s at 20,000 rows; "
         "at 10,000 rows the sampling error of the fit is a few per cent of a covariance entry, well inside what "
         "the F cut-off allows for; streamed input applies the same cap to its sample)",
+    )
+    robust_min_distinct: int = _threshold(
+        10,
+        "A feature with fewer distinct values than this within a class (or than half the class's rows, in a class "
+        "of fewer than twice this many rows) is left out of that class's robust fit, as is one whose most common "
+        "value is held by at least the h rows the fit rests on (an exact fit).",
+        "design choice: on seeded Gaussian classes (n = 300, 3 of 4 features rounded to k levels) the reweighted "
+        "MCD flagged half the class in 2 of 8 classes at k = 6 and about the nominal share from k = 7; 10 leaves "
+        "room for lumpier ordinal scales. The exact-fit "
+        "rule is the MCD's breakdown property (Rousseeuw & Leroy 1987)",
+    )
+    robust_max_skewness: float = _threshold(
+        0.45,
+        "A feature whose octile skewness within a class exceeds this in absolute value is left out of that class's "
+        "robust fit: on its raw scale the fit reads the long tail as outliers (a log or similar transform may suit it).",
+        "design choice: on seeded classes with one lognormal feature the fit flagged about 5% of the rows at octile "
+        "skewness 0.41 and 10% at 0.52 (Hinkley 1975 for the measure)",
+    )
+    outlier_far_out_mads: float = _threshold(
+        3.0,
+        "A row is flagged only when its squared robust distance is beyond the cut-off and also far out among the "
+        "class's own distances: beyond the median plus this many normalized MADs of their cube roots.",
+        "Hampel identifier (Hampel 1974; Davies & Gather 1993) on the Wilson & Hilferty (1931) cube-root scale; "
+        "3 is common practice",
     )
     outlier_cutoff: str = _threshold(
         "small_sample_f",

@@ -271,28 +271,45 @@ class Verdict:
         -------
         pandas.DataFrame
             Indexed by the input's row labels (all flagged rows, not only those listed in the
-            JSON details), with columns ``class``, ``distance`` (squared robust Mahalanobis),
-            ``classical_distance``, ``cutoff`` and ``ratio`` (distance / cutoff), farthest first
-            within each class. Empty when nothing was flagged or the check did not run.
+            JSON details), farthest first within each class, with columns
+
+            ``class``
+                the row's class label;
+            ``squared_distance``
+                squared robust Mahalanobis distance from the class's robust (MCD) centre and
+                covariance (classical for a class too small for a robust fit), on the features
+                that class's fit used;
+            ``classical_squared_distance``
+                the same from the class's classical mean and covariance;
+            ``cutoff``
+                the class's Gaussian cut-off for ``squared_distance``;
+            ``far_out_fence``
+                the class's far-out fence (a row is flagged beyond both);
+            ``ratio``
+                ``squared_distance / cutoff``.
+
+            Empty when nothing was flagged or the check did not run.
         """
         import pandas as pd
 
         arrays = self.findings["outliers"].arrays if "outliers" in self.findings else {}
-        columns = ["class", "distance", "classical_distance", "cutoff", "ratio"]
+        columns = ["class", "squared_distance", "classical_squared_distance", "cutoff", "far_out_fence", "ratio"]
         if not arrays:
             return pd.DataFrame(columns=columns)
         mask = arrays["flagged"]
         frame = pd.DataFrame(
             {
                 "class": arrays["class"][mask],
-                "distance": arrays["distance"][mask],
-                "classical_distance": arrays["classical_distance"][mask],
+                "squared_distance": arrays["squared_distance"][mask],
+                "classical_squared_distance": arrays["classical_squared_distance"][mask],
                 "cutoff": arrays["cutoff"][mask],
+                "far_out_fence": arrays["fence"][mask],
             },
             index=arrays["row_label"][mask],
         )
-        frame["ratio"] = frame["distance"] / frame["cutoff"]
-        return frame.sort_values(["class", "distance"], ascending=[True, False], kind="stable")
+        frame["ratio"] = frame["squared_distance"] / frame["cutoff"]
+        order = sorted(range(len(frame)), key=lambda i: (str(frame["class"].iloc[i]), -frame["ratio"].iloc[i]))
+        return frame.iloc[order]
 
     def to_json(self, indent: int | None = 2) -> str:
         """The verdict as JSON text (see ``discaudit.report.json`` for the schema)."""

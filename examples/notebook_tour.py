@@ -62,16 +62,12 @@ print("thresholds:", collinearity.details["thresholds"])
 # %%
 outliers = verdict.findings["outliers"]
 print(outliers.summary)
-flagged = [
-    {"class": cls, "flake": row["row"], "robust distance": round(row["distance"], 1)}
-    for cls, fit in outliers.details.get("per_class", {}).items()
-    for row in fit.get("flagged_rows", [])
-]
-flagged = pd.DataFrame(flagged)
+# verdict.outlier_rows(): every flagged row, indexed by flake_id, with its squared robust distance,
+# its class's cut-off and far-out fence (a row is flagged beyond both), farthest first per class
+flagged = verdict.outlier_rows().sort_values("squared_distance", ascending=False)
 if not flagged.empty:
-    flagged = flagged.sort_values("robust distance", ascending=False)
-    print(flagged.head(8).to_string(index=False))
-    print(flakes.loc[flagged["flake"].head(3), ["nir_1100", "nir_1400", "thickness_um", "family"]])
+    print(flagged.head(8).round(1).to_string())
+    print(flakes.loc[flagged.index[:3], ["nir_1100", "nir_1400", "thickness_um", "family"]])
 
 # %% [markdown]
 # ## The recommendation and its reasons

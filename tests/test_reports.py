@@ -35,9 +35,9 @@ def demo(flakes) -> discaudit.Verdict:
 
 @pytest.fixture(scope="module")
 def demo_with_severities(flakes) -> discaudit.Verdict:
-    """The demo data with normality advisory and separation turned off (a skip)."""
+    """The demo data with collinearity advisory and separation turned off (a skip)."""
     frame, _ = flakes
-    config = discaudit.Config(severity={"normality": "advisory", "separation": "off"})
+    config = discaudit.Config(severity={"collinearity": "advisory", "separation": "off"})
     return discaudit.preflight(frame, target="family", config=config, random_state=0)
 
 
@@ -136,8 +136,8 @@ def test_junit_counts_match_the_verdict(name, model, fail_on, request) -> None:
 
 def test_junit_advisory_failure_does_not_fail(demo_with_severities) -> None:
     verdict = demo_with_severities
-    assert verdict.findings["normality"].status == "fail"  # precondition on the demo data
-    case = ET.fromstring(verdict.to_junit()).find(".//testcase[@name='normality']")
+    assert verdict.findings["collinearity"].status == "fail"  # precondition on the demo data
+    case = ET.fromstring(verdict.to_junit()).find(".//testcase[@name='collinearity']")
     assert case.find("failure") is None
     assert "advisory" in case.find("system-out").text
     assert verdict.findings["separation"].status == "skip"
@@ -261,5 +261,5 @@ def test_to_frame_has_one_row_per_check(demo_with_severities) -> None:
     assert frame["status"].tolist() == [f.status for f in verdict.findings.values()]
     assert frame["summary"].tolist() == [f.summary for f in verdict.findings.values()]
     severity = dict(zip(frame["check"], frame["severity"], strict=True))
-    assert severity["normality"] == "advisory" and severity["separation"] == "off"
-    assert severity["collinearity"] == "gate"
+    assert severity["collinearity"] == "advisory" and severity["separation"] == "off"
+    assert severity["normality"] == "gate"

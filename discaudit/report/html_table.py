@@ -20,6 +20,8 @@ if TYPE_CHECKING:
     from discaudit.verdict import Verdict
 
 _CELL = 'style="text-align:left; vertical-align:top"'
+#: The status cell keeps its symbol and word on one line.
+_STATUS_CELL = 'style="text-align:left; vertical-align:top; white-space:nowrap"'
 
 
 def render(verdict: Verdict) -> str:
@@ -38,7 +40,7 @@ def format_table(table: VerdictTable) -> str:
             if table.gate_outcome
             else ""
         )
-        + f"Worst check status: <strong>{e(status_label(table.status))}</strong></p>",
+        + f'Worst check status: <strong style="white-space:nowrap">{e(status_label(table.status))}</strong></p>',
         "<table>",
         "<thead><tr>"
         + "".join(f"<th {_CELL}>{h}</th>" for h in ("check", "status", "key figure", "summary"))
@@ -49,7 +51,7 @@ def format_table(table: VerdictTable) -> str:
         parts.append(
             f'<tr data-status="{e(row.status)}">'
             f"<td {_CELL}><code>{e(row.check)}</code></td>"
-            f"<td {_CELL}>{e(status_label(row.status, row.severity))}</td>"
+            f"<td {_STATUS_CELL}>{e(status_label(row.status, row.severity))}</td>"
             f"<td {_CELL}>{e(row.figure)}</td>"
             f"<td {_CELL}>{e(row.summary)}</td></tr>"
         )

@@ -27,10 +27,12 @@ def render(verdict: Verdict, width: int = WIDTH) -> str:
     for row in table.rows:
         status = row.status.upper() + ("*" if row.severity == "advisory" else "")
         wrapped = textwrap.wrap(row.summary, summary_w) or [""]
-        figure = row.figure if len(row.figure) <= _FIGURE_W else row.figure[: _FIGURE_W - 1] + "~"
-        lines.append(f"{row.check:<{_CHECK_W}} {status:<{_STATUS_W}} {figure:<{_FIGURE_W}} {wrapped[0]}")
-        indent = " " * (width - summary_w)
-        lines += [indent + w for w in wrapped[1:]]
+        figure = textwrap.wrap(row.figure, _FIGURE_W) or [""]  # wrapped, never cut
+        lines.append(f"{row.check:<{_CHECK_W}} {status:<{_STATUS_W}} {figure[0]:<{_FIGURE_W}} {wrapped[0]}")
+        for i in range(1, max(len(wrapped), len(figure))):
+            more = figure[i] if i < len(figure) else ""
+            text = wrapped[i] if i < len(wrapped) else ""
+            lines.append(f"{'':<{_CHECK_W}} {'':<{_STATUS_W}} {more:<{_FIGURE_W}} {text}".rstrip())
     lines.append("-" * width)
     if table.gate_rule:
         lines += textwrap.wrap(table.gate_rule, width)
