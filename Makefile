@@ -5,6 +5,8 @@ PYTHON ?= python3
 VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
+# The demo needs discaudit and matplotlib only (the report's figures): its own, lighter stamp.
+DEMO_STAMP := $(VENV)/.demo-installed
 PKG_TMP := $(shell mktemp -u /tmp/discaudit-package.XXXXXX)
 
 .PHONY: demo test lint types check package validate bench clean
@@ -15,7 +17,13 @@ $(STAMP): pyproject.toml
 	$(PY) -m pip install --quiet -e '.[test,sklearn,plot,dev]'
 	touch $(STAMP)
 
-demo: $(STAMP)
+$(DEMO_STAMP): pyproject.toml
+	test -x $(PY) || $(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e '.[plot]'
+	touch $(DEMO_STAMP)
+
+demo: $(DEMO_STAMP)
 	$(PY) examples/make_flake_data.py --output examples/data/flakes.csv
 	$(PY) examples/audit_flakes.py examples/data/flakes.csv
 	$(PY) examples/write_report.py examples/data/flakes.csv examples/output/flakes_report.html
@@ -52,11 +60,12 @@ package: $(STAMP)
 validate: $(STAMP)
 	$(PY) benchmarks/validation/study.py
 
-# Speed and memory of the audit against its peers (benchmarks/README.md); writes benchmarks/RESULTS.md;
-# then the cost of a what-if and of ranking the remedies (printed).
-# Not part of `make test`. The MCD-only benchmark is `$(PY) benchmarks/bench_mcd.py`.
+# Speed and memory of the audit against its peers (benchmarks/README.md); writes benchmarks/RESULTS.md.
+# Not part of `make test`. The MCD-only benchmark is `$(PY) benchmarks/bench_mcd.py`. bench_engines.py: a
+# 20-million-row Parquet file through DuckDB, pyarrow and the pandas-batch chunked path, and a local Spark run.
 bench: $(STAMP)
 	$(PY) benchmarks/bench_preflight.py
+	$(PY) benchmarks/bench_engines.py
 	$(PY) benchmarks/bench_what_if.py
 
 clean:

@@ -16,8 +16,9 @@ from discaudit import checks, remedy_effects
 from discaudit._threads import one_blas_thread, recorded_warnings
 from discaudit.config import Config
 from discaudit.dataset import AuditData
-from discaudit.decision import recommend
-from discaudit.decision.gate import gate_status
+from discaudit.decision import recommend, with_gate
+from discaudit.decision.baseline import class_moments_record
+from discaudit.decision.gate import gate_status, judge
 from discaudit.findings import Finding, skipped
 from discaudit.jsonable import label
 from discaudit.sources import open_source
@@ -100,6 +101,8 @@ def _assemble(
     """Findings -> recommendation, gate status, remedies and metadata: the one place a verdict is built."""
     meta = _meta(data, config, random_state)
     recommendation = recommend(findings, config)
+    gate = judge(findings, config)
+    recommendation = with_gate(recommendation, gate, findings, config)
     start = time.perf_counter()
     try:
         with one_blas_thread(), recorded_warnings() as caught:  # the checks it re-runs record their own
@@ -116,6 +119,7 @@ def _assemble(
         gate_status(findings, config),
         meta,
         timings,
+        gate,
         remedies=remedies,
         data=data,
         rerun=functools.partial(what_if, data, config, random_state),
@@ -172,6 +176,7 @@ def _meta(data: AuditData, config: Config, random_state: int | None) -> dict[str
         "severity": {k: config.severity_of(k) for k in checks.CHECK_KEYS},
         "config": config.to_dict(),
         "fingerprint": _fingerprint(data),
+        "class_moments": class_moments_record(data.moments, data.features),
         **({"what_if": list(data.changes)} if data.changes else {}),
     }
 

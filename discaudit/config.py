@@ -16,6 +16,8 @@ from discaudit.errors import DataError
 __all__ = [
     "CATEGORICAL_POLICIES",
     "CHECK_KEYS",
+    "FAIL_ON_LEVELS",
+    "GATE_MODELS",
     "MISSING_POLICIES",
     "NON_NUMERIC_POLICIES",
     "OUTLIER_CUTOFFS",
@@ -31,6 +33,11 @@ CATEGORICAL_POLICIES = ("non_numeric", "codes")
 SEVERITIES = ("gate", "advisory", "off")
 OUTLIER_CUTOFFS = ("small_sample_f", "chi2", "hardin_rocke")
 REMEDY_EFFECTS = ("statuses", "performance")
+#: Models a gate can judge: the four candidates (as the audit hands them out) and plain
+#: maximum-likelihood logistic regression, for teams that fit it without a penalty.
+GATE_MODELS = ("lda", "regularized_lda", "qda", "logistic_regression", "unpenalized_logistic_regression")
+#: Gate levels: the lowest status of a check that matters that fails the gate.
+FAIL_ON_LEVELS = ("warn", "fail")
 
 
 def _threshold(default: Any, doc: str, source: str) -> Any:
@@ -121,8 +128,8 @@ class Config:
     robust_min_rows_per_feature: float = _threshold(
         10.0,
         "A class gets a robust (MCD) fit only with at least this many rows per feature; fewer use classical distances.",
-        "Rousseeuw & Van Driessen (1999) advise n > 5p for MCD (from memory); on seeded Gaussian classes with "
-        "6 rows per feature the reweighted MCD still flagged 10-30% of clean rows, so we ask for 10 (design choice)",
+        "design choice: on seeded Gaussian classes with 6 rows per feature the reweighted MCD still flagged "
+        "10-30% of clean rows, so we ask for 10",
     )
     robust_fit_max_rows: int = _threshold(
         10000,
@@ -131,6 +138,30 @@ class Config:
         "design choice (bounds the cost of the C-steps: 0.38 s per class at p = 30 against 0.58 s at 20,000 rows; "
         "at 10,000 rows the sampling error of the fit is a few per cent of a covariance entry, well inside what "
         "the F cut-off allows for; streamed input applies the same cap to its sample)",
+    )
+    robust_min_distinct: int = _threshold(
+        10,
+        "A feature with fewer distinct values than this within a class (or than half the class's rows, in a class "
+        "of fewer than twice this many rows) is left out of that class's robust fit, as is one whose most common "
+        "value is held by at least the h rows the fit rests on (an exact fit).",
+        "design choice: on seeded Gaussian classes (n = 300, 3 of 4 features rounded to k levels) the reweighted "
+        "MCD flagged half the class in 2 of 8 classes at k = 6 and about the nominal share from k = 7; 10 leaves "
+        "room for lumpier ordinal scales. The exact-fit "
+        "rule is the MCD's breakdown property (Rousseeuw & Leroy 1987)",
+    )
+    robust_max_skewness: float = _threshold(
+        0.45,
+        "A feature whose octile skewness within a class exceeds this in absolute value is left out of that class's "
+        "robust fit: on its raw scale the fit reads the long tail as outliers (a log or similar transform may suit it).",
+        "design choice: on seeded classes with one lognormal feature the fit flagged about 5% of the rows at octile "
+        "skewness 0.41 and 10% at 0.52 (Hinkley 1975 for the measure)",
+    )
+    outlier_far_out_mads: float = _threshold(
+        3.0,
+        "A row is flagged only when its squared robust distance is beyond the cut-off and also far out among the "
+        "class's own distances: beyond the median plus this many normalized MADs of their cube roots.",
+        "Hampel identifier (Hampel 1974; Davies & Gather 1993) on the Wilson & Hilferty (1931) cube-root scale; "
+        "3 is common practice",
     )
     outlier_cutoff: str = _threshold(
         "small_sample_f",
@@ -254,6 +285,45 @@ class Config:
         "design choice: that check costs about what it costs in the audit, so this keeps ranking the remedies near a "
         "fifth of the audit's time at every size measured (benchmarks/bench_what_if.py)",
     )
+    model: str | None = _threshold(
+        None,
+        "The model the gate judges: 'lda', 'regularized_lda', 'qda', 'logistic_regression' (L2-penalized, as the "
+        "audit scores and hands it out) or 'unpenalized_logistic_regression'; only the findings that bear on that "
+        "model fail the gate (discaudit.decision.gate.MATTERS). None: the gate fails only when the data are "
+        "unusable or no candidate is fit.",
+        "design choice (discaudit.decision.gate documents the reason for every check of every model)",
+    )
+    fail_on: str = _threshold(
+        "fail",
+        "Lowest status of a check that matters for the gated model that fails the gate: 'fail' or 'warn'.",
+        "design choice",
+    )
+    baseline_alpha: float = _threshold(
+        0.01,
+        "Family-wise significance level of the comparison with a baseline: every two-sample test (class priors; "
+        "each class's mean and covariance) is made at this level divided by the number of tests (Bonferroni).",
+        "design choice; Bonferroni's inequality bounds the chance that a batch from the accepted population fails "
+        "any test by this level",
+    )
+    baseline_mean_shift: float = _threshold(
+        0.2,
+        "Smallest shift of a class mean, as a Mahalanobis distance in units of the class's pooled (accepted and new) "
+        "standard deviation, that counts as drift when it is also significant.",
+        "Cohen (1988, Statistical Power Analysis for the Behavioral Sciences): d = 0.2 is a small effect",
+    )
+    baseline_spread_ratio: float = _threshold(
+        1.5,
+        "Smallest typical change of a class covariance that counts as drift when it is also significant: exp of "
+        "the root mean square of the log variance ratios along the eigen-directions of S_accepted^-1 S_new "
+        "(1 when the covariances are equal; 2 when one is doubled).",
+        "design choice (variances 50% larger or a third smaller in a typical direction: SDs off by more than 20%)",
+    )
+    baseline_prior_tolerance: float = _threshold(
+        0.05,
+        "Largest move of a class's share of the rows (absolute, e.g. 0.30 -> 0.35) tolerated; a larger move "
+        "counts as drift when the chi-square test of equal class shares is also significant.",
+        "design choice (5 percentage points)",
+    )
     severity: dict[str, str] = field(
         default_factory=dict,
         metadata={
@@ -269,6 +339,10 @@ class Config:
             raise DataError(f"Config.outlier_cutoff must be one of {OUTLIER_CUTOFFS}; got {self.outlier_cutoff!r}.")
         if self.remedy_effects not in REMEDY_EFFECTS:
             raise DataError(f"Config.remedy_effects must be one of {REMEDY_EFFECTS}; got {self.remedy_effects!r}.")
+        if self.model is not None and self.model not in GATE_MODELS:
+            raise DataError(f"Config.model must be one of {list(GATE_MODELS)} or None; got {self.model!r}.")
+        if self.fail_on not in FAIL_ON_LEVELS:
+            raise DataError(f"Config.fail_on must be one of {list(FAIL_ON_LEVELS)}; got {self.fail_on!r}.")
         if self.non_numeric not in NON_NUMERIC_POLICIES:
             raise DataError(f"Config.non_numeric must be one of {NON_NUMERIC_POLICIES}; got {self.non_numeric!r}.")
         if self.categorical not in CATEGORICAL_POLICIES:
@@ -280,11 +354,21 @@ class Config:
                     raise DataError(f"Config.{f.name} must be a number; got {value!r}.")
                 if not value > 0:
                     raise DataError(f"Config.{f.name} must be positive; got {value!r}.")
-        for name in ("box_m_alpha", "signal_alpha", "normality_alpha", "outlier_fraction_warn", "variance_proportion"):
+        for name in (
+            "box_m_alpha",
+            "signal_alpha",
+            "normality_alpha",
+            "outlier_fraction_warn",
+            "variance_proportion",
+            "baseline_alpha",
+            "baseline_prior_tolerance",
+        ):
             if not 0 < getattr(self, name) < 1:
                 raise DataError(f"Config.{name} must lie strictly between 0 and 1; got {getattr(self, name)!r}.")
         if not 0.5 < self.outlier_quantile < 1:
             raise DataError(f"Config.outlier_quantile must lie in (0.5, 1); got {self.outlier_quantile!r}.")
+        if not self.baseline_spread_ratio > 1:
+            raise DataError(f"Config.baseline_spread_ratio must exceed 1; got {self.baseline_spread_ratio!r}.")
         if self.vif_fail < self.vif_warn:
             raise DataError("Config.vif_fail must not be below Config.vif_warn.")
         if self.condition_index_fail < self.condition_index_warn:

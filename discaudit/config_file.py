@@ -5,14 +5,17 @@ Where the settings come from
 * ``--config FILE``: that file only. A file with a ``[tool.discaudit]`` table (a
   pyproject.toml) uses that table; any other TOML file holds the keys at its top level.
 * otherwise the nearest ``pyproject.toml`` found from the current directory upward. The
-  search stops at the first pyproject.toml (the project root); if it has no
-  ``[tool.discaudit]`` table the defaults apply.
+  search stops at the first pyproject.toml (the project root): a file found there, in the
+  current directory or a parent, applies only when it has a ``[tool.discaudit]`` table;
+  otherwise the defaults apply (and a pyproject.toml further up is not read). The command
+  line prints which file it used, or "defaults" and why (:attr:`FileSettings.source`).
 
 Keys
 ----
 Every :class:`discaudit.Config` field (``Config.describe()`` lists them with their defaults
-and sources), a ``severity`` table of per-check overrides (``"gate"``, ``"advisory"`` or
-``"off"``), and ``fail_on`` (``"warn"`` or ``"fail"``, the gate level of the command line).
+and sources), among them ``model`` (the model the gate judges) and ``fail_on`` (``"warn"`` or
+``"fail"``, the gate level), and a ``severity`` table of per-check overrides (``"gate"``,
+``"advisory"`` or ``"off"``).
 An unknown key or a bad value raises :class:`~discaudit.errors.DataError` naming the file
 and the key. Precedence: command-line options > file > defaults.
 
@@ -22,6 +25,7 @@ Example
 
     [tool.discaudit]
     fail_on = "fail"
+    model = "qda"
     vif_fail = 20
     missing = "drop_rows"
 
@@ -37,7 +41,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from discaudit.config import Config
+from discaudit.config import FAIL_ON_LEVELS, GATE_MODELS, Config
 from discaudit.errors import DataError
 
 if sys.version_info >= (3, 11):
@@ -45,10 +49,9 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover - exercised on Python 3.10 only
     import tomli as tomllib
 
-FAIL_ON_LEVELS = ("warn", "fail")
 _CONFIG_FIELDS = {f.name: f for f in dataclasses.fields(Config)}
 #: Keys a file may hold besides the Config fields.
-EXTRA_KEYS = ("fail_on",)
+EXTRA_KEYS: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -62,12 +65,22 @@ class FileSettings:
     config : dict
         Config field -> value, only the fields the file sets.
     fail_on : str or None
-        The file's gate level, if set.
+        The file's gate level, if set (also in ``config``).
+    note : str
+        Why no file applied, when none did.
     """
 
     path: Path | None = None
     config: dict[str, Any] = field(default_factory=dict)
     fail_on: str | None = None
+    note: str = ""
+
+    @property
+    def source(self) -> str:
+        """Which settings apply, in words: the file (and table) read, or "defaults" and why."""
+        if self.path is None:
+            return "defaults" + (f" ({self.note})" if self.note else "")
+        return f"{self.path}" + (f" {self.note}" if self.note else "")
 
 
 def find_pyproject(start: Path | None = None) -> Path | None:
@@ -84,12 +97,12 @@ def discover(start: Path | None = None) -> FileSettings:
     """Settings from ``[tool.discaudit]`` of the nearest pyproject.toml, or none."""
     path = find_pyproject(start)
     if path is None:
-        return FileSettings()
+        return FileSettings(note="no pyproject.toml in the current directory or above it")
     document = _read_toml(path)
     table = document.get("tool", {}).get("discaudit") if isinstance(document.get("tool"), dict) else None
     if table is None:
-        return FileSettings()
-    return _validate(table, path, "[tool.discaudit]")
+        return FileSettings(note=f"{path} has no [tool.discaudit] table")
+    return dataclasses.replace(_validate(table, path, "[tool.discaudit]"), note="[tool.discaudit]")
 
 
 def load(path: str | Path) -> FileSettings:
@@ -107,7 +120,7 @@ def load(path: str | Path) -> FileSettings:
     document = _read_toml(path)
     tool = document.get("tool")
     if isinstance(tool, dict) and "discaudit" in tool:
-        return _validate(tool["discaudit"], path, "[tool.discaudit]")
+        return dataclasses.replace(_validate(tool["discaudit"], path, "[tool.discaudit]"), note="[tool.discaudit]")
     if path.name == "pyproject.toml":
         raise DataError(f"{path}: no [tool.discaudit] table; add one or point --config at a discaudit TOML file.")
     return _validate(document, path, "")
@@ -157,6 +170,11 @@ def _validate(table: Any, path: Path, section: str) -> FileSettings:
             if value not in FAIL_ON_LEVELS:
                 raise DataError(f"{where}key 'fail_on' must be one of {list(FAIL_ON_LEVELS)}; got {value!r}.")
             fail_on = value
+            config["fail_on"] = value
+        elif key == "model":
+            if value not in GATE_MODELS:
+                raise DataError(f"{where}key 'model' must be one of {list(GATE_MODELS)}; got {value!r}.")
+            config["model"] = value
         elif key == "severity":
             if not isinstance(value, dict):
                 raise DataError(

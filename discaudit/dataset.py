@@ -152,6 +152,9 @@ class AuditData:
     coordinates : Coordinates or None
         Per audited feature, the location subtracted and the power of two divided out before
         the audit (``values`` and ``moments`` are in those coordinates); None means none.
+    memo : dict
+        Intermediate results that more than one check computes from these data (the per-class
+        robust fits), filled by :meth:`shared` on first use; never part of any output.
     changes : tuple of dict
         What-if changes applied to the source's data (:mod:`discaudit.sources.what_if`), in the
         order applied, as plain values; empty for data as the source read them.
@@ -168,6 +171,7 @@ class AuditData:
     sample: SampleInfo | None = None
     all_rows: RowPass | None = field(default=None, repr=False, compare=False)
     coordinates: Coordinates | None = None
+    memo: dict[Any, Any] = field(default_factory=dict, repr=False, compare=False)
     changes: tuple[dict[str, Any], ...] = ()
 
     @property
@@ -181,3 +185,14 @@ class AuditData:
     def class_rows(self, k: int) -> npt.NDArray[np.intp]:
         """Positions of the rows of class code ``k``."""
         return np.flatnonzero(self.codes == k)
+
+    def shared(self, key: Any, compute: Callable[[], T]) -> T:
+        """``compute()`` once per key for these data; later calls return the same object.
+
+        For work two checks need (e.g. the robust fits the outlier and normality checks both
+        use): neither reads the other's finding, and the work is done once. ``key`` must name
+        everything the result depends on besides the data (settings, seed).
+        """
+        if key not in self.memo:
+            self.memo[key] = compute()
+        return self.memo[key]  # type: ignore[no-any-return]

@@ -66,7 +66,7 @@ def worst(statuses: list[str]) -> str:
     return max(ranked, key=STATUS_RANK.__getitem__) if ranked else "pass"
 
 
-def fmt(x: float, digits: int = 3) -> str:
+def fmt(x: float | None, digits: int = 3) -> str:
     """A number for a sentence or table cell: compact, never 'nan'."""
     if x is None or x != x:
         return "n/a"
@@ -77,7 +77,7 @@ def fmt(x: float, digits: int = 3) -> str:
     return f"{x:.{digits}g}"
 
 
-def fmt_p(p: float) -> str:
+def fmt_p(p: float | None) -> str:
     """A p-value as text: 'p < 1e-16' below double precision, else compact."""
     if p is None or p != p:
         return "p n/a"

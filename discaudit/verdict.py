@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import json
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
@@ -73,6 +74,162 @@ class Recommendation:
 
 
 @dataclass(frozen=True)
+class Gate:
+    """What the gate decided, for the model it judged (built by :func:`discaudit.decision.gate.judge`).
+
+    Attributes
+    ----------
+    model : str or None
+        The model the gate judged (``Config.model``); None: any candidate.
+    fail_on : str
+        ``"fail"`` or ``"warn"``: the lowest status of a check that matters that fails it.
+    passed : bool
+        The data are fit for the model (or for some candidate) and, when a baseline was
+        compared, the batch has not drifted from it in a way that matters.
+    failing_checks : list of str
+        The checks whose findings fail the data gate, in table order (empty when it passes).
+    rule : str
+        The gate's rule in one line ("gated for QDA: fails on ...").
+    outcome : str
+        The result in words: "The data are fit for QDA." or "The data are not fit for LDA: ...".
+    headline : str
+        The result without its reasons, for a one-line summary ("the data are not fit for LDA").
+    reasons : list of str
+        One clause per failure (empty when the data gate passes).
+    fit_for : list of str
+        The candidates whose own gate passes (for a gate with a model: that model, or none).
+    drifted : bool or None
+        Whether the comparison with a baseline found drift that matters; None when none was made.
+    """
+
+    model: str | None
+    fail_on: str
+    passed: bool
+    failing_checks: list[str]
+    rule: str
+    outcome: str
+    headline: str = ""
+    reasons: list[str] = field(default_factory=list)
+    fit_for: list[str] = field(default_factory=list)
+    drifted: bool | None = None
+
+    @property
+    def data_passed(self) -> bool:
+        """The data gate alone (without the comparison with a baseline)."""
+        return not self.reasons
+
+    def with_drift(self, drifted: bool) -> Gate:
+        """The same gate after a comparison with a baseline."""
+        return dataclasses.replace(self, passed=self.data_passed and not drifted, drifted=drifted)
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = plain(
+            {
+                "model": self.model,
+                "fail_on": self.fail_on,
+                "passed": self.passed,
+                "data_passed": self.data_passed,
+                "failing_checks": self.failing_checks,
+                "rule": self.rule,
+                "outcome": self.outcome,
+                "headline": self.headline,
+                "reasons": self.reasons,
+                "fit_for": self.fit_for,
+                "drifted": self.drifted,
+            }
+        )
+        return out
+
+
+@dataclass(frozen=True)
+class Drift:
+    """One difference between a batch and its accepted baseline.
+
+    Attributes
+    ----------
+    kind : str
+        ``"features"``, ``"recommendation"``, ``"check"``, ``"class"``, ``"prior"``, ``"mean"``
+        or ``"covariance"``.
+    subject : str
+        What moved: a check key, a class label, or ``"recommendation"``.
+    counts : bool
+        Whether it fails the comparison (False: a difference within noise or that does not matter).
+    figure : str
+        The key figure, short enough for a table cell.
+    summary : str
+        One sentence.
+    """
+
+    kind: str
+    subject: str
+    counts: bool
+    figure: str
+    summary: str
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "kind": self.kind,
+            "subject": self.subject,
+            "counts": self.counts,
+            "figure": self.figure,
+            "summary": self.summary,
+        }
+
+
+@dataclass(frozen=True)
+class BaselineComparison:
+    """A batch compared with the JSON report of an accepted run (:mod:`discaudit.decision.baseline`).
+
+    Attributes
+    ----------
+    source : str
+        Where the accepted report came from (its file name).
+    accepted : dict
+        What the accepted report says about itself: version, rows, classes, recommendation, fingerprint.
+    drifted : bool
+        Whether any difference counts.
+    changes : list of Drift
+        Every difference found, those that count first.
+    classes : list of dict
+        Per class: rows and shares then and now, and the two-sample tests of its mean and covariance.
+    rule : str
+        The comparison's rule in one line.
+    outcome : str
+        The result in words.
+    headline : str
+        The result without its reasons, for a one-line summary.
+    thresholds : dict
+        The settings the comparison applied.
+    """
+
+    source: str
+    accepted: dict[str, Any]
+    drifted: bool
+    changes: list[Drift]
+    classes: list[dict[str, Any]]
+    rule: str
+    outcome: str
+    thresholds: dict[str, Any]
+    headline: str = ""
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = plain(
+            {
+                "source": self.source,
+                "accepted": self.accepted,
+                "drifted": self.drifted,
+                "changes": [c.to_dict() for c in self.changes],
+                "classes": self.classes,
+                "rule": self.rule,
+                "outcome": self.outcome,
+                "headline": self.headline,
+                "thresholds": self.thresholds,
+            }
+        )
+        return out
+
+
+@dataclass(frozen=True)
 class Verdict:
     """Result of :func:`discaudit.preflight`.
 
@@ -88,6 +245,13 @@ class Verdict:
         Data shape, classes, seed, configuration and version.
     timings : dict
         Seconds spent in each check (not part of the JSON, which stays reproducible).
+    gate : Gate or None
+        The gate for ``Config.model`` at ``Config.fail_on`` (``discaudit check`` exits 1 when it
+        does not pass). ``status`` keeps its meaning beside it: the worst status over every
+        gating check, whatever the model.
+    baseline : BaselineComparison or None
+        The comparison with an accepted baseline, when one was made (``discaudit check
+        --baseline FILE`` or :func:`discaudit.decision.baseline.compare`).
     remedies : tuple of Remedy
         Suggested changes to the data, most helpful first, each with what to change (in the data's
         own names), the finding it addresses and its predicted effect (see
@@ -107,6 +271,8 @@ class Verdict:
     status: str
     meta: dict[str, Any]
     timings: dict[str, float] = field(default_factory=dict, compare=False)
+    gate: Gate | None = None
+    baseline: BaselineComparison | None = None
     remedies: tuple[Remedy, ...] = ()
     data: AuditData | None = field(default=None, compare=False, repr=False)
     rerun: Callable[..., Verdict] | None = field(default=None, compare=False, repr=False)
@@ -191,28 +357,45 @@ class Verdict:
         -------
         pandas.DataFrame
             Indexed by the input's row labels (all flagged rows, not only those listed in the
-            JSON details), with columns ``class``, ``distance`` (squared robust Mahalanobis),
-            ``classical_distance``, ``cutoff`` and ``ratio`` (distance / cutoff), farthest first
-            within each class. Empty when nothing was flagged or the check did not run.
+            JSON details), farthest first within each class, with columns
+
+            ``class``
+                the row's class label;
+            ``squared_distance``
+                squared robust Mahalanobis distance from the class's robust (MCD) centre and
+                covariance (classical for a class too small for a robust fit), on the features
+                that class's fit used;
+            ``classical_squared_distance``
+                the same from the class's classical mean and covariance;
+            ``cutoff``
+                the class's Gaussian cut-off for ``squared_distance``;
+            ``far_out_fence``
+                the class's far-out fence (a row is flagged beyond both);
+            ``ratio``
+                ``squared_distance / cutoff``.
+
+            Empty when nothing was flagged or the check did not run.
         """
         import pandas as pd
 
         arrays = self.findings["outliers"].arrays if "outliers" in self.findings else {}
-        columns = ["class", "distance", "classical_distance", "cutoff", "ratio"]
+        columns = ["class", "squared_distance", "classical_squared_distance", "cutoff", "far_out_fence", "ratio"]
         if not arrays:
             return pd.DataFrame(columns=columns)
         mask = arrays["flagged"]
         frame = pd.DataFrame(
             {
                 "class": arrays["class"][mask],
-                "distance": arrays["distance"][mask],
-                "classical_distance": arrays["classical_distance"][mask],
+                "squared_distance": arrays["squared_distance"][mask],
+                "classical_squared_distance": arrays["classical_squared_distance"][mask],
                 "cutoff": arrays["cutoff"][mask],
+                "far_out_fence": arrays["fence"][mask],
             },
             index=arrays["row_label"][mask],
         )
-        frame["ratio"] = frame["distance"] / frame["cutoff"]
-        return frame.sort_values(["class", "distance"], ascending=[True, False], kind="stable")
+        frame["ratio"] = frame["squared_distance"] / frame["cutoff"]
+        order = sorted(range(len(frame)), key=lambda i: (str(frame["class"].iloc[i]), -frame["ratio"].iloc[i]))
+        return frame.iloc[order]
 
     def to_json(self, indent: int | None = 2) -> str:
         """The verdict as JSON text (see ``discaudit.report.json`` for the schema)."""
@@ -228,6 +411,10 @@ class Verdict:
         from discaudit.report.html_table import render
 
         return render(self)
+
+    def _repr_markdown_(self) -> str:
+        """The verdict as Markdown, for notebooks and viewers that render it (see ``discaudit.report.markdown``)."""
+        return self.to_markdown()
 
     def to_frame(self) -> Any:
         """One row per check: ``check``, ``status``, ``figure``, ``summary``, ``severity``.
@@ -283,14 +470,13 @@ class Verdict:
 
         return render(self)
 
-    def to_junit(self, fail_on: str = "fail") -> str:
-        """The verdict as JUnit XML, one test case per check (see ``discaudit.report.junit``).
+    def to_junit(self) -> str:
+        """The verdict as JUnit XML, one test case per check and one for the gate (see ``discaudit.report.junit``).
 
-        Parameters
-        ----------
-        fail_on : {"fail", "warn"}, default "fail"
-            Lowest status reported as a ``<failure>``; ``warn`` findings pass otherwise.
+        A check's test case fails when its finding fails the gate (``gate.failing_checks``); the
+        gate's test case fails when the gate does. To gate at another level or for a model, audit
+        with ``Config(fail_on=..., model=...)`` or use :func:`discaudit.decision.gate.regate`.
         """
         from discaudit.report.junit import render
 
-        return render(self, fail_on=fail_on)
+        return render(self)

@@ -62,16 +62,12 @@ print("thresholds:", collinearity.details["thresholds"])
 # %%
 outliers = verdict.findings["outliers"]
 print(outliers.summary)
-flagged = [
-    {"class": cls, "flake": row["row"], "robust distance": round(row["distance"], 1)}
-    for cls, fit in outliers.details.get("per_class", {}).items()
-    for row in fit.get("flagged_rows", [])
-]
-flagged = pd.DataFrame(flagged)
+# verdict.outlier_rows(): every flagged row, indexed by flake_id, with its squared robust distance,
+# its class's cut-off and far-out fence (a row is flagged beyond both), farthest first per class
+flagged = verdict.outlier_rows().sort_values("squared_distance", ascending=False)
 if not flagged.empty:
-    flagged = flagged.sort_values("robust distance", ascending=False)
-    print(flagged.head(8).to_string(index=False))
-    print(flakes.loc[flagged["flake"].head(3), ["nir_1100", "nir_1400", "thickness_um", "family"]])
+    print(flagged.head(8).round(1).to_string())
+    print(flakes.loc[flagged.index[:3], ["nir_1100", "nir_1400", "thickness_um", "family"]])
 
 # %% [markdown]
 # ## The recommendation and its reasons
@@ -84,14 +80,25 @@ for reason in rec.reasons:
 
 # %% [markdown]
 # ## Policy as configuration
-# A team that fits a model robust to non-Gaussian shape may make `normality` advisory: it is
-# still shown, but it no longer fails the gate. The same setting can live in
-# `[tool.discaudit.severity]` of pyproject.toml for the command line.
+# The gate judges the model you ship: only the findings that bear on it fail it. Without a
+# model it asks whether the data are usable and fit for some candidate. `model` (and `fail_on`)
+# can also live in `[tool.discaudit]` of pyproject.toml for the command line (`--model`).
 
 # %%
-relaxed = discaudit.Config(severity={"normality": "advisory"})
+print(verdict.gate.outcome)
+for model in ("lda", "regularized_lda", "qda", "logistic_regression"):
+    gated = discaudit.preflight(flakes, target="family", config=discaudit.Config(model=model), random_state=0)
+    print(f"{model:20s}", gated.gate.headline, gated.gate.failing_checks)
+print(gated.gate.rule)
+
+# %% [markdown]
+# A team may also make a check advisory: it is still shown, but it never fails a gate. The same
+# setting can live in `[tool.discaudit.severity]` of pyproject.toml.
+
+# %%
+relaxed = discaudit.Config(model="qda", severity={"normality": "advisory"})
 relaxed_verdict = discaudit.preflight(flakes, target="family", config=relaxed, random_state=0)
-print("gate status:", verdict.status, "->", relaxed_verdict.status)
+print("worst check status:", verdict.status, "->", relaxed_verdict.status, "|", relaxed_verdict.gate.outcome)
 print(relaxed_verdict.to_frame().query("severity == 'advisory'")[["check", "status", "severity"]])
 
 # %% [markdown]

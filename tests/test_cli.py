@@ -69,9 +69,16 @@ def _outside_any_project(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Non
     monkeypatch.delenv("CI", raising=False)
 
 
+SETTINGS_LINE = "discaudit: settings: defaults (no pyproject.toml in the current directory or above it)\n"
+
+
 def _run(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, str]:
+    """(exit status, stdout, stderr without the line naming the settings, which every audit prints)."""
     code = main([str(a) for a in argv])
     out, err = capsys.readouterr()
+    if code in (0, 1) and "--help" not in argv:
+        assert err.startswith(SETTINGS_LINE), err  # run from an empty folder: the defaults, and why
+        err = err[len(SETTINGS_LINE) :]
     return code, out, err
 
 
@@ -97,16 +104,31 @@ def test_exit_1_when_a_check_fails(files, capsys) -> None:
     code, out, _ = _run(capsys, "check", files["fail"], "--target", "label", "--index-col", "row_id")
     assert _reference(files["fail"]).findings["data_hygiene"].status == "fail"
     assert code == 1
-    assert "Gate status: FAIL" in out
+    assert "Worst check status: FAIL" in out
+    assert "The data are not fit for any candidate: data_hygiene fails" in out
 
 
-def test_fail_on_warn_versus_fail_on_a_data_set_that_only_warns(files, capsys) -> None:
+def test_fail_on_warn_fails_only_on_warnings_that_bear_on_the_model(files, tmp_path, capsys) -> None:
     reference = _reference(files["warn"])
-    assert reference.status == "warn"  # precondition: a warning, no failure
+    assert reference.status == "warn"  # precondition: only scale_disparity warns
+    assert [k for k, f in reference.findings.items() if f.status != "pass"] == ["scale_disparity"]
     base = ("check", files["warn"], "--target", "label", "--index-col", "row_id")
     assert _run(capsys, *base)[0] == 0  # default --fail-on fail
     assert _run(capsys, *base, "--fail-on", "fail")[0] == 0
-    assert _run(capsys, *base, "--fail-on", "warn")[0] == 1
+    # A scale warning bears on no model (each is invariant to scale or standardizes): it never fails.
+    assert _run(capsys, *base, "--fail-on", "warn")[0] == 0
+    assert _run(capsys, *base, "--fail-on", "warn", "--model", "lda")[0] == 0
+    # Invented: class b is fifteen times smaller, so sample_size warns (imbalance), which bears on LDA.
+    frame = _classes()
+    frame = frame[(frame["label"] != "b") | (frame.index % 15 == 0)]
+    path = tmp_path / "imbalanced.csv"
+    frame.to_csv(path, index=False)
+    imbalanced = discaudit.preflight(frame.set_index("row_id"), target="label")
+    assert imbalanced.findings["sample_size"].status == "warn"  # precondition
+    base = ("check", path, "--target", "label", "--index-col", "row_id", "--model", "lda")
+    code, out, _ = _run(capsys, *base, "--fail-on", "warn")
+    assert code == 1 and "The data are not fit for LDA: sample_size warns" in out
+    assert _run(capsys, *base, "--model", "logistic_regression", "--fail-on", "warn")[0] == 0
 
 
 @pytest.mark.parametrize(
@@ -221,7 +243,7 @@ def test_output_file_and_the_formats_match_the_library(files, tmp_path, capsys) 
         target = tmp_path / f"report.{suffix}"
         code, out, err = _run(capsys, *base, "--format", fmt, "--output", target)
         assert code == 1 and err == ""
-        assert out == f"discaudit: gate failed (status fail, fail-on fail); {fmt} report written to {target}\n"
+        assert out == f"discaudit: the data are not fit for any candidate (exit 1); {fmt} report written to {target}\n"
         written = target.read_text(encoding="utf-8")
         if fmt == "markdown":
             assert written == reference.to_markdown()
@@ -230,7 +252,7 @@ def test_output_file_and_the_formats_match_the_library(files, tmp_path, capsys) 
         elif fmt == "json":
             assert written == reference.to_json() + "\n"
         else:
-            assert written.startswith("<?xml") and written.count("<testcase ") == len(CHECK_KEYS)
+            assert written.startswith("<?xml") and written.count("<testcase ") == len(CHECK_KEYS) + 1  # and the gate
 
 
 def test_unwritable_output_is_a_one_line_error(files, tmp_path, capsys) -> None:
@@ -288,7 +310,7 @@ def test_console_script_gates_and_matches_in_process_output(files, capsys) -> No
     done = _subprocess(script, *args, cwd=files["fail"].parent)
     assert done.returncode == 1
     assert done.stdout == str(_reference(files["fail"])) + "\n"
-    assert done.stderr == ""  # not a terminal: no progress line
+    assert done.stderr == SETTINGS_LINE  # not a terminal: no progress line
 
 
 def test_python_m_discaudit_errors_are_one_line_without_traceback(files) -> None:

@@ -16,7 +16,7 @@ import pytest
 
 from discaudit import Config, DataError
 from discaudit.cli import main
-from discaudit.config_file import FileSettings, discover, find_pyproject, load, make_config
+from discaudit.config_file import discover, find_pyproject, load, make_config
 
 
 @pytest.fixture(autouse=True)
@@ -42,7 +42,11 @@ def _toml_value(value: object) -> str:
 
 
 def test_every_config_field_round_trips_through_a_file(tmp_path) -> None:
-    lines = [f"{d['name']} = {_toml_value(d['default'])}" for d in Config.describe() if d["name"] != "severity"]
+    lines = [
+        f"{d['name']} = {_toml_value(d['default'])}"
+        for d in Config.describe()
+        if d["name"] != "severity" and d["default"] is not None  # TOML has no null: model = None is left unset
+    ]
     lines += ["[severity]", 'normality = "advisory"', 'separation = "off"']
     settings = load(_write(tmp_path / "discaudit.toml", "\n".join(lines)))
     config = make_config(settings)
@@ -97,7 +101,9 @@ def test_bad_key_or_value_names_the_file_and_the_key(tmp_path, text, expected) -
 
 def test_a_pyproject_without_the_table(tmp_path) -> None:
     path = _write(tmp_path / "pyproject.toml", "[project]\nname = 'x'\n")
-    assert discover(tmp_path) == FileSettings()  # discovered: defaults apply
+    found = discover(tmp_path)  # discovered: defaults apply, and the report line says why
+    assert found.path is None and found.config == {}
+    assert found.source == f"defaults ({path} has no [tool.discaudit] table)"
     with pytest.raises(DataError, match=r"no \[tool.discaudit\] table"):
         load(path)  # named explicitly: an error
 
@@ -136,8 +142,12 @@ def _data(tmp_path: Path, *, constant: bool = False, nan: bool = False) -> Path:
 
 
 def _check(capsys, *argv: object) -> tuple[int, dict | None, str]:
+    """(exit status, JSON report, stderr without the line naming the settings)."""
     code = main(["check", *map(str, argv), "--target", "label", "--format", "json"])
     out, err = capsys.readouterr()
+    if code in (0, 1):
+        first, _, err = err.partition("\n")
+        assert first.startswith("discaudit: settings: "), first
     return code, (json.loads(out) if out else None), err
 
 
@@ -174,7 +184,8 @@ def test_file_severity_from_a_nested_cwd_and_fail_on_precedence(tmp_path, capsys
     assert doc["status"] in ("pass", "warn")  # the advisory failure does not count
     assert code == 0  # --fail-on fail beats the file's fail_on = "warn"
     code, doc, _ = _check(capsys, data)
-    assert code == (1 if doc["status"] == "warn" else 0)  # the file's fail_on = "warn" applies
+    assert doc["gate"]["fail_on"] == "warn" and doc["meta"]["config"]["fail_on"] == "warn"  # the file's level applies
+    assert code == (0 if doc["gate"]["passed"] else 1)
 
 
 def test_explicit_config_replaces_discovery_and_errors_exit_2(tmp_path, capsys, monkeypatch) -> None:

@@ -177,8 +177,8 @@ def test_check_command_exits_cleanly(
             if problems and all(any(sig in p and applies(case) for _, sig, applies in KNOWN_BUGS) for p in problems):
                 reject()
             assert not problems, problems
-            gate = {"warn": ("warn", "fail"), "fail": ("fail",)}[fail_on or "fail"]
-            assert status == (1 if doc["status"] in gate else 0), (status, doc["status"], fail_on)
+            assert doc["gate"]["fail_on"] == (fail_on or "fail")
+            assert status == (0 if doc["gate"]["passed"] else 1), (status, doc["gate"], fail_on)
             again_status, again, _ = run_cli(argv, case)
             assert again_status == status and again == out, "same --seed, different report"
         elif fmt == "junit":

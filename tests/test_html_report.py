@@ -110,7 +110,8 @@ def test_one_figure_per_plotted_check_each_a_png(demo, report):
 def test_report_holds_table_details_settings_fingerprint_and_caution(demo, report):
     doc = _parse(report)
     text = " ".join(doc.text)
-    assert escape(CAUTION, quote=True) in report
+    body = escape(CAUTION.removeprefix("Caution: "), quote=True)
+    assert report.count(body) == 1  # one caution, in the box at the top
     for key, finding in demo.findings.items():
         assert any(t == "section" and a.get("data-check") == key for t, a in doc.tags)
         assert finding.summary in text
@@ -124,7 +125,8 @@ def test_report_holds_table_details_settings_fingerprint_and_caution(demo, repor
             assert escape(field["doc"], quote=True) in report
     fingerprint = demo.meta["fingerprint"]
     assert fingerprint["sha256"] in report and len(fingerprint["sha256"]) == 64
-    assert "Gate status" in text and "FAIL" in text
+    assert "Worst check status" in text and "FAIL" in text
+    assert demo.gate.outcome in text
 
 
 def test_fingerprint_is_sha256_of_matrix_codes_and_labels(flakes, demo):
@@ -198,7 +200,7 @@ def test_report_without_matplotlib_has_no_figures_and_says_why(demo, monkeypatch
     html = demo.to_html()
     assert "<img" not in html and "<figure" not in html
     assert "matplotlib is not installed" in html
-    assert escape(CAUTION, quote=True) in html
+    assert escape(CAUTION.removeprefix("Caution: "), quote=True) in html
 
 
 def test_cli_writes_the_html_report(tmp_path, capsys):
@@ -217,3 +219,36 @@ def test_cli_writes_the_html_report(tmp_path, capsys):
     assert re.search(r"https?://", html) is None
     reference = discaudit.preflight(frame, target="label", random_state=0)
     assert reference.meta["fingerprint"]["sha256"] in html
+
+
+# --- reads cleanly --------------------------------------------------------------------------
+
+
+def test_status_cells_stay_on_one_line(demo, report) -> None:
+    for html in (report, demo._repr_html_()):
+        cells = re.findall(r'<td style="([^"]*)">[\u2713\u26a0\u2717\u2013] [A-Z]+', html)
+        assert cells and all("white-space:nowrap" in style for style in cells)
+    assert ".status { font-weight: bold; white-space: nowrap; }" in report
+
+
+def test_details_use_readable_headings_and_the_summary_number_format(demo, report) -> None:
+    # Box's M p-value on the demo is 0 in float64: the table prints it as the summary does
+    assert demo.findings["covariance_homogeneity"].details["box_m"]["p_value"] == 0.0
+    section = report.split('id="finding-covariance_homogeneity"')[1].split("</section>")[0]
+    assert '<th>p-value</th><td class="num">p &lt; 1e-16</td>' in section
+    assert "<th>p_value</th>" not in section
+    # feature names keep their underscores; detail keys do not
+    assert "<th>thickness_um</th>" in report and "<th>max VIF feature</th>" in report
+
+
+def test_robust_fit_internals_are_collapsed(report) -> None:
+    section = report.split('id="finding-outliers"')[1].split("</section>")[0]
+    internals = re.findall(r'<details(?: open)?><summary>[^<]*</summary>(?=<table class="kv"><tr><th>h</th>)', section)
+    assert internals and all(not d.startswith("<details open") for d in internals)
+
+
+def test_outlier_caption_says_which_classes_were_fitted_classically(wine) -> None:
+    X, y = wine  # every wine class is under 10 rows per feature: classical distances
+    html = discaudit.preflight(X, y, random_state=0).to_html()
+    caption = re.search(r'<figure data-check="outliers">.*?<figcaption>(.*?)</figcaption>', html, re.S).group(1)
+    assert "both axes are classical" in caption and "robust (MCD)" not in caption

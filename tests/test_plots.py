@@ -104,7 +104,8 @@ def test_cutoff_line_equals_the_findings_cutoff(demo, outlier_figure):
         y = line.get_ydata()
         assert y[0] == y[1] == pytest.approx(per_class[name]["cutoff"], rel=1e-12)
         # the default rule: the scaled F(p, m - p) 0.975 quantile for m fitted rows (scipy)
-        m = per_class[name]["n_reweighted"]
+        m = per_class[name]["fit_internals"]["n_reweighted"]
+        assert per_class[name]["fit_internals"]["p_used"] == p
         expected = p * (m - 1) * (m + 1) / (m * (m - p)) * sps.f.ppf(0.975, p, m - p)
         assert per_class[name]["cutoff"] == pytest.approx(expected, rel=1e-12)
 
@@ -126,7 +127,7 @@ def test_the_label_cap_keeps_the_farthest(demo, monkeypatch):
     for k, name in enumerate(demo.meta["classes"]):
         ax = _panel(fig, f"Outliers in class {name}")
         labels = {t.get_text() for t in _gids(ax, f"flag-label:{k}")}
-        farthest = rows[rows["class"] == name].sort_values("distance", ascending=False).index[:3]
+        farthest = rows[rows["class"] == name].sort_values("squared_distance", ascending=False).index[:3]
         assert labels == set(map(str, farthest))
 
 
@@ -157,7 +158,8 @@ def test_outlier_qq_positions_match_statsmodels(demo, outlier_figure):
     for k, name in enumerate(demo.meta["classes"]):
         (points,) = _gids(ax, f"qq:{k}")
         xy = points.get_offsets()
-        d = arrays["distance"][np.asarray(arrays["class"] == name)]
+        d = arrays["squared_distance"][np.asarray(arrays["class"] == name)]
+        assert len(demo.findings["outliers"].details["per_class"][name]["features_used"]) == p
         # statsmodels' plotting positions (i - a) / (n + 1 - 2a) with a = 0.5 are (i - 0.5) / n
         reference = ProbPlot(d, dist=sps.chi2, distargs=(p,), a=0.5, fit=False).theoretical_quantiles
         np.testing.assert_allclose(xy[:, 0], reference, rtol=1e-12)
@@ -304,7 +306,7 @@ def test_near_dependencies_are_annotated():
     ax = v.plot("collinearity").axes[0]
     tagged = {t.get_gid().split(":", 1)[1] for t in _gids(ax, "dependency-tag:")}
     assert tagged == {"a", "b", "c"}
-    assert any("[1] index" in t.get_text() for t in ax.texts)
+    assert "[1] index" in ax.get_xlabel()  # under the axis, never over a bar
 
 
 def test_scale_bars_match_pooled_within_class_sd(demo, flakes):
@@ -372,7 +374,8 @@ def test_labels_with_dollar_signs_and_markup_draw_literally():
 def test_a_skipped_check_draws_a_message_and_is_not_plottable(flakes):
     frame, _ = flakes
     v = discaudit.preflight(frame, target=TARGET, config=discaudit.Config(severity={"outliers": "off"}), random_state=0)
-    assert "outliers" not in plottable(v) and "normality" not in plottable(v)
+    assert "outliers" not in plottable(v)
+    assert "normality" in plottable(v)  # its Q-Q distances are its own, not the outlier check's
     fig = v.plot("outliers")
     assert "did not run" in " ".join(t.get_text() for t in fig.axes[0].texts)
 
@@ -390,3 +393,55 @@ def test_clear_import_error_without_matplotlib(demo, monkeypatch):
         demo.plot("outliers")
     with pytest.raises(ImportError, match="matplotlib"):
         demo.plot()
+
+
+# --- layout: nothing drawn over the data ---------------------------------------------------------
+
+
+def _renderer(fig):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    return canvas.get_renderer()
+
+
+@pytest.mark.parametrize(
+    "check", ["outliers", "normality", "collinearity", "scale_disparity", "covariance_homogeneity"]
+)
+def test_legends_sit_outside_the_axes(demo, check):
+    fig = plot_verdict(demo, check)
+    renderer = _renderer(fig)
+    for ax in fig.axes:
+        legend = ax.get_legend()
+        if legend is None:
+            continue
+        box, frame = legend.get_window_extent(renderer), ax.get_window_extent(renderer)
+        assert box.x0 >= frame.x1 or box.y1 <= frame.y0, (check, ax.get_title(loc="left"))
+    # and no boxed note inside any axes
+    assert not [
+        t
+        for ax in fig.axes
+        for t in ax.texts
+        if t.get_bbox_patch() is not None and "flag-label" not in (t.get_gid() or "")
+    ]
+
+
+def test_flagged_row_labels_do_not_overlap(demo, outlier_figure):
+    renderer = _renderer(outlier_figure)
+    for ax in outlier_figure.axes:
+        boxes = [t.get_window_extent(renderer) for t in _gids(ax, "flag-label:")]
+        for i, a in enumerate(boxes):
+            for b in boxes[i + 1 :]:
+                assert not a.overlaps(b), ax.get_title(loc="left")
+
+
+def test_class_panels_share_one_scale(demo, outlier_figure):
+    panels = [ax for ax in outlier_figure.axes if ax.get_title(loc="left").startswith("Outliers in class")]
+    assert len(panels) == len(demo.meta["classes"])
+    assert len({ax.get_xlim() for ax in panels}) == 1 and len({ax.get_ylim() for ax in panels}) == 1
+    qq = _panel(outlier_figure, "chi-square Q-Q")
+    assert qq.get_ylim() == panels[0].get_ylim()
+    normal = plot_verdict(demo, "normality")
+    lims = {(ax.get_xlim(), ax.get_ylim()) for ax in normal.axes if "Normality, class" in ax.get_title(loc="left")}
+    assert len(lims) == 1

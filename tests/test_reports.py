@@ -20,7 +20,7 @@ import pytest
 
 import discaudit
 from discaudit.config import CHECK_KEYS
-from discaudit.decision.gate import fails_gate
+from discaudit.decision.gate import regate
 
 HOSTILE = "<script>alert(1)</script>"
 PIPED = "a|b"
@@ -35,9 +35,9 @@ def demo(flakes) -> discaudit.Verdict:
 
 @pytest.fixture(scope="module")
 def demo_with_severities(flakes) -> discaudit.Verdict:
-    """The demo data with normality advisory and separation turned off (a skip)."""
+    """The demo data with collinearity advisory and separation turned off (a skip)."""
     frame, _ = flakes
-    config = discaudit.Config(severity={"normality": "advisory", "separation": "off"})
+    config = discaudit.Config(severity={"collinearity": "advisory", "separation": "off"})
     return discaudit.preflight(frame, target="family", config=config, random_state=0)
 
 
@@ -78,6 +78,8 @@ def test_json_round_trip_and_schema_keys(name, request) -> None:
         "schema_version",
         "discaudit_version",
         "status",
+        "gate",
+        "baseline",
         "recommendation",
         "findings",
         "meta",
@@ -96,35 +98,38 @@ def test_json_round_trip_and_schema_keys(name, request) -> None:
 
 
 @pytest.mark.parametrize("name", VERDICTS)
-@pytest.mark.parametrize("fail_on", ["fail", "warn"])
-def test_junit_counts_match_the_verdict(name, fail_on, request) -> None:
-    verdict = request.getfixturevalue(name)
-    root = ET.fromstring(verdict.to_junit(fail_on=fail_on))
+@pytest.mark.parametrize(("model", "fail_on"), [(None, "fail"), (None, "warn"), ("lda", "fail"), ("qda", "warn")])
+def test_junit_counts_match_the_verdict(name, model, fail_on, request) -> None:
+    verdict = regate(request.getfixturevalue(name), discaudit.Config(model=model, fail_on=fail_on))
+    gate = verdict.gate
+    root = ET.fromstring(verdict.to_junit())
     suites = root.findall("testsuite")
     assert len(suites) == 1 and suites[0].get("name") == "discaudit"
     suite = suites[0]
     cases = suite.findall("testcase")
-    assert [c.get("name") for c in cases] == list(CHECK_KEYS)
-    severity = verdict.meta["severity"]
-    failing = {"fail": {"fail"}, "warn": {"warn", "fail"}}[fail_on]
-    expected_failures = {k for k, f in verdict.findings.items() if f.status in failing and severity[k] == "gate"}
+    assert [c.get("name") for c in cases] == [*CHECK_KEYS, "gate"]
     expected_skips = {k for k, f in verdict.findings.items() if f.status == "skip"}
     failures = {c.get("name") for c in cases if c.find("failure") is not None}
     skips = {c.get("name") for c in cases if c.find("skipped") is not None}
-    assert failures == expected_failures
+    assert failures - {"gate"} == set(gate.failing_checks)
+    assert ("gate" in failures) == (not gate.passed)
     assert skips == expected_skips
     for element in (root, suite):
-        assert element.get("tests") == str(len(CHECK_KEYS))
-        assert element.get("failures") == str(len(expected_failures))
+        assert element.get("tests") == str(len(CHECK_KEYS) + 1)
+        assert element.get("failures") == str(len(failures))
         assert element.get("skipped") == str(len(expected_skips))
     # A JUnit failure exists exactly when the command line would exit 1.
-    assert bool(failures) == fails_gate(verdict.status, fail_on)
+    assert bool(failures) == (not gate.passed)
     for case in cases:
         assert float(case.get("time")) >= 0.0
+        if case.get("name") == "gate":
+            assert gate.rule in case.find("system-out").text
+            continue
         finding = verdict.findings[case.get("name")]
         failure = case.find("failure")
         if failure is not None:
-            assert failure.get("message") == finding.summary and failure.get("type") == finding.status
+            assert failure.get("message") == finding.summary
+            assert failure.get("type") == (finding.status if finding.status in ("warn", "fail") else "gate")
             assert json.loads(failure.text) == finding.details
         elif finding.status != "skip":
             assert finding.summary in case.find("system-out").text
@@ -132,16 +137,18 @@ def test_junit_counts_match_the_verdict(name, fail_on, request) -> None:
 
 def test_junit_advisory_failure_does_not_fail(demo_with_severities) -> None:
     verdict = demo_with_severities
-    assert verdict.findings["normality"].status == "fail"  # precondition on the demo data
-    case = ET.fromstring(verdict.to_junit()).find(".//testcase[@name='normality']")
+    assert verdict.findings["collinearity"].status == "fail"  # precondition on the demo data
+    case = ET.fromstring(verdict.to_junit()).find(".//testcase[@name='collinearity']")
     assert case.find("failure") is None
     assert "advisory" in case.find("system-out").text
     assert verdict.findings["separation"].status == "skip"
 
 
-def test_junit_rejects_an_unknown_level(demo) -> None:
+def test_an_unknown_gate_level_or_model_is_refused() -> None:
     with pytest.raises(discaudit.DataError, match="fail_on"):
-        demo.to_junit(fail_on="error")
+        discaudit.Config(fail_on="error")
+    with pytest.raises(discaudit.DataError, match="Config.model must be one of"):
+        discaudit.Config(model="svm")
 
 
 # --- Markdown -------------------------------------------------------------------------------
@@ -255,5 +262,5 @@ def test_to_frame_has_one_row_per_check(demo_with_severities) -> None:
     assert frame["status"].tolist() == [f.status for f in verdict.findings.values()]
     assert frame["summary"].tolist() == [f.summary for f in verdict.findings.values()]
     severity = dict(zip(frame["check"], frame["severity"], strict=True))
-    assert severity["normality"] == "advisory" and severity["separation"] == "off"
-    assert severity["collinearity"] == "gate"
+    assert severity["collinearity"] == "advisory" and severity["separation"] == "off"
+    assert severity["normality"] == "gate"

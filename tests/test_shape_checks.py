@@ -17,7 +17,14 @@ def test_planted_contaminated_flakes_are_flagged_and_named(flakes) -> None:
     # the planted flakes lie farther out than the rest of what is flagged (Gaussian tail rows)
     others = rows.drop(index=planted["contaminated"])
     assert rows.loc[planted["contaminated"], "ratio"].median() > 2 * others["ratio"].median()
-    assert list(rows.columns) == ["class", "distance", "classical_distance", "cutoff", "ratio"]
+    assert list(rows.columns) == [
+        "class",
+        "squared_distance",
+        "classical_squared_distance",
+        "cutoff",
+        "far_out_fence",
+        "ratio",
+    ]
     listed = {r["row"] for c in v.findings["outliers"].details["per_class"].values() for r in c["flagged_rows"]}
     assert set(planted["contaminated"]) <= listed
 
@@ -61,7 +68,7 @@ def test_small_class_falls_back_to_classical_distances() -> None:
     X, y = _gaussian(9, 5, 2, seed=8)  # 9 rows < 2(p+1) = 12
     v = discaudit.preflight(X, y, random_state=0)
     per_class = v.findings["outliers"].details["per_class"]
-    assert all("classical distances" in c["method"] for c in per_class.values())
+    assert all(c["method"].startswith("classical (fewer than") for c in per_class.values())
 
 
 def test_heavy_tails_fail_normality_and_name_the_rule() -> None:
@@ -138,7 +145,10 @@ def test_discrete_features_are_left_out_of_the_outlier_distances() -> None:
     X["flag"] = np.random.default_rng(12).integers(0, 2, len(X))
     v = discaudit.preflight(X, y, random_state=0)
     f = v.findings["outliers"]
-    assert f.details["discrete_features_left_out"] == ["flag"]
+    for per_class in f.details["per_class"].values():
+        reason = per_class["left_out_of_fit"]["flag"]["reason"]
+        assert reason == "few distinct values" or reason.endswith("(exact fit)")
+        assert "flag" not in per_class["features_used"]
     assert f.status == "pass" and f.details["n_flagged"] / len(X) < 0.08
 
 
@@ -168,7 +178,8 @@ def test_large_class_outlier_fit_uses_a_seeded_subset_and_scores_every_row() -> 
     config = discaudit.Config(robust_fit_max_rows=500)
     v = discaudit.preflight(X, y, config=config, random_state=0)
     per_class = v.findings["outliers"].details["per_class"]
-    assert per_class["0"]["fit_rows"] == 500 and per_class["1"]["fit_rows"] == 500  # labels as JSON keys
+    internals = [per_class[c]["fit_internals"] for c in ("0", "1")]  # labels as JSON keys
+    assert internals[0]["fit_rows"] == 500 and internals[1]["fit_rows"] == 500
     assert per_class["0"]["n"] == 2000
     assert set(range(40)) <= set(v.outlier_rows().index)
     again = discaudit.preflight(X, y, config=config, random_state=0)

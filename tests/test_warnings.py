@@ -117,19 +117,24 @@ def test_no_warning_escapes_preflight_on_demo_csv_round_trip(flakes: tuple[pd.Da
     assert_sound(audit_strictly(table, target="family"))
 
 
-def test_captured_warnings_are_recorded_not_raised() -> None:
-    """A check that meets degenerate data records discaudit's warning in its details.
+def test_a_feature_constant_within_a_class_is_screened_not_warned_about() -> None:
+    """A feature constant within one class is left out of that class's robust fit and stated.
 
-    Invented data: a feature constant within one class makes the MCD of that class an exact
-    fit, which ``mcd`` announces with a DegenerateDataWarning; inside preflight that warning
-    must land in the outliers finding instead of escaping.
+    Invented data: such a feature would make the MCD of that class an exact fit (``mcd`` would
+    announce it with a DegenerateDataWarning). The screen before the fit sees it first: the
+    finding names it, no warning is raised or recorded, and nothing in the class is flagged for it.
     """
     rng = np.random.default_rng(3)
     X = rng.normal(size=(60, 2))
     X[:30, 1] = 5.0
     verdict = audit_strictly(X, np.repeat(["a", "b"], 30))
-    recorded = verdict.findings["outliers"].details.get("warnings", [])
-    assert any("DegenerateDataWarning" in w for w in recorded), verdict.findings["outliers"].details
+    f = verdict.findings["outliers"]
+    assert "warnings" not in f.details
+    left = f.details["per_class"]["a"]["left_out_of_fit"]
+    assert list(left) == ["x1"] and left["x1"]["distinct_values"] == 1
+    assert "x1" not in f.details["per_class"]["a"]["features_used"]
+    assert "x1" in f.details["per_class"]["b"]["features_used"]
+    assert "30 of 30 rows of class a share x1 5" in f.summary
 
 
 def test_regression_iris_setosa_mcd_nan_distances() -> None:

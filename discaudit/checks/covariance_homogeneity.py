@@ -7,11 +7,14 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 from scipy import linalg
 
+from discaudit.checks._robust import canonical_layout
 from discaudit.dataset import AuditData
+from discaudit.errors import DataError
 from discaudit.findings import Finding, fmt, fmt_p, names
 from discaudit.jsonable import label
 from discaudit.stats._linalg import logdet_spd
 from discaudit.stats.box_m import box_m_from_moments
+from discaudit.stats.flury import flury_hierarchy
 from discaudit.stats.gaussian_bic import covariance_bic
 from discaudit.stats.moments import ClassMoments
 
@@ -21,20 +24,98 @@ if TYPE_CHECKING:
 KEY = "covariance_homogeneity"
 
 
-def _divergence_from_pooled(moments: ClassMoments) -> np.ndarray:
-    """Gaussian KL divergence of each class covariance from the pooled one (equal means).
+#: Features named for the direction in which a class differs most.
+TOP_FEATURES = 3
 
-    0.5 (tr(Sp^-1 Sk) - p - ln det(Sp^-1 Sk)), via a Cholesky solve; 0 when equal.
+
+def _spread(moments: ClassMoments, features: tuple[str, ...]) -> dict[Any, dict[str, Any]]:
+    """Where each class's covariance differs: its size against the pooled and the other classes', and its
+    most different direction.
+
+    ``generalized_variance_ratio_to_pooled`` is (det S_k / det S_pooled)^(1/p), the ratio of the
+    class's spread to the pooled one per dimension (variance units; above 1: wider). Against the
+    pooled covariance of the *other* classes (S_-k) the eigenvalues of S_-k^-1 S_k are the variance
+    ratios along the directions where the class differs most; the one farthest from 1 on a log
+    scale is the class's most different direction, and its generalized eigenvector, in units of
+    the pooled standard deviations, names the features that carry it.
     """
-    Sp = moments.pooled_covariance
-    L = linalg.cholesky(Sp, lower=True)
-    ld_p = logdet_spd(Sp)
     p = moments.n_features
-    out = []
-    for Sk in moments.class_covariances():
-        tr = float(np.trace(linalg.cho_solve((L, True), Sk)))
-        out.append(0.5 * (tr - p - (logdet_spd(Sk) - ld_p)))
-    return np.asarray(out)
+    covs = moments.class_covariances()
+    pooled = moments.pooled_covariance
+    ld_pooled = logdet_spd(pooled)
+    sd = np.sqrt(np.diag(pooled))
+    out: dict[Any, dict[str, Any]] = {}
+    for k, cls in enumerate(moments.classes):
+        others = np.delete(np.arange(moments.n_classes), k)
+        scatter = moments.scatter[others].sum(axis=0)
+        S_other = scatter / (moments.counts[others].sum() - others.size)
+        ld_k, ld_other = logdet_spd(covs[k]), logdet_spd(S_other)
+        try:
+            values, vectors = linalg.eigh(covs[k], S_other)
+        except (linalg.LinAlgError, ValueError):  # the other classes' pooled covariance is not positive definite
+            values, vectors = np.ones(p), np.eye(p)
+        values = np.clip(
+            values, np.finfo(float).tiny, None
+        )  # rounding can push a ratio of a near-singular class below 0
+        j = int(np.argmax(np.abs(np.log(values))))
+        loading = vectors[:, j] * sd
+        loading = loading / np.max(np.abs(loading))
+        top = np.argsort(-np.abs(loading), kind="stable")[:TOP_FEATURES]
+        ratio_pooled = float(np.exp((ld_k - ld_pooled) / p))
+        out[label(cls)] = {
+            "generalized_variance_ratio_to_pooled": ratio_pooled,
+            "direction": "wider" if ratio_pooled > 1 else "narrower",
+            "generalized_variance_ratio_to_other_classes": float(np.exp((ld_k - ld_other) / p)),
+            "most_different_direction_variance_ratio": float(values[j]),
+            "most_different_direction": "wider" if values[j] > 1 else "narrower",
+            "most_different_direction_features": {features[i]: float(loading[i]) for i in top},
+        }
+    return out
+
+
+def _most_different(spread: dict[Any, dict[str, Any]], rank: dict[Any, int]) -> Any:
+    """The class whose most different direction is farthest from 1 (log scale); ties go to the wider class,
+    then to the class first in the canonical order (content, never names)."""
+    return max(
+        spread,
+        key=lambda c: (
+            round(abs(np.log(spread[c]["most_different_direction_variance_ratio"])), 12),
+            spread[c]["most_different_direction_variance_ratio"] > 1,
+            -rank[c],
+        ),
+    )
+
+
+#: How each Flury model reads, for a sentence.
+_FLURY_WORDS = {
+    "equal": "they share one covariance",
+    "proportional": "they differ in size only (proportional covariances)",
+    "cpc": "they share principal axes and differ in the spread along them (common principal components)",
+    "unrelated": "they differ in orientation as well (no common principal axes)",
+}
+
+
+def _flury(sub: ClassMoments) -> dict[str, Any]:
+    """Flury's hierarchy in plain values (or why it could not be fitted: nearly singular classes)."""
+    try:
+        with np.errstate(over="raise", invalid="raise", divide="raise", under="ignore"):
+            fl = flury_hierarchy(sub)
+    except (DataError, linalg.LinAlgError, np.linalg.LinAlgError, FloatingPointError) as exc:
+        return {"not_computed": f"the class covariances are too close to singular for the model fits ({exc})"}
+    return {
+        "best_by_bic": fl.best,
+        "meaning": _FLURY_WORDS[fl.best],
+        "bic": fl.bic,
+        "loglik": fl.loglik,
+        "n_params": fl.n_params,
+        "steps": fl.steps,
+        "proportional_factors": {label(c): float(r) for c, r in zip(sub.classes, fl.proportional_factors, strict=True)},
+        "cpc_converged": fl.cpc_converged,
+        "cpc_sweeps": fl.cpc_sweeps,
+        "models": "equal: one covariance; proportional: Sigma_k = rho_k Sigma (size only); cpc: common principal "
+        "axes, class-specific spreads along them; unrelated: free covariances. Maximum likelihood from the class "
+        "scatter matrices (divisor n_k); nested likelihood-ratio tests; lowest BIC chosen",
+    }
 
 
 def _plane_arrays(moments: ClassMoments) -> dict[str, Any]:
@@ -99,8 +180,10 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         )
     box = box_m_from_moments(sub)
     bic = covariance_bic(sub)
-    divergence = _divergence_from_pooled(sub)
-    worst = int(np.argmax(divergence))
+    spread = _spread(sub, data.features)
+    _, ranks = canonical_layout(data)
+    rank = {label(data.classes[k]): ranks[k] for k in range(len(data.classes))}
+    worst = _most_different(spread, rank)
     details.update(
         {
             "box_m": {
@@ -120,50 +203,64 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
                 "n_params_shared": bic.n_params_shared,
                 "n_params_separate": bic.n_params_separate,
                 "delta_bic": bic.delta_bic,
+                "delta_bic_sign": "BIC(shared) - BIC(separate): positive favours separate covariances (QDA's model), "
+                "negative one shared covariance (LDA's)",
                 "delta_aic": bic.delta_aic,
                 "gain_per_row": bic.gain_per_row,
             },
             "log_determinants": {label(c): v for c, v in zip(sub.classes, box.log_determinants, strict=True)},
-            "divergence_from_pooled": {label(c): float(d) for c, d in zip(sub.classes, divergence, strict=True)},
-            "most_different_class": label(sub.classes[worst]),
+            "spread": spread,
+            "most_different_class": worst,
+            "flury": _flury(sub)
+            if box.p_value < config.box_m_alpha or bic.delta_bic > 0
+            else {
+                "not_computed": "Box's M does not reject and the BIC favours one shared covariance: no difference to locate"
+            },
         }
     )
     rejects = box.p_value < config.box_m_alpha
     favours_separate = bic.delta_bic > config.bic_margin
-    figure = f"dBIC {fmt(bic.delta_bic)}"
-    tail = f" (Box's M {fmt_p(box.p_value)}; BIC favours {'separate' if bic.delta_bic > 0 else 'shared'} covariances by {fmt(abs(bic.delta_bic))})"
-    if excluded:
-        tail += f"; singular classes {names(excluded)} left out"
+    side = "separate" if bic.delta_bic > 0 else "shared"
+    figure = f"BIC: {side} by {fmt(abs(bic.delta_bic))}"
+    box_text = f"Box's M {fmt_p(box.p_value)}"
+    bic_text = f"BIC favours {'separate covariances' if bic.delta_bic > 0 else 'one shared covariance'} by {fmt(abs(bic.delta_bic))}"
+    w = spread[worst]
+    where = (
+        f"most in class {worst}: along its most different direction its variance is "
+        f"{fmt(w['most_different_direction_variance_ratio'])} times that of the other classes "
+        f"({w['most_different_direction']}; mostly {names(list(w['most_different_direction_features']))}), and its "
+        f"generalized variance per feature is {fmt(w['generalized_variance_ratio_to_pooled'])} times the pooled one "
+        f"({w['direction']})"
+    )
+    how = (
+        f"by BIC among Flury's models, {details['flury']['meaning']}"
+        if "meaning" in details["flury"]
+        else "Flury's models could not be fitted (nearly singular classes)"
+    )
+    tail = f"; singular classes {names(excluded)} left out" if excluded else ""
     if rejects and favours_separate:
-        return Finding(
-            KEY,
-            "fail",
-            f"Class covariances differ, most in class {sub.classes[worst]}, by more than their extra parameters cost"
-            + tail
-            + ".",
-            details,
-            figure,
-            arrays,
-        )
+        text = f"Class covariances differ by more than their extra parameters cost ({box_text}; {bic_text}); {where}; {how}{tail}."
+        return Finding(KEY, "fail", text, details, figure, arrays)
     if rejects:
-        return Finding(
-            KEY,
-            "warn",
-            "Box's M detects unequal covariances, but separate covariances do not pay for their parameters"
-            + tail
-            + ".",
-            details,
-            figure,
-            arrays,
+        text = (
+            f"Box's M detects unequal covariances ({box_text}), but {bic_text}, so separate covariances do not pay "
+            f"for their parameters; the BIC is the one to trust here, as Box's M also rejects differences too small "
+            f"to matter at this sample size and under non-normality; {where}{tail}."
         )
+        return Finding(KEY, "warn", text, details, figure, arrays)
     if favours_separate:
-        return Finding(
-            KEY,
-            "warn",
-            "BIC favours separate covariances though Box's M does not reject" + tail + ".",
-            details,
-            figure,
-            arrays,
+        text = (
+            f"{bic_text}, though Box's M does not reject ({fmt_p(box.p_value)} at alpha = {fmt(config.box_m_alpha)}): "
+            f"the likelihood gain of separate covariances is large for its parameters, but the test cannot confirm it; "
+            f"{where}{tail}."
         )
+        return Finding(KEY, "warn", text, details, figure, arrays)
+    if bic.delta_bic > 0:
+        text = (
+            f"Class covariances can be treated as equal: Box's M does not reject ({fmt_p(box.p_value)}), and although "
+            f"{bic_text}, that is below the margin of {fmt(config.bic_margin)} for strong evidence{tail}."
+        )
+    else:
+        text = f"No evidence that class covariances differ ({box_text}; {bic_text}){tail}."
     status = "warn" if excluded else "pass"
-    return Finding(KEY, status, "No evidence that class covariances differ" + tail + ".", details, figure, arrays)
+    return Finding(KEY, status, text, details, figure, arrays)

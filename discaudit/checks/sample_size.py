@@ -4,8 +4,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-import numpy as np
-
+from discaudit.checks._robust import canonical_layout
 from discaudit.dataset import AuditData
 from discaudit.findings import Finding, fmt, sentence
 from discaudit.jsonable import label
@@ -27,7 +26,8 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     m = data.moments
     counts = m.counts
     N, K, p = m.n_total, m.n_classes, m.n_features
-    smallest = int(np.argmin(counts))
+    _, ranks = canonical_layout(data)  # equal sizes: the first in the canonical order (content, not names)
+    smallest = min(range(len(counts)), key=lambda k: (int(counts[k]), ranks[k]))
     rows_per_feature = N / p
     imbalance = float(counts.max() / counts.min())
     details = {

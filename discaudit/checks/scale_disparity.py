@@ -69,21 +69,39 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         ratio = float(np.exp2(log2_sd[top] - log2_sd[bottom]))
     largest, smallest = data.features[top], data.features[bottom]
     std_cond = _condition_number(correlation_from_covariance(S))
+    median_sd = float(np.median(sd))
+    band = float(np.sqrt(config.scale_ratio_warn))
+    off_scale = {
+        f: float(v / median_sd)
+        for f, v in sorted(zip(data.features, sd.tolist(), strict=True), key=lambda t: -abs(np.log(t[1] / median_sd)))
+        if not 1.0 / band <= v / median_sd <= band
+    }
     details.update(
         {
             "sd_ratio": ratio,
             "largest_sd_feature": largest,
             "smallest_sd_feature": smallest,
             "condition_number_standardized": std_cond,
+            "median_sd": median_sd,
+            "off_scale_features": off_scale,
+            "off_scale_rule": f"pooled within-class SD more than sqrt({fmt(config.scale_ratio_warn)}) = {fmt(band)} times "
+            "the median feature's SD, or less than its inverse: the features that drive the ratio",
         }
     )
     figure = f"SD ratio {fmt(ratio)}"
     if ratio > config.scale_ratio_warn:
+        named = (
+            "; the features off the common scale: "
+            + ", ".join(f"{f} ({fmt(r)} times the median SD)" for f, r in list(off_scale.items())[:4])
+            + (f" and {len(off_scale) - 4} more" if len(off_scale) > 4 else "")
+            if off_scale
+            else ""
+        )
         return Finding(
             KEY,
             "warn",
             f"{largest} varies {fmt(ratio)} times more than {smallest}; standardize the features before fitting "
-            f"(condition number {fmt(raw_cond)} raw, {fmt(std_cond)} standardized).",
+            f"(condition number {fmt(raw_cond)} raw, {fmt(std_cond)} standardized){named}.",
             details,
             figure,
         )

@@ -6,6 +6,7 @@ from typing import TYPE_CHECKING, Any
 
 import pandas as pd
 
+from discaudit.checks._robust import canonical_layout
 from discaudit.dataset import AuditData
 from discaudit.findings import Finding, names
 from discaudit.jsonable import label
@@ -45,6 +46,11 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
                 "subsampled": c.subsampled,
             }
         )
+    # One class against the rest: list the comparisons in the canonical class order (content, not names),
+    # so the sentence names the same classes and features whatever the labels are.
+    _, ranks = canonical_layout(data)
+    rank = {label(data.classes[k]): ranks[k] for k in range(len(data.classes))}
+    comparisons.sort(key=lambda c: rank[c["class"]])
     details: dict[str, Any] = {
         "any_complete": result.any_complete,
         "any_quasi_complete": result.any_quasi_complete,

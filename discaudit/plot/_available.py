@@ -7,13 +7,6 @@ from typing import Any
 import numpy as np
 
 
-def _outlier_arrays(verdict: Any) -> dict[str, Any]:
-    finding = verdict.findings.get("outliers")
-    if finding is None or finding.status == "skip":
-        return {}
-    return dict(finding.arrays)
-
-
 def why_not(verdict: Any, key: str) -> str:
     """Why the plot of ``key`` cannot be drawn, or ``""`` when it can."""
     finding = verdict.findings.get(key)
@@ -30,12 +23,12 @@ def why_not(verdict: Any, key: str) -> str:
         if not details.get("vif_within"):
             return "No VIF was computed (fewer than two features vary within classes)."
     elif key == "outliers":
-        if len(arrays.get("distance", ())) == 0:
+        if len(arrays.get("squared_distance", ())) == 0:
             return "The per-row distances of the outliers check are not available."
     elif key == "normality":
-        classical = _outlier_arrays(verdict).get("classical_distance")
+        classical = arrays.get("classical_squared_distance")
         if classical is None or not np.isfinite(np.asarray(classical, dtype=float)).any():
-            return "The Q-Q plot uses the per-row classical distances of the outliers check, which did not run."
+            return "No class had its squared distances computed (too few rows, or a singular class covariance)."
     elif key == "expected_performance":
         if not details.get("candidates"):
             return "No candidate could be scored."

@@ -52,7 +52,18 @@ def status_title(ax: Axes, heading: str, verdict: Any, check: str) -> None:
     finding = verdict.findings.get(check)
     severity = verdict.meta.get("severity", {}).get(check, "gate")
     status = status_label(finding.status, severity) if finding is not None else ""
-    ax.set_title(f"{heading} [{status}]" if status else heading, loc="left", fontsize=10)
+    first, _, rest = heading.partition("\n")
+    title = f"{first} [{status}]" if status else first
+    ax.set_title(title + (f"\n{wrap(rest)}" if rest else ""), loc="left", fontsize=9 if rest else 10)
+
+
+#: Characters per line of a panel title's second part (a panel is about 80 characters wide at 9 pt).
+TITLE_WIDTH = 72
+
+
+def wrap(body: str, width: int = TITLE_WIDTH) -> str:
+    """Lines of at most ``width`` characters, so a panel's title never runs into the next panel."""
+    return "\n".join(textwrap.fill(line, width, break_on_hyphens=False) for line in body.split("\n"))
 
 
 def message(ax: Axes, body: str, title: str | None = None) -> None:

@@ -47,7 +47,7 @@ def draw(verdict: Any, ax: Axes) -> None:
     values = np.array([vif[n] for n in names])
     finite = values[np.isfinite(values)]
     cap = max(float(finite.max()) if finite.size else fail, fail) * 3.0
-    right = cap * 15.0  # room for the legend and the note
+    right = cap * 2.0  # room for the inf marks and dependency tags
     shown = np.where(np.isfinite(values), values, cap)
     pos = np.arange(len(names))[::-1]
     for y, name, v, s in zip(pos, names, values, shown, strict=True):
@@ -71,7 +71,7 @@ def draw(verdict: Any, ax: Axes) -> None:
     ax.axvline(fail, color=c.GREY, linestyle="-", linewidth=1.2, gid="vif-fail")
     ax.set_yticks(pos, labels=[c.short(n, 22) for n in names], fontsize=7)
     ax.set_xlim(left=min(0.8, float(shown.min()) * 0.8), right=right)
-    ax.set_xlabel("VIF, pooled within-class correlation (log scale)")
+
     deps = details.get("near_dependencies") or []
     tags: dict[str, list[str]] = {}
     lines = []
@@ -122,7 +122,8 @@ def draw(verdict: Any, ax: Axes) -> None:
         body += f"\n{hidden} features with smaller VIF not shown"
     if drop:
         body += f"\n'drop (remedy {rank})': the features remedy {rank} would remove"
-    c.note(ax, body, loc="lower right")
+    # the figures go under the axis label and the legend beside the axes: neither covers a bar
+    ax.set_xlabel("VIF, pooled within-class correlation (log scale)\n" + body, fontsize=8)
     handles: list[Artist] = [
         Patch(facecolor=c.LEVELS[lv][0], hatch=c.LEVELS[lv][1], edgecolor="black", label=label)
         for lv, label in (
@@ -137,7 +138,7 @@ def draw(verdict: Any, ax: Axes) -> None:
     ]
     if totals:
         handles.append(Line2D([], [], marker="|", color="black", linestyle="none", label="VIF ignoring classes"))
-    ax.legend(handles=handles, fontsize=6.5, loc="upper right")
+    ax.legend(handles=handles, fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
     c.status_title(ax, "Collinearity: VIF per feature", verdict, KEY)
 
 

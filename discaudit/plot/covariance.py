@@ -131,15 +131,20 @@ def draw(verdict: Any, ax: Axes, centred: bool = False) -> None:
         if np.all(np.isfinite(covs[k])):
             # name each ellipse on its outline too, at a different angle per class
             t = 2.0 * np.pi * k / max(len(classes), 1) + np.pi / 4.0
+            # the name sits just outside its ellipse, in the class colour, without a box over the data
+            edge = boundary_point(covs[k], t)
+            away = edge / (np.linalg.norm(edge) or 1.0)
             ax.annotate(
                 c.short(name, 16),
-                means[k] + boundary_point(covs[k], t),
+                means[k] + edge,
+                xytext=(6.0 * away[0], 6.0 * away[1]),
+                textcoords="offset points",
                 fontsize=7,
-                color="black",
-                ha="center",
-                va="center",
+                color=colour,
+                fontweight="bold",
+                ha="left" if away[0] >= 0 else "right",
+                va="bottom" if away[1] >= 0 else "top",
                 gid=f"ellipse-label:{k}",
-                bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": colour, "linewidth": 0.6},
             )
     ax.autoscale_view()
     ax.set_aspect("equal", adjustable="datalim")
@@ -150,7 +155,8 @@ def draw(verdict: Any, ax: Axes, centred: bool = False) -> None:
     handles += [Line2D([], [], color=c.GREY, linestyle="-", label=f"classical {COVERAGE:.0%} ellipse")]
     if robust:
         handles += [Line2D([], [], color=c.GREY, linestyle="--", label=f"robust (MCD) {COVERAGE:.0%} ellipse")]
-    ax.legend(handles=handles, fontsize=7, loc="best")
+    if centred:  # one legend, beside the second panel, never over an ellipse
+        ax.legend(handles=handles, fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
     details = finding.details
     lines = []
     if "bic" in details:
@@ -159,12 +165,11 @@ def draw(verdict: Any, ax: Axes, centred: bool = False) -> None:
         lines.append(f"Box's M {fmt_p(details['box_m'].get('p_value'))}")
     if details.get("most_different_class") is not None:
         lines.append(f"most different: {c.short(details['most_different_class'], 20)}")
-    if lines and not centred:
-        c.note(ax, "\n".join(lines), loc="lower right")
     if centred:
         c.status_title(ax, "The same ellipses, centred: compare shapes and sizes", verdict, KEY)
     else:
-        c.status_title(ax, "Class covariances on the discriminant plane", verdict, KEY)
+        heading = "Class covariances on the discriminant plane"
+        c.status_title(ax, heading + ("\n" + "; ".join(lines) if lines else ""), verdict, KEY)
 
 
 def _wrap(label: str, width: int = 48) -> str:

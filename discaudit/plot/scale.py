@@ -48,8 +48,7 @@ def draw(verdict: Any, ax: Axes) -> None:
     ax.axvline(smallest, color=c.GREY, linestyle=":", linewidth=1.0, gid="sd-smallest")
     ax.axvline(limit, color=c.GREY, linestyle="--", linewidth=1.0, gid="sd-limit")
     ax.set_yticks(pos, labels=[c.short(n, 22) for n in names], fontsize=7)
-    ax.set_xlim(left=float(values.min()) / 3.0, right=max(float(values.max()), limit) * 40.0)
-    ax.set_xlabel("pooled within-class standard deviation (log scale, feature units)")
+    ax.set_xlim(left=float(values.min()) / 3.0, right=max(float(values.max()), limit) * 3.0)
     lines = [f"largest / smallest SD = {fmt(details.get('sd_ratio'))} (warn above {fmt(threshold)})"]
     if details.get("condition_number_raw") is not None:
         lines.append(
@@ -60,7 +59,8 @@ def draw(verdict: Any, ax: Axes) -> None:
         lines.append("no within-class variation: " + ", ".join(c.short(z, 16) for z in zero[:5]))
     if hidden:
         lines.append(f"{hidden} features in the middle of the range not shown")
-    c.note(ax, "\n".join(lines), loc="lower right")
+    # the figures go under the axis label and the legend beside the axes: neither covers a bar
+    ax.set_xlabel("pooled within-class standard deviation (log scale, feature units)\n" + "\n".join(lines), fontsize=8)
     handles = [
         Patch(facecolor=c.LEVELS["pass"][0], edgecolor="black", label=f"within {fmt(threshold)} x smallest"),
         Patch(
@@ -72,7 +72,7 @@ def draw(verdict: Any, ax: Axes) -> None:
         Line2D([], [], color=c.GREY, linestyle=":", label="smallest SD"),
         Line2D([], [], color=c.GREY, linestyle="--", label=f"{fmt(threshold)} x smallest SD"),
     ]
-    ax.legend(handles=handles, fontsize=6.5, loc="upper right")
+    ax.legend(handles=handles, fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
     c.status_title(ax, "Scale: spread of each feature", verdict, KEY)
 
 

@@ -21,12 +21,13 @@ matplotlib the report is written without figures and says so.
 from __future__ import annotations
 
 import base64
+import dataclasses
 import io
 from html import escape
 from typing import TYPE_CHECKING, Any
 
 from discaudit.config import Config
-from discaudit.findings import fmt
+from discaudit.findings import fmt, fmt_p
 from discaudit.report.html_table import format_table
 from discaudit.report.labels import CAUTION, status_label
 from discaudit.report.table import build
@@ -51,9 +52,10 @@ table { border-collapse: collapse; margin: .4em 0; font-size: .9em; }
 th, td { border: 1px solid #d0d0d0; padding: .2em .5em; text-align: left; vertical-align: top; }
 th { background: #f3f3f3; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; }
+table.kv td.num { text-align: left; }
 code { font-size: .95em; }
 .caution { border: 2px solid #000; padding: .6em .9em; background: #fffbea; }
-.status { font-weight: bold; }
+.status { font-weight: bold; white-space: nowrap; }
 .finding { border-left: 6px solid #888; padding: .2em 0 .2em 1em; margin: 1.5em 0; }
 .finding[data-status="fail"] { border-left-style: double; border-left-color: #D55E00; }
 .finding[data-status="warn"] { border-left-style: dashed; border-left-color: #E69F00; }
@@ -95,12 +97,15 @@ def render(verdict: Verdict, *, plots: bool = True, dpi: int = DPI) -> str:
         "</head>",
         "<body>",
         f"<h1>{_e(table.title)}</h1>",
-        f'<p>Gate status: <span class="status">{_e(status_label(verdict.status))}</span>. '
+        f"<p>{_e(table.gate_outcome)} " if table.gate_outcome else "<p>",
+        f'Worst check status: <span class="status">{_e(status_label(verdict.status))}</span>. '
         f"Written by discaudit {_e(_version())}; this file is self-contained (no scripts, no external resources).</p>",
-        f'<div class="caution"><strong>Caution.</strong> {_e(CAUTION)}</div>',
+        f'<div class="caution"><strong>Caution.</strong> {_e(CAUTION.removeprefix("Caution: "))}</div>',
         _contents(verdict),
         '<h2 id="verdict">Verdict</h2>',
-        format_table(table),
+        format_table(
+            dataclasses.replace(table, notes=[n for n in table.notes if n != CAUTION])
+        ),  # caution: once, above
         '<h2 id="data">Data</h2>',
         _data_section(verdict),
         '<h2 id="findings">Findings</h2>',
@@ -108,10 +113,41 @@ def render(verdict: Verdict, *, plots: bool = True, dpi: int = DPI) -> str:
     if figure_note:
         parts.append(f"<p><em>{_e(figure_note)}</em></p>")
     severity = meta.get("severity", {})
+    ctx = _Context(_data_names(verdict))
     for key, finding in verdict.findings.items():
-        parts.append(_finding_section(key, finding, severity.get(key, "gate"), figures.get(key)))
+        caption = _caption(verdict, key)
+        parts.append(_finding_section(key, finding, severity.get(key, "gate"), figures.get(key), ctx, caption))
     parts += ['<h2 id="settings">Settings</h2>', _settings_section(verdict), "</body>", "</html>"]
     return "\n".join(parts) + "\n"
+
+
+def _data_names(verdict: Verdict) -> set[str]:
+    """Feature, class and flagged-row names: printed verbatim, never turned into headings."""
+    names = {str(f) for f in verdict.meta.get("features", [])} | {str(c) for c in verdict.meta.get("classes", [])}
+    outliers = verdict.findings.get("outliers")
+    if outliers is not None:
+        for v in outliers.details.get("per_class", {}).values():
+            names |= {str(r.get("row")) for r in v.get("flagged_rows", [])} | set(v.get("left_out_of_fit", {}))
+    return names
+
+
+def _caption(verdict: Verdict, key: str) -> str:
+    """The figure caption; the outliers one says which classes had a robust fit."""
+    if key != "outliers":
+        return _CAPTIONS.get(key, "")
+    per_class = verdict.findings[key].details.get("per_class", {})
+    classical = [c for c, v in per_class.items() if not str(v.get("method", "")).startswith("reweighted")]
+    if not classical:
+        y_axis = "robust (MCD) squared distance"
+    elif len(classical) == len(per_class):
+        y_axis = "classical squared distance (every class is too small for a robust fit, so both axes are classical)"
+    else:
+        y_axis = f"robust (MCD) squared distance; classical for {', '.join(classical)} (too small for a robust fit)"
+    return (
+        f"Per class, on one scale for all panels: {y_axis} against the classical squared Mahalanobis distance; "
+        "dashed line: the class's Gaussian cut-off; dash-dotted: its far-out fence; filled and labelled: flagged "
+        "rows (beyond both). Last panel: chi-square Q-Q plot of the distances."
+    )
 
 
 def _version() -> str:
@@ -154,7 +190,9 @@ def _figures(verdict: Verdict, dpi: int) -> tuple[dict[str, tuple[str, str]], st
     return out, ""
 
 
-def _finding_section(key: str, finding: Any, severity: str, figure: tuple[str, str] | None) -> str:
+def _finding_section(
+    key: str, finding: Any, severity: str, figure: tuple[str, str] | None, ctx: _Context, caption: str
+) -> str:
     parts = [
         f'<section class="finding" id="finding-{_e(key)}" data-check="{_e(key)}" data-status="{_e(finding.status)}">',
         f'<h3><code>{_e(key)}</code> <span class="status">{_e(status_label(finding.status, severity))}</span>'
@@ -165,11 +203,11 @@ def _finding_section(key: str, finding: Any, severity: str, figure: tuple[str, s
         encoded, alt = figure
         parts.append(
             f'<figure data-check="{_e(key)}"><img alt="{_e(alt)}" src="data:image/png;base64,{encoded}">'
-            f"<figcaption>{_e(_CAPTIONS.get(key, ''))}</figcaption></figure>"
+            f"<figcaption>{_e(caption)}</figcaption></figure>"
         )
     if finding.details:
         parts.append(
-            f"<details open><summary>Details of <code>{_e(key)}</code></summary>{_value(finding.details, 0)}</details>"
+            f"<details open><summary>Details of <code>{_e(key)}</code></summary>{_value(finding.details, 0, ctx)}</details>"
         )
     parts.append("</section>")
     return "\n".join(parts)
@@ -180,10 +218,9 @@ _CAPTIONS = {
     "the threshold times the smallest spread.",
     "collinearity": "VIF of each feature in the pooled within-class correlation (log scale), with the warn (dashed) "
     "and fail (solid) thresholds; hatching gives the level; near dependencies are numbered.",
-    "outliers": "Per class: robust (MCD) against classical squared Mahalanobis distance; dashed line: the class's "
-    "cut-off; filled and labelled: flagged rows. Last panel: chi-square Q-Q plot of the robust distances.",
-    "normality": "Per class: sorted classical squared Mahalanobis distances against chi-square(p) quantiles; a "
-    "Gaussian class follows the dotted line.",
+    "normality": "Per class, on one scale for all panels: sorted classical squared Mahalanobis distances on the "
+    "features the tests used against chi-square quantiles; a Gaussian class follows the dotted line; filled: rows "
+    "the outlier check flags.",
     "covariance_homogeneity": "95% covariance ellipse of each class on the discriminant plane (solid: classical, "
     "dashed: robust MCD); right: the same ellipses centred, to compare shapes and sizes.",
 }
@@ -191,77 +228,128 @@ _CAPTIONS = {
 
 # -- details as tables ---------------------------------------------------------------------------
 
+#: Detail keys whose tables are collapsed by default: a class's robust-fit internals, long row lists.
+COLLAPSED_KEYS = frozenset({"fit_internals", "flagged_rows", "left_out_of_fit", "hyperplane", "thresholds", "notes"})
+#: Words a heading spells out.
+_WORDS = {"p": "p", "sd": "SD", "vif": "VIF", "bic": "BIC", "aic": "AIC", "df": "df", "mcd": "MCD"}
+
+
+#: Nouns a count names ("n_rows": number of rows; "n_flagged": number flagged).
+_COUNTED = frozenset({"rows", "features", "classes", "params", "starts"})
+
+
+class _Context:
+    """What the details renderer needs to know: names from the data, printed as they are."""
+
+    def __init__(self, names: set[str]) -> None:
+        self.names = names
+
+    def heading(self, key: Any) -> str:
+        """A detail key as a readable heading; feature, class and row names stay verbatim."""
+        text = str(key)
+        if text in self.names or "_" not in text:
+            return _e(text)
+        words = text.split("_")
+        if words[0] == "n":
+            words[0] = "number of" if len(words) > 1 and words[1] in _COUNTED else "number"
+        words = [_WORDS.get(w, w) for w in words]
+        return _e(" ".join(words).replace("p value", "p-value"))
+
 
 def _is_scalar(value: Any) -> bool:
     return value is None or isinstance(value, (str, int, float, bool))
 
 
-def _scalar(value: Any) -> str:
+def _scalar(value: Any, key: Any = "") -> str:
+    """A value as the summaries print it: fmt's compact numbers, 'p < 1e-16' for a p-value at zero."""
     if value is None:
         return "n/a"
     if isinstance(value, bool):
         return "yes" if value else "no"
+    if isinstance(value, float) and str(key).endswith("p_value"):
+        return _e(fmt_p(value).removeprefix("p = "))
     if isinstance(value, float):
-        return _e(fmt(value, 4))
+        return _e(fmt(value))
     return _e(value)
 
 
-def _cell(value: Any, depth: int) -> str:
+def _cell(value: Any, depth: int, ctx: _Context, key: Any = "") -> str:
     css = ' class="num"' if isinstance(value, (int, float)) and not isinstance(value, bool) else ""
-    return f"<td{css}>{_value(value, depth)}</td>"
+    return f"<td{css}>{_value(value, depth, ctx, key)}</td>"
 
 
-def _fold(html_table: str, n_rows: int) -> str:
-    if n_rows <= FOLD_ROWS:
+def _fold(html_table: str, n_rows: int, key: Any = "", label: str | None = None) -> str:
+    if n_rows <= FOLD_ROWS and str(key) not in COLLAPSED_KEYS:
         return html_table
-    return f"<details><summary>{n_rows} rows</summary>{html_table}</details>"
+    return f"<details><summary>{_e(label or f'{n_rows} rows')}</summary>{html_table}</details>"
 
 
-def _value(value: Any, depth: int) -> str:
+def _value(value: Any, depth: int, ctx: _Context, key: Any = "") -> str:
     """Details value as HTML: scalars as text, mappings and records as tables."""
     if _is_scalar(value):
-        return _scalar(value)
+        return _scalar(value, key)
     if depth >= MAX_DEPTH:
         return f"<code>{_e(value)}</code>"
     if isinstance(value, dict):
         if not value:
             return "none"
         inner = list(value.values())
-        if all(isinstance(v, dict) and v and all(_is_scalar(x) for x in v.values()) for v in inner) and len(inner) > 1:
-            return _wide_table(value)
-        rows = "".join(f"<tr><th>{_e(k)}</th>{_cell(v, depth + 1)}</tr>" for k, v in value.items())
-        return _fold(f"<table>{rows}</table>", len(value))
+        if len(inner) > 1 and all(isinstance(v, dict) and v for v in inner):
+            return _wide_table(value, depth, ctx, key)
+        rows = "".join(f"<tr><th>{ctx.heading(k)}</th>{_cell(v, depth + 1, ctx, k)}</tr>" for k, v in value.items())
+        return _fold(f'<table class="kv">{rows}</table>', len(value), key, f"{ctx.heading(key)}: {len(value)} entries")
     if isinstance(value, (list, tuple)):
         if not value:
             return "none"
         if all(_is_scalar(v) for v in value):
-            shown = ", ".join(_scalar(v) for v in value[:MAX_LIST_ITEMS])
+            shown = ", ".join(_scalar(v, key) for v in value[:MAX_LIST_ITEMS])
             more = f" … and {len(value) - MAX_LIST_ITEMS} more" if len(value) > MAX_LIST_ITEMS else ""
             return shown + more
         if all(isinstance(v, dict) for v in value):
             columns = list(dict.fromkeys(k for v in value for k in v))
-            head = "".join(f"<th>{_e(c)}</th>" for c in columns)
+            head = "".join(f"<th>{ctx.heading(c)}</th>" for c in columns)
             body = "".join(
-                "<tr>" + "".join(_cell(v.get(c), depth + 1) if c in v else "<td></td>" for c in columns) + "</tr>"
+                "<tr>"
+                + "".join(_cell(v.get(c), depth + 1, ctx, c) if c in v else "<td></td>" for c in columns)
+                + "</tr>"
                 for v in value
             )
-            return _fold(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>", len(value))
-        return "<ul>" + "".join(f"<li>{_value(v, depth + 1)}</li>" for v in value) + "</ul>"
+            table = f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
+            return _fold(table, len(value), key, f"{len(value)} rows")
+        return "<ul>" + "".join(f"<li>{_value(v, depth + 1, ctx)}</li>" for v in value) + "</ul>"
     return _e(value)
 
 
-def _wide_table(value: dict[str, dict[str, Any]]) -> str:
-    """A mapping of flat mappings (e.g. per class) as one table: inner keys down, outer keys across."""
+def _wide_table(value: dict[str, dict[str, Any]], depth: int, ctx: _Context, key: Any = "") -> str:
+    """A mapping of mappings (e.g. per class) as one table: inner keys down, outer keys across.
+
+    Nested values (a class's flagged rows, its fit internals) sit in their cell, collapsed.
+    """
     columns = list(value)
     keys = list(dict.fromkeys(k for v in value.values() for k in v))
-    head = "<th></th>" + "".join(f"<th>{_e(c)}</th>" for c in columns)
-    body = "".join(
-        f"<tr><th>{_e(k)}</th>"
-        + "".join(_cell(value[c].get(k), 0) if k in value[c] else "<td></td>" for c in columns)
-        + "</tr>"
-        for k in keys
-    )
-    return _fold(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>", len(keys))
+    head = "<th></th>" + "".join(f"<th>{ctx.heading(c)}</th>" for c in columns)
+
+    def cell(c: str, k: str) -> str:
+        if k not in value[c]:
+            return "<td></td>"
+        v = value[c][k]
+        if _is_scalar(v):
+            return _cell(v, depth + 1, ctx, k)
+        size = len(v) if isinstance(v, (dict, list)) else 0
+        inner = _value(v, depth + 1, ctx, k)
+        if not size or "<details>" in inner[:10]:
+            return f"<td>{inner}</td>"
+        what = (
+            "rows"
+            if isinstance(v, list) and v and isinstance(v[0], dict)
+            else "items"
+            if isinstance(v, list)
+            else "entries"
+        )
+        return f"<td><details><summary>{size} {what}</summary>{inner}</details></td>"
+
+    body = "".join(f"<tr><th>{ctx.heading(k)}</th>" + "".join(cell(c, k) for c in columns) + "</tr>" for k in keys)
+    return _fold(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>", len(keys), key)
 
 
 # -- data and settings -----------------------------------------------------------------------
@@ -276,12 +364,13 @@ def _data_section(verdict: Verdict) -> str:
     ]
     counts = verdict.findings["sample_size"].details.get("class_counts") if "sample_size" in verdict.findings else None
     fingerprint = meta.get("fingerprint") or {}
-    parts = ["<table>" + "".join(f"<tr><th>{_e(k)}</th>{_cell(v, 0)}</tr>" for k, v in rows)]
+    ctx = _Context(_data_names(verdict))
+    parts = ['<table class="kv">' + "".join(f"<tr><th>{_e(k)}</th>{_cell(v, 0, ctx)}</tr>" for k, v in rows)]
     if counts:
-        parts.append(f"<tr><th>rows per class</th><td>{_value(counts, 1)}</td></tr>")
+        parts.append(f"<tr><th>rows per class</th><td>{_value(counts, 1, ctx)}</td></tr>")
     else:
-        parts.append(f"<tr><th>class labels</th><td>{_value(meta.get('classes', []), 1)}</td></tr>")
-    parts.append(f"<tr><th>feature names</th><td>{_value(meta.get('features', []), 1)}</td></tr>")
+        parts.append(f"<tr><th>class labels</th><td>{_value(meta.get('classes', []), 1, ctx)}</td></tr>")
+    parts.append(f"<tr><th>feature names</th><td>{_value(meta.get('features', []), 1, ctx)}</td></tr>")
     if fingerprint:
         parts.append(
             f"<tr><th>SHA-256 fingerprint</th><td><code>{_e(fingerprint.get('sha256', ''))}</code><br>"
@@ -291,7 +380,7 @@ def _data_section(verdict: Verdict) -> str:
     else:
         parts.append("<tr><th>SHA-256 fingerprint</th><td>not recorded by this version</td></tr>")
     if meta.get("sample"):
-        parts.append(f"<tr><th>sample</th><td>{_value(meta['sample'], 1)}</td></tr>")
+        parts.append(f"<tr><th>sample</th><td>{_value(meta['sample'], 1, ctx)}</td></tr>")
     parts.append("</table>")
     return "".join(parts)
 

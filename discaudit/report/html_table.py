@@ -21,6 +21,8 @@ if TYPE_CHECKING:
     from discaudit.verdict import Verdict
 
 _CELL = 'style="text-align:left; vertical-align:top"'
+#: The status cell keeps its symbol and word on one line.
+_STATUS_CELL = 'style="text-align:left; vertical-align:top; white-space:nowrap"'
 
 
 def render(verdict: Verdict) -> str:
@@ -33,7 +35,13 @@ def format_table(table: VerdictTable) -> str:
     e = _text
     parts = [
         '<div class="discaudit-verdict">',
-        f"<p><strong>{e(table.title)}</strong><br>Gate status: <strong>{e(status_label(table.status))}</strong></p>",
+        f"<p><strong>{e(table.title)}</strong><br>"
+        + (
+            f'<strong class="gate" data-passed="{str(table.gate_passed).lower()}">{e(table.gate_outcome)}</strong><br>'
+            if table.gate_outcome
+            else ""
+        )
+        + f'Worst check status: <strong style="white-space:nowrap">{e(status_label(table.status))}</strong></p>',
         "<table>",
         "<thead><tr>"
         + "".join(f"<th {_CELL}>{h}</th>" for h in ("check", "status", "key figure", "summary"))
@@ -44,11 +52,15 @@ def format_table(table: VerdictTable) -> str:
         parts.append(
             f'<tr data-status="{e(row.status)}">'
             f"<td {_CELL}><code>{e(row.check)}</code></td>"
-            f"<td {_CELL}>{e(status_label(row.status, row.severity))}</td>"
+            f"<td {_STATUS_CELL}>{e(status_label(row.status, row.severity))}</td>"
             f"<td {_CELL}>{e(row.figure)}</td>"
             f"<td {_CELL}>{e(row.summary)}</td></tr>"
         )
     parts += ["</tbody>", "</table>"]
+    if table.gate_rule:
+        parts.append(f'<p class="gate-rule"><em>{e(table.gate_rule)}</em></p>')
+    if table.baseline is not None:
+        parts.append(format_baseline(table))
     parts.append(
         f"<p><strong>Recommendation:</strong> {e(MODEL_NAMES[table.model])} (<code>{e(table.model)}</code>)<br>"
         f"<strong>Suggested settings:</strong> {e(format_params(table.params))}"
@@ -71,6 +83,40 @@ def format_table(table: VerdictTable) -> str:
         parts.append(remedy_section(table))
     parts += [f"<p><small>{e(note)}</small></p>" for note in table.notes]
     parts.append("</div>")
+    return "\n".join(parts)
+
+
+def format_baseline(table: VerdictTable) -> str:
+    """The 'compared with the baseline' section as an HTML fragment."""
+    e = _text
+    b = table.baseline
+    assert b is not None
+    word = "drifted" if b.drifted else "within noise"
+    parts = [
+        f'<section class="baseline" data-drifted="{str(b.drifted).lower()}">',
+        f"<h3>Compared with the baseline (<code>{e(b.source)}</code>): {e(word)}</h3>",
+        f"<p>{e(b.outcome)}</p>",
+    ]
+    if b.changes:
+        items = "".join(
+            f'<li data-counts="{str(c.counts).lower()}">{"<strong>counts</strong>" if c.counts else "noted"}: '
+            f"{e(c.summary)}</li>"
+            for c in b.changes
+        )
+        parts.append(f"<ul>{items}</ul>")
+    if b.classes:
+        head = "".join(
+            f"<th {_CELL}>{h}</th>"
+            for h in ("class", "rows then -> now", "share then -> now", "mean shift", "covariance")
+        )
+        body = "".join(
+            f'<tr data-drifted="{str(r.drifted).lower()}">'
+            + "".join(f"<td {_CELL}>{e(v)}</td>" for v in (r.label, r.rows, r.share, r.mean, r.covariance))
+            + "</tr>"
+            for r in b.classes
+        )
+        parts.append(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>")
+    parts += [f"<p><em>{e(b.rule)}</em></p>", "</section>"]
     return "\n".join(parts)
 
 

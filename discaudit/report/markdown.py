@@ -37,11 +37,18 @@ def render(verdict: Verdict) -> str:
 
 def format_table(table: VerdictTable) -> str:
     """Markdown text of an already built verdict table."""
-    lines = [f"### {escape(table.title)}", "", f"**Gate status: {status_label(table.status)}**", ""]
+    lines = [f"### {escape(table.title)}", ""]
+    if table.gate_outcome:
+        lines += [f"**{escape(table.gate_outcome)}**", ""]
+    lines += [f"Worst check status: {status_label(table.status)}", ""]
     lines += ["| check | status | key figure | summary |", "|---|---|---|---|"]
     for row in table.rows:
         cells = (f"`{row.check}`", status_label(row.status, row.severity), escape(row.figure), escape(row.summary))
         lines.append("| " + " | ".join(cells) + " |")
+    if table.gate_rule:
+        lines += ["", f"_{escape(table.gate_rule)}_"]
+    if table.baseline is not None:
+        lines += ["", *_baseline_lines(table)]
     lines += ["", f"**Recommendation:** {escape(MODEL_NAMES[table.model])} (`{table.model}`)", ""]
     if table.reasons:
         lines.append("**Why:**")
@@ -63,3 +70,24 @@ def format_table(table: VerdictTable) -> str:
     lines += remedy_lines(table, escape)
     lines += [f"> {escape(note)}" for note in table.notes]
     return "\n".join(lines) + "\n"
+
+
+def _baseline_lines(table: VerdictTable) -> list[str]:
+    """The 'compared with the baseline' section as Markdown."""
+    b = table.baseline
+    assert b is not None
+    word = "drifted" if b.drifted else "within noise"
+    lines = [f"#### Compared with the baseline ({escape(b.source)}): {word}", "", escape(b.outcome), ""]
+    for c in b.changes:
+        lines.append(f"- {'**counts**' if c.counts else 'noted'}: {escape(c.summary)}")
+    if b.changes:
+        lines.append("")
+    if b.classes:
+        lines += ["| class | rows then -> now | share then -> now | mean shift | covariance |", "|---|---|---|---|---|"]
+        for r in b.classes:
+            name = f"**{escape(r.label)}**" if r.drifted else escape(r.label)
+            cells = (name, escape(r.rows), escape(r.share), escape(r.mean), escape(r.covariance))
+            lines.append("| " + " | ".join(cells) + " |")
+        lines.append("")
+    lines.append(f"_{escape(b.rule)}_")
+    return lines

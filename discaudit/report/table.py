@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
+from discaudit.findings import fmt, fmt_p
 from discaudit.report.labels import CAUTION, MODEL_NAMES
 
 if TYPE_CHECKING:
@@ -18,6 +19,42 @@ class TableRow:
     figure: str
     summary: str
     severity: str
+    gates: bool = False  # the finding fails the gate
+
+
+@dataclass(frozen=True)
+class ChangeRow:
+    """One difference from the baseline: counted or noted."""
+
+    counts: bool
+    kind: str
+    subject: str
+    figure: str
+    summary: str
+
+
+@dataclass(frozen=True)
+class ClassRow:
+    """One class compared with the baseline, as table cells."""
+
+    label: str
+    rows: str
+    share: str
+    mean: str
+    covariance: str
+    drifted: bool
+
+
+@dataclass(frozen=True)
+class BaselineSection:
+    """The 'compared with the baseline' section."""
+
+    source: str
+    drifted: bool
+    outcome: str
+    rule: str
+    changes: list[ChangeRow]
+    classes: list[ClassRow]
 
 
 @dataclass(frozen=True)
@@ -39,7 +76,7 @@ class RemedyRow:
 
 @dataclass(frozen=True)
 class VerdictTable:
-    """Rows, recommendation block and notes of a verdict, ready to format."""
+    """Rows, recommendation block, gate, baseline and notes of a verdict, ready to format."""
 
     title: str
     status: str
@@ -51,21 +88,64 @@ class VerdictTable:
     notes: list[str]
     close_to: list[str]
     param_notes: dict[str, str]
+    gate_passed: bool = True
+    gate_outcome: str = ""
+    gate_rule: str = ""
+    baseline: BaselineSection | None = None
+    failing_checks: list[str] = field(default_factory=list)
     remedies: list[RemedyRow] = field(default_factory=list)
+
+
+def _cell_mean(test: Any) -> str:
+    if not isinstance(test, dict):
+        return "-"
+    if "mahalanobis" not in test:
+        return "not compared"
+    return f"D {fmt(test['mahalanobis'], 2)} SD, {fmt_p(test['p_value'])}"
+
+
+def _cell_covariance(test: Any) -> str:
+    if not isinstance(test, dict):
+        return "-"
+    if "spread_ratio" not in test:
+        return "not compared"
+    return f"x{fmt(test['spread_ratio'], 2)}, {fmt_p(test['p_value'])}"
+
+
+def _baseline(verdict: Verdict) -> BaselineSection | None:
+    b = verdict.baseline
+    if b is None:
+        return None
+    classes = [
+        ClassRow(
+            str(c["class"]),
+            f"{c['n_accepted']} -> {c['n_current']}",
+            f"{fmt(c['share_accepted'])} -> {fmt(c['share_current'])}",
+            c["note"] if c.get("note") in ("appeared", "vanished") else _cell_mean(c.get("mean")),
+            "-" if c.get("note") in ("appeared", "vanished") else _cell_covariance(c.get("covariance")),
+            bool(c.get("drifted")),
+        )
+        for c in b.classes
+    ]
+    changes = [ChangeRow(c.counts, c.kind, c.subject, c.figure, c.summary) for c in b.changes]
+    return BaselineSection(b.source, b.drifted, b.outcome, b.rule, changes, classes)
 
 
 def build(verdict: Verdict) -> VerdictTable:
     meta = verdict.meta
     severity = meta.get("severity", {})
+    gate = verdict.gate
+    failing = list(gate.failing_checks) if gate is not None else []
     rows = [
-        TableRow(key, f.status, f.figure, f.summary, severity.get(key, "gate")) for key, f in verdict.findings.items()
+        TableRow(key, f.status, f.figure, f.summary, severity.get(key, "gate"), key in failing)
+        for key, f in verdict.findings.items()
     ]
     title = (
         f"discaudit pre-flight audit: {meta.get('n_rows', '?')} rows, {meta.get('n_features', '?')} features, "
         f"{meta.get('n_classes', '?')} classes"
     )
     rec = verdict.recommendation
-    notes = [CAUTION]
+    notes = [*[str(n) for n in meta.get("notes", [])], CAUTION]
     advisory = [r.check for r in rows if r.severity == "advisory"]
     if advisory:
         notes.insert(0, f"Advisory checks (shown, not gating): {', '.join(advisory)}.")
@@ -80,7 +160,12 @@ def build(verdict: Verdict) -> VerdictTable:
         notes,
         list(rec.close_to),
         dict(rec.param_notes),
-        [_remedy_row(r) for r in getattr(verdict, "remedies", ())],
+        gate_passed=gate.passed if gate is not None else True,
+        gate_outcome=gate.outcome if gate is not None else "",
+        gate_rule=gate.rule if gate is not None else "",
+        baseline=_baseline(verdict),
+        failing_checks=failing,
+        remedies=[_remedy_row(r) for r in getattr(verdict, "remedies", ())],
     )
 
 

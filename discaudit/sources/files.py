@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import contextlib
 import gzip
+import io
 import os
 from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
@@ -64,7 +65,10 @@ def read_table(
     ------
     DataError
         Unknown suffix, missing target or index column, unknown or conflicting names in
-        ``features``/``exclude``, or no feature left; the message names them.
+        ``features``/``exclude``, or no feature left; for CSV, a row with another number of
+        fields than the header, the header repeated on a later line, or numbers written with a
+        decimal comma (:func:`check_csv_layout`, :func:`check_text_numbers`). The message names
+        the file and the line or column.
     FileNotFoundError
         When the file does not exist.
     """
@@ -77,7 +81,9 @@ def read_table(
     if file_kind == "csv":
         columns = [str(c) for c in pd.read_csv(path, nrows=0).columns]
         chosen = choose_columns(columns, target, features, exclude, index_col)
+        check_csv_layout(path)
         frame = _read_csv(path, [*chosen, target], index_col, progress)
+        check_text_numbers(frame, path, chosen)
     else:
         import pyarrow.parquet as pq
 
@@ -238,7 +244,7 @@ def file_chunks(
     return batches
 
 
-def csv_line(path: str | Path, row: int) -> int | None:
+def csv_line(path: str | os.PathLike[str], row: int) -> int | None:
     """The line of a CSV file on which data row ``row`` (0-based, as pandas counts) starts.
 
     Counted by the csv module, so quoted fields that span lines and blank lines (which pandas
@@ -281,3 +287,239 @@ def _read_batches(path: Path, file_kind: str, batch_rows: int, columns: list[str
         # duplicated or empty headers) as the in-memory reader.
         with pd.read_csv(path, usecols=columns, chunksize=batch_rows, low_memory=False) as reader:
             yield from reader
+
+
+# -- what CI data look like: ragged rows, repeated headers, decimal commas, labels that are not classes ------------
+
+#: Bytes read at a time by the layout scan of a CSV file.
+_SCAN_BLOCK = 1 << 24
+#: A target with more distinct values than this, most of them alone in their class, looks continuous.
+CONTINUOUS_DISTINCT = 20
+#: Columns with at most this many distinct values are suggested as class columns.
+_CLASS_LIKE_MAX = 20
+_DECIMAL_COMMA = r"[+-]?\d*,\d+(?:[eE][+-]?\d+)?"
+
+
+def check_csv_layout(path: str | os.PathLike[str]) -> None:
+    """Every line of a CSV file has as many fields as the header, and no line repeats the header.
+
+    pandas reads a row with fewer fields by filling missing values, and a first row with one
+    field too many by taking the first column as the index, shifting every column: the audit
+    would then see nonsense (a target holding feature values). One pass over the bytes, in
+    blocks: fields are counted by delimiters while the file has no quote character, and by the
+    csv module (which understands quoted delimiters and line breaks) once one appears. Blank
+    lines are skipped, as pandas skips them. Lines are counted from 1, the header being line 1.
+
+    Raises
+    ------
+    DataError
+        Naming the file, the first line at fault and what to do.
+    """
+    path = Path(path)
+    with _binary(path) as handle:
+        header: bytes | None = None
+        expected = 0
+        line = 0
+        carry = b""
+        while True:
+            block = handle.read(_SCAN_BLOCK)
+            data = carry + block
+            if b'"' in data:
+                _check_layout_quoted(path)
+                return
+            if not block:
+                complete, carry = (data + b"\n" if data else b""), b""
+            else:
+                cut = data.rfind(b"\n")
+                complete, carry = data[: cut + 1], data[cut + 1 :]
+            if complete:
+                header, expected, line = _scan_lines(path, complete, header, expected, line)
+            if not block:
+                return
+
+
+def _binary(path: Path) -> Any:
+    raw = path.open("rb")
+    if path.name.lower().endswith(".gz"):
+        return gzip.GzipFile(fileobj=raw, mode="rb")
+    return raw
+
+
+def _scan_lines(
+    path: Path, data: bytes, header: bytes | None, expected: int, line: int
+) -> tuple[bytes | None, int, int]:
+    """Field counts and header repeats of whole lines (``data`` ends with a newline)."""
+    import numpy as np
+
+    array = np.frombuffer(data, dtype=np.uint8)
+    ends = np.flatnonzero(array == 10)
+    starts = np.concatenate([[0], ends[:-1] + 1])
+    stops = ends - (array[np.maximum(ends - 1, 0)] == 13) * (ends > starts)  # without a '\r'
+    # Delimiters per line: positions of every comma, counted between line ends by a sorted search.
+    commas = np.diff(np.searchsorted(np.flatnonzero(array == 44), np.concatenate([[-1], ends])))
+    numbers = line + 1 + np.arange(starts.size)
+    blank = stops == starts
+    if header is None:
+        first = np.flatnonzero(~blank)
+        if not first.size:
+            return None, 0, line + starts.size
+        i = int(first[0])
+        header = bytes(data[starts[i] : stops[i]])
+        expected = int(commas[i]) + 1
+        blank[: i + 1] = True
+    fields = commas + 1
+    ragged = np.flatnonzero(~blank & (fields != expected))
+    # Lines as long as the header whose first bytes match it, then compared in full.
+    same = np.flatnonzero(~blank & (stops - starts == len(header)))
+    head = np.frombuffer(header[:8], dtype=np.uint8)
+    if same.size and head.size:
+        same = same[(array[starts[same][:, None] + np.arange(head.size)] == head).all(axis=1)]
+    repeat = next((int(j) for j in same if data[starts[j] : stops[j]] == header), None)
+    first_ragged = int(ragged[0]) if ragged.size else None
+    if repeat is not None and (first_ragged is None or repeat < first_ragged):
+        _repeated_header(path, int(numbers[repeat]))
+    if first_ragged is not None:
+        _ragged(path, int(numbers[first_ragged]), int(fields[first_ragged]), expected)
+    return header, expected, line + starts.size
+
+
+def _check_layout_quoted(path: Path) -> None:
+    """The layout check by the csv module, for a file with quoted fields."""
+    import csv
+
+    with _binary(path) as raw, io.TextIOWrapper(raw, encoding="utf-8", errors="replace", newline="") as text:
+        reader = csv.reader(text)
+        header: list[str] | None = None
+        before = 0
+        for record in reader:
+            start, before = before + 1, reader.line_num
+            if not record:
+                continue
+            if header is None:
+                header = record
+            elif len(record) != len(header):
+                _ragged(path, start, len(record), len(header))
+            elif record == header:
+                _repeated_header(path, start)
+
+
+def _ragged(path: Path, line: int, fields: int, expected: int) -> None:
+    hint = "a stray delimiter, or a field with a comma that needs quotes?" if fields > expected else "a missing field?"
+    raise DataError(
+        f"{path}: line {line} has {fields} fields but the header has {expected} ({hint}); fix that row so every row "
+        "has one field per column."
+    )
+
+
+def _repeated_header(path: Path, line: int) -> None:
+    raise DataError(
+        f"{path}: line {line} repeats the header row (files joined with their headers?); remove it and keep the header "
+        "on line 1 only."
+    )
+
+
+def check_text_numbers(frame: pd.DataFrame, path: str | os.PathLike[str], columns: Sequence[str]) -> None:
+    """A column of numbers written with a decimal comma (alone or beside decimal points) is named with its line.
+
+    pandas reads ``"3,14"`` as text, and the audit would report the column as non-numeric. Only
+    columns pandas read as text are looked at.
+
+    Raises
+    ------
+    DataError
+        Naming the file, the column, the first line with a decimal comma and the fix.
+    """
+    import numpy as np
+
+    for column in columns:
+        if column not in frame.columns or pd.api.types.is_numeric_dtype(frame[column].dtype):
+            continue
+        values = frame[column]
+        is_text = values.map(lambda v: isinstance(v, str)).to_numpy(dtype=bool)
+        text = values[is_text].astype(str).str.strip()
+        comma = text.str.fullmatch(_DECIMAL_COMMA).to_numpy(dtype=bool)
+        if not comma.any():
+            continue
+        position = int(np.flatnonzero(is_text)[np.flatnonzero(comma)[0]])  # the row's position in the file
+        line = csv_line(path, position)
+        example = text[comma].iloc[0]
+        others = text[~comma]
+        points = others[pd.to_numeric(others, errors="coerce").notna() & others.str.contains(".", regex=False)]
+        where = f" on line {line}" if line is not None else ""
+        beside = f" beside numbers with a decimal point ({points.iloc[0]!r})" if len(points) else ""
+        raise DataError(
+            f"{path}: column {column!r} holds {example!r}{where}, a number with a decimal comma{beside}; write every "
+            "number with a decimal point (and no thousands separator)."
+        )
+
+
+def screen_labels(
+    frame: pd.DataFrame, target: str, path: str | os.PathLike[str], min_class_rows: int | None = None
+) -> tuple[pd.DataFrame, list[str]]:
+    """The rows to audit and notes, after checking that the target holds class labels.
+
+    * ``min_class_rows``: rows of classes with fewer rows are dropped, with a note naming them.
+    * A target with a class of one row and more than :data:`CONTINUOUS_DISTINCT` distinct values,
+      most of them alone in their class or non-whole numbers, looks continuous (a measurement or
+      an identifier): DataError saying so and naming columns that look like class labels.
+    * A class with fewer than two rows beside larger ones: DataError naming them and the fixes.
+
+    Returns
+    -------
+    (DataFrame, list of str)
+        The frame (rows dropped when asked) and the notes for the report.
+    """
+    labels = frame[target]
+    counts = labels.value_counts(dropna=True)
+    notes: list[str] = []
+    if min_class_rows is not None and min_class_rows > 1:
+        small = counts[counts < min_class_rows]
+        if len(small):
+            frame = frame[~labels.isin(small.index)]
+            notes.append(
+                f"--min-class-rows {min_class_rows}: dropped {len(small)} class{'es' if len(small) > 1 else ''} with "
+                f"fewer rows ({_counted(small)}), {int(small.sum())} rows in all."
+            )
+            counts = counts[counts >= min_class_rows]
+    singles = counts[counts < 2]
+    non_whole = pd.api.types.is_float_dtype(labels.dtype) and bool(((labels.dropna() % 1) != 0).any())
+    # Only when the audit could not run anyway (a class of one row), so streamed and in-memory reading agree.
+    if len(singles) and len(counts) > CONTINUOUS_DISTINCT and (len(singles) > len(counts) / 2 or non_whole):
+        kind = "non-whole numbers" if non_whole else "values"
+        raise DataError(
+            f"{path}: target column {target!r} has {len(counts)} distinct {kind} in {int(counts.sum())} rows, "
+            f"{len(singles)} of them on one row only: it looks like a measurement or an identifier, not a class "
+            f"label.{_class_like(frame, target)}"
+        )
+    if len(singles) and len(counts) >= 2:
+        big = counts.index[0]
+        raise DataError(
+            f"{path}: target column {target!r}: class{'es' if len(singles) > 1 else ''} {_counted(singles)} "
+            f"{'have' if len(singles) > 1 else 'has'} fewer than two rows beside {big!r} ({int(counts.iloc[0])} rows); "
+            "merge them into a larger class, or drop them with --min-class-rows 2."
+        )
+    return frame, notes
+
+
+def _counted(counts: pd.Series, limit: int = 5) -> str:
+    shown = ", ".join(f"{k!r} ({int(v)} row{'s' if v != 1 else ''})" for k, v in list(counts.items())[:limit])
+    return shown + (f" and {len(counts) - limit} more" if len(counts) > limit else "")
+
+
+def _class_like(frame: pd.DataFrame, target: str) -> str:
+    """Columns that look like class labels: 2 to 20 distinct values, each on two rows or more."""
+    found = []
+    for column in frame.columns:
+        if column == target:
+            continue
+        counts = frame[column].value_counts(dropna=True)
+        if 2 <= len(counts) <= _CLASS_LIKE_MAX and counts.min() >= 2:
+            found.append(f"{column!r} ({len(counts)} values)")
+    if not found:
+        return " Pass the column of class labels as --target."
+    return f" Columns that look like class labels: {', '.join(found[:3])}; pass one of them as --target."
+
+
+def no_data_rows(path: str | os.PathLike[str]) -> DataError:
+    """The error for a file holding only a header (for readers other than pandas)."""
+    return DataError(f"no data rows in {path} (only a header); an audit needs labelled rows.")

@@ -51,7 +51,8 @@ from discaudit.jsonable import label
 from discaudit.sources.screening import check_magnitude, choose_coordinates, column_range, distinct_values
 from discaudit.stats._inputs import ordered_unique
 from discaudit.stats.moments import ClassMoments
-from discaudit.stats.seeds import WHAT_IF_SAMPLE, stream_rng
+from discaudit.stats.row_keys import row_keys
+from discaudit.stats.seeds import WHAT_IF_SAMPLE
 from discaudit.stats.yeo_johnson import yeo_johnson, yeo_johnson_lambda
 
 FloatArray = npt.NDArray[np.float64]
@@ -899,6 +900,8 @@ def apply(
         Naming the column, class or row that cannot be changed, and one fix.
     """
     records: list[dict[str, Any]] = []
+    # Changed data are new data: nothing a check shared on the old (robust fits, say) may carry over.
+    data = dataclasses.replace(data, memo={})
     if rows_per_class is not None:
         data = _cap_rows(data, rows_per_class, random_state)
     if change.drop_rows:
@@ -928,16 +931,21 @@ def _cap_rows(data: AuditData, rows_per_class: int, random_state: int | None) ->
     """Hold at most ``rows_per_class`` rows per class (seeded, in row order); moments and row pass unchanged."""
     positions = []
     capped = False
+    seed = 0 if random_state is None else int(random_state)
+    origin = data.values.min(axis=0) if data.n else None
     for k in range(len(data.classes)):
         rows = data.class_rows(k)
         if rows.size > rows_per_class:
-            rows = np.sort(stream_rng(random_state, WHAT_IF_SAMPLE, k).choice(rows, rows_per_class, replace=False))
+            # The rows with the smallest seeded content keys: the same rows whatever their order or class names.
+            keys = row_keys(np.take(data.values, rows, axis=0), seed, WHAT_IF_SAMPLE, origin)
+            rows = np.sort(rows[np.argsort(keys, kind="stable")[:rows_per_class]])
             capped = True
         positions.append(rows)
     if not capped:
         return data
     idx = np.sort(np.concatenate(positions))
     codes = data.codes[idx]
+    data = dataclasses.replace(data, memo={})
     per_class = {c: int((codes == k).sum()) for k, c in enumerate(data.classes)}
     sample = SampleInfo(
         n_total=data.moments.n_total,
@@ -977,6 +985,7 @@ def subsample(data: AuditData, rows_per_class: int, random_state: int | None) ->
     record = dataclasses.replace(capped.record, n_rows_input=capped.n)
     return dataclasses.replace(
         capped,
+        memo={},
         moments=moments,
         record=record,
         sample=None,

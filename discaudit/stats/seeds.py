@@ -15,7 +15,9 @@ salt                value  stream
 ``LABEL_UNIFY``       7   merging classes whose labels arrived as text and as numbers
 ``LOGISTIC_CV``       8   row keys of the logistic subsample and folds (no key)
 ``PERFORMANCE_ROWS``  9   row keys of the rows scored by leave-one-out on large inputs
-``WHAT_IF_SAMPLE``    10  rows kept per class when a what-if caps the rows (key: class code)
+``ENGINE_SAMPLE``    10   the hash seed of a per-class sample drawn inside an engine (no key)
+``CANONICAL``        11   content keys of the canonical row and class order (seed fixed at 0)
+``WHAT_IF_SAMPLE``    12  row keys of the rows a what-if keeps per class when it caps them (no key)
 ==================  ====  ========================================================
 
 ``PARTITION_MERGE`` and ``OUTLIERS`` share a value but never a stream: the first always carries
@@ -24,6 +26,8 @@ The values are kept as they were when verdicts were first published, so old seed
 """
 
 from __future__ import annotations
+
+from collections.abc import Sequence
 
 import numpy as np
 
@@ -35,7 +39,9 @@ NORMALITY = 4
 LABEL_UNIFY = 7
 LOGISTIC_CV = 8
 PERFORMANCE_ROWS = 9
-WHAT_IF_SAMPLE = 10
+ENGINE_SAMPLE = 10
+CANONICAL = 11
+WHAT_IF_SAMPLE = 12
 
 
 def _entropy(random_state: int | None, salt: int, key: tuple[int, ...]) -> list[int] | None:
@@ -47,7 +53,18 @@ def stream_rng(random_state: int | None, salt: int, *key: int) -> np.random.Gene
     return np.random.default_rng(np.random.SeedSequence(_entropy(random_state, salt, key)))
 
 
-def class_seeds(random_state: int | None, n_classes: int, salt: int) -> list[int]:
-    """One integer seed per class for the step named by ``salt`` (``SeedSequence`` spawning)."""
+def class_seeds(random_state: int | None, n_classes: int, salt: int, ranks: Sequence[int] | None = None) -> list[int]:
+    """One integer seed per class for the step named by ``salt`` (``SeedSequence`` spawning).
+
+    ``ranks`` gives each class's place in a canonical order that does not depend on the class
+    labels (:func:`discaudit.stats.canonical.canonical_ranks`): class k gets the seed of child
+    ``ranks[k]``, so renaming or reordering the labels hands every class the same seed. Without
+    it the seeds follow the class codes.
+    """
     base = np.random.SeedSequence(_entropy(random_state, salt, ()))
-    return [int(child.generate_state(1)[0]) for child in base.spawn(n_classes)]
+    children = [int(child.generate_state(1)[0]) for child in base.spawn(n_classes)]
+    if ranks is None:
+        return children
+    if sorted(ranks) != list(range(n_classes)):
+        raise ValueError(f"ranks must be a permutation of 0..{n_classes - 1}; got {list(ranks)}")
+    return [children[r] for r in ranks]

@@ -94,11 +94,14 @@ def _log_likelihood(x: FloatArray, codes: npt.NDArray[np.intp] | None, jacobian:
         return -_PENALTY
     if codes is None:
         resid = t - t.mean()
+        var = float(np.mean(resid * resid))
     else:
+        # Per-class sums (each in the rows' sorted order), added in sorted order: no sum depends on how
+        # the classes are numbered or the rows ordered.
         sums = np.bincount(codes, weights=t)
         counts = np.bincount(codes)
         resid = t - (sums / np.maximum(counts, 1))[codes]
-    var = float(np.mean(resid * resid))
+        var = float(np.sort(np.bincount(codes, weights=resid * resid)).sum() / x.size)
     if not 0 < var < np.inf:
         return -_PENALTY
     return float(-0.5 * x.size * np.log(var) + (lmbda - 1.0) * jacobian)
@@ -141,6 +144,11 @@ def yeo_johnson_lambda(x: npt.ArrayLike, codes: npt.ArrayLike | None = None) -> 
     c = None if codes is None else np.asarray(codes, dtype=np.intp).ravel()
     if c is not None and c.size != values.size:
         raise DataError(f"codes has {c.size} entries for {values.size} values; they must match.")
+    # Sums in a canonical order (by value): the exponent, an optimizer's output that rounding moves in its
+    # eighth digit, is then the same whatever the order of the rows and the numbering of the classes.
+    order = np.argsort(values, kind="stable")
+    values = values[order]
+    c = None if c is None else c[order]
     jacobian = float(np.sum(np.sign(values) * np.log1p(np.abs(values))))
     if not _log_likelihood(values, c, jacobian, 1.0) > -_PENALTY:
         raise DataError("The values do not vary, so no Yeo-Johnson exponent can be estimated.")
