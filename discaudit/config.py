@@ -269,8 +269,9 @@ class Config:
     )
     remedy_effects: str = _threshold(
         "statuses",
-        "What a remedy's predicted effect holds: 'statuses' (the statuses of the checks the change can move) or "
-        "'performance' (also the expected_performance check recomputed on the changed data: the accuracy of the "
+        "What a remedy's predicted effect holds: 'statuses' (the statuses of the cheap checks the change can move; "
+        "the covariance check, whose model fits iterate, is left to Verdict.what_if) or 'performance' (also the "
+        "covariance check and the expected_performance check recomputed on the changed data: the accuracy of the "
         "recommended model and whether the recommendation changes).",
         "design choice: 'statuses' by default because each recomputation costs about as much as the audit's own "
         "expected_performance check, most of an audit below 10,000 rows; Verdict.what_if and --what-if always "

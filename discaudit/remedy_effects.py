@@ -5,8 +5,9 @@ here each of the first ``Config.remedy_candidates`` proposals is applied to the 
 what-if source (:func:`discaudit.sources.what_if.apply`, moments updated exactly) and judged by the
 same checks:
 
-* the checks that read the moments only (:data:`MOMENT_CHECKS`) always: exact, and cheap (no pass
-  over the rows);
+* the checks that read the moments only (:data:`MOMENT_CHECKS`) always, exact, without a pass over
+  the rows; but the costly ones (:data:`COSTLY_MOMENT_CHECKS`, the covariance check) only with
+  ``Config.remedy_effects = "performance"``;
 * the check that reads rows and that the remedy addresses (outliers for removing rows, normality for a
   transform) when every class holds at most ``Config.remedy_rows_per_class`` rows (at least twice the
   rows a robust fit needs): then on every row, exactly. It costs about what it costs in the audit, so on
@@ -51,6 +52,10 @@ MOMENT_CHECKS = (
     "discriminant_signal",
 )
 PERFORMANCE = "expected_performance"
+#: Moment-based checks too costly to re-run for every remedy by default: the covariance check fits
+#: Flury's hierarchy (iterated common principal components), about an eighth of an audit's time at
+#: p = 10 to 30; re-run with ``Config.remedy_effects = "performance"``, else left to the what-if.
+COSTLY_MOMENT_CHECKS = ("covariance_homogeneity",)
 
 RunCheck = Callable[[str, "checks.CheckFunction", AuditData, "Config", "int | None"], Finding]
 
@@ -107,7 +112,7 @@ def evaluate(
         except (DataError, ValueError, ArithmeticError, np.linalg.LinAlgError):
             continue  # a change the data do not allow (e.g. it would empty a class) is not a remedy
         on = [k for k in registry if config.severity_of(k) != "off"]
-        keys = [k for k in on if k in MOMENT_CHECKS]
+        keys = [k for k in on if k in MOMENT_CHECKS and (performance or k not in COSTLY_MOMENT_CHECKS)]
         # The row-reading check a remedy addresses costs about as much as in the audit: run it while every
         # class is small enough to be held whole (then it is exact), else leave it to the what-if.
         keys += [k for k in on if k in proposal.row_checks and not large]
