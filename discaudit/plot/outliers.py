@@ -206,13 +206,13 @@ def draw(verdict: Any, ax: Axes) -> None:
     ax.set_xlim(*xlim)
     ax.set_ylim(*ylim)
     _finish_distance_axes(ax, log, all(_robust(verdict, name) for _, name, _ in groups))
-    place_labels(ax, requests)
     handles, _ = ax.get_legend_handles_labels()
     ax.legend(handles=handles + _legend_handles(True), fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0),
               borderaxespad=0.0)  # fmt: skip
     total = int(np.asarray(_arrays(verdict)["flagged"], dtype=bool).sum())
     shown = f"; {COMBINED_LABEL_CAP} farthest per class labelled" if total > len(requests) else ""
     c.status_title(ax, f"Outliers: robust vs classical distance ({total} flagged{shown})", verdict, KEY)
+    place_labels(ax, requests)  # last: the layout that spaces the labels is the final one
 
 
 def draw_qq(verdict: Any, ax: Axes, ylim: tuple[float, float] | None = None, log: bool | None = None) -> None:
@@ -289,8 +289,9 @@ def draw_figure(verdict: Any) -> Figure:
     groups = c.class_groups(verdict, _arrays(verdict)["class"])
     if len(groups) > MAX_CLASS_PANELS:
         fig, axes = c.new_figure(2)
-        draw(verdict, axes[0])
         draw_qq(verdict, axes[1])
+        draw(verdict, axes[0])  # after the other panel, so its labels are spaced in the final layout
+        fig.set_layout_engine("none")
         return fig
     fig, axes = c.new_figure(len(groups) + 1, ncols=3 if len(groups) >= 3 else 2)
     every = np.arange(len(_arrays(verdict)["squared_distance"]))
@@ -314,4 +315,5 @@ def draw_figure(verdict: Any) -> Figure:
         engine.execute(fig)  # once, so that label spacing uses the final panel sizes
     for ax, requests in pending:
         place_labels(ax, requests, layout=False)
+    fig.set_layout_engine("none")  # keep the panels where the labels were placed apart
     return fig
