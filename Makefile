@@ -61,9 +61,11 @@ validate: $(STAMP)
 	$(PY) benchmarks/validation/study.py
 
 # Speed and memory of the audit against its peers (benchmarks/README.md); writes benchmarks/RESULTS.md.
-# Not part of `make test`. The MCD-only benchmark is `$(PY) benchmarks/bench_mcd.py`.
+# Not part of `make test`. The MCD-only benchmark is `$(PY) benchmarks/bench_mcd.py`. bench_engines.py: a
+# 20-million-row Parquet file through DuckDB, pyarrow and the pandas-batch chunked path, and a local Spark run.
 bench: $(STAMP)
 	$(PY) benchmarks/bench_preflight.py
+	$(PY) benchmarks/bench_engines.py
 
 clean:
 	rm -rf $(VENV) build dist *.egg-info .pytest_cache

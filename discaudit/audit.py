@@ -15,7 +15,7 @@ from discaudit import checks
 from discaudit._threads import one_blas_thread, recorded_warnings
 from discaudit.config import Config
 from discaudit.dataset import AuditData
-from discaudit.decision import recommend
+from discaudit.decision import recommend, with_gate
 from discaudit.decision.baseline import class_moments_record
 from discaudit.decision.gate import gate_status, judge
 from discaudit.findings import Finding, skipped
@@ -99,7 +99,9 @@ def _assemble(
     """Findings -> recommendation, gate status and metadata: the one place a verdict is built."""
     meta = _meta(data, config, random_state)
     recommendation = recommend(findings, config)
-    return Verdict(findings, recommendation, gate_status(findings, config), meta, timings, judge(findings, config))
+    gate = judge(findings, config)
+    recommendation = with_gate(recommendation, gate, findings, config)
+    return Verdict(findings, recommendation, gate_status(findings, config), meta, timings, gate)
 
 
 def _run_check(

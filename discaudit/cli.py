@@ -40,16 +40,13 @@ from discaudit.verdict import Verdict
 __all__ = ["FORMATS", "build_parser", "main", "read_table"]
 from discaudit.sources.files import (
     check_csv_layout,
-    choose_columns,
     csv_line,
-    file_chunks,
-    file_columns,
     kind,
     kind_name,
     read_table,
     screen_labels,
 )
-from discaudit.stream import preflight_chunks
+from discaudit.stream import preflight_file, preflight_sql
 
 #: A renderer turns a finished (gated) verdict into report text.
 Renderer = Callable[[Verdict], str]
@@ -90,6 +87,8 @@ examples:
   discaudit check data.parquet --target label --format json --output audit.json
   discaudit check data.csv.gz --target label --exclude batch,operator --fail-on warn
   discaudit check data.csv --target label --format junit --output discaudit.xml --config ci/discaudit.toml
+  discaudit check big.parquet --target label --stream
+  discaudit check --sql "SELECT * FROM 'data/*.parquet' WHERE year = 2024" --target label
 
 exit status:
   0  the data are fit for --model (without it: usable, and fit for at least one candidate) and,
@@ -150,7 +149,12 @@ def build_parser() -> argparse.ArgumentParser:
         epilog=EPILOG,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    check.add_argument("data", metavar="DATA", help="data file: .csv, .csv.gz, .parquet or .pq")
+    check.add_argument("data", metavar="DATA", nargs="?", help="data file: .csv, .csv.gz, .parquet or .pq")
+    check.add_argument(
+        "--sql",
+        metavar="QUERY",
+        help="audit the result of a DuckDB query instead of a file, e.g. \"SELECT * FROM 'data/*.parquet'\"",
+    )
     check.add_argument("--target", required=True, metavar="COL", help="the class column")
     check.add_argument("--features", metavar="A,B,...", help="audit only these columns (comma-separated)")
     check.add_argument("--exclude", metavar="A,B,...", help="leave these columns out (comma-separated)")
@@ -209,6 +213,13 @@ def build_parser() -> argparse.ArgumentParser:
         help="read the file in batches with bounded memory (automatic for files larger than a quarter of RAM)",
     )
     check.add_argument("--batch-rows", type=int, default=200_000, metavar="N", help="rows per batch when streaming")
+    check.add_argument(
+        "--reader",
+        choices=("auto", "duckdb", "arrow"),
+        default="auto",
+        help="how --stream reads the file: DuckDB (all cores), pyarrow's batch readers, or auto (DuckDB when "
+        "installed); naming a reader implies --stream",
+    )
     check.set_defaults(run=run_check)
     return parser
 
@@ -234,6 +245,8 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 def run_check(args: argparse.Namespace) -> int:
     """The ``check`` subcommand: read, audit, compare with a baseline, report, gate."""
+    if args.data is None and args.sql is None:
+        return _error("give a data file, or a query with --sql (see 'discaudit check --help')")
     stage = "reading the settings"
     where = args.config or "settings"
     try:
@@ -252,8 +265,12 @@ def run_check(args: argparse.Namespace) -> int:
         if args.baseline:
             stage, where = "reading the baseline", args.baseline
             accepted = baseline.load_baseline(args.baseline)
-        stage, where = "reading the data", args.data
-        if args.stream or _larger_than_memory_share(Path(args.data)):
+        stage, where = "reading the data", args.data or "--sql query"
+        if args.sql is not None:
+            if args.min_class_rows is not None:
+                raise DataError("--min-class-rows needs the whole file in memory; it cannot be used with --sql.")
+            verdict = _sql_audit(args, config)
+        elif args.stream or args.reader != "auto" or _larger_than_memory_share(Path(args.data)):
             if args.min_class_rows is not None:
                 raise DataError("--min-class-rows needs the whole file in memory; it cannot be used with --stream.")
             verdict = _stream_audit(args, config)  # reads while it audits: parse errors count as reading
@@ -297,7 +314,8 @@ def run_check(args: argparse.Namespace) -> int:
         return _error(f"{getattr(exc, 'filename', None) or where}: {exc.strerror or exc} while {stage}.")
     except Exception as exc:
         if stage == "reading the data":  # pandas and pyarrow parse errors
-            return _error(f"{where}: cannot be read as {kind_name(args.data)}: {_first_line(exc)}")
+            what = kind_name(args.data) if args.data else "a query result"
+            return _error(f"{where}: cannot be read as {what}: {_first_line(exc)}")
         if stage == "reading the baseline" and isinstance(exc, UnicodeDecodeError):
             return _error(f"{where}: not a JSON report (the file is not UTF-8 text).")
         return _error(
@@ -325,7 +343,7 @@ def _in_memory_audit(args: argparse.Namespace, config: Config) -> Verdict:
 
 
 def _stream_audit(args: argparse.Namespace, config: Config) -> Verdict:
-    """Two bounded-memory passes over the file (see :mod:`discaudit.stream`)."""
+    """The file audited where it lies: through DuckDB, or pyarrow's batch readers (see :mod:`discaudit.stream`)."""
     path = Path(args.data)
     if not path.exists():
         raise FileNotFoundError(2, "No such file or directory", str(path))
@@ -333,24 +351,28 @@ def _stream_audit(args: argparse.Namespace, config: Config) -> Verdict:
         raise DataError("--batch-rows must be a positive number of rows.")
     if kind(path) == "csv":
         check_csv_layout(path)
-    columns, stored_index = file_columns(path)
-    chosen = choose_columns(
-        columns,
-        args.target,
-        _names(args.features),
-        _names(args.exclude) or (),
-        args.index_col,
-        index_names=stored_index,
-    )
-    source = file_chunks(path, batch_rows=args.batch_rows, index_col=args.index_col, columns=[*chosen, args.target])
-    with Progress(f"streaming {path.name}", unit="rows") as bar:
-        done = [0]
+    with Progress(f"streaming {path.name}"):
+        return preflight_file(
+            path,
+            args.target,
+            features=_names(args.features),
+            exclude=_names(args.exclude) or (),
+            index_col=args.index_col,
+            reader=args.reader,
+            batch_rows=args.batch_rows,
+            config=config,
+            random_state=args.seed,
+        )
 
-        def advance(rows: int) -> None:
-            done[0] += rows
-            bar.update(done[0])
 
-        return preflight_chunks(source, args.target, config=config, random_state=args.seed, progress=advance)
+def _sql_audit(args: argparse.Namespace, config: Config) -> Verdict:
+    """``--sql QUERY``: the query's result audited inside DuckDB."""
+    if args.data is not None:
+        raise DataError("give either a data file or --sql, not both")
+    if args.features or args.exclude:
+        raise DataError("--features and --exclude do not apply to --sql; choose the columns in the query")
+    with Progress("auditing the --sql query"):
+        return preflight_sql(args.sql, args.target, index_col=args.index_col, config=config, random_state=args.seed)
 
 
 def _write_file(path: Path, text: str) -> None:
@@ -366,7 +388,7 @@ def _write_file(path: Path, text: str) -> None:
 
 def _lines_of(exc: DataError, args: argparse.Namespace, stage: str) -> str:
     """For an error about rows of a CSV file read without --index-col: the line the first is on."""
-    if stage != "reading the data" or args.index_col is not None or not exc.rows:
+    if stage != "reading the data" or args.data is None or args.index_col is not None or not exc.rows:
         return ""
     first = exc.rows[0]
     if not isinstance(first, int):

@@ -267,6 +267,11 @@ def _model_failures(model: str, findings: Mapping[str, Finding], config: Config)
     return _check_failures(model, findings, config) + _estimability(model, findings, config)
 
 
+def unmet_assumptions(model: str, findings: Mapping[str, Finding], config: Config) -> list[str]:
+    """The checks that would fail a gate for ``model`` (its own assumptions), in table order."""
+    return _checks_of(_model_failures(model, findings, config))
+
+
 def _checks_of(failures: list[_Failure]) -> list[str]:
     return list(dict.fromkeys(f.check for f in failures))
 

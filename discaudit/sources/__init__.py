@@ -9,6 +9,10 @@ module                 input
 ``memory``             pandas DataFrame with a target column; X (frame or array) and y
 ``chunks``             an iterable of DataFrames, or a function returning a fresh one
 ``dask``               a Dask DataFrame (summarized on the workers)
+``frames``             Polars DataFrames, PyArrow tables, other eager frames (via narwhals)
+``engines``            lazy frames where they live: Polars LazyFrames, DuckDB relations,
+                       Spark DataFrames (``spark``), Ibis tables (via narwhals)
+``duck``               DuckDB (or pyarrow) readers for big files and SQL queries
 ``files``              CSV and Parquet files: whole, or in batches for ``chunks``
 =====================  =================================================================
 
@@ -23,11 +27,27 @@ from typing import Any
 
 from discaudit.config import Config
 from discaudit.dataset import AuditData
+from discaudit.errors import DataError
 
 
 def _is_dask_frame(X: Any) -> bool:
     frames = sys.modules.get("dask.dataframe")  # a Dask frame exists only once its package is imported
     return frames is not None and isinstance(X, frames.DataFrame)
+
+
+def _is_lazy_frame(X: Any) -> bool:
+    """A lazy frame narwhals knows (Polars LazyFrame, DuckDB relation, Spark, Ibis), by type only."""
+    from narwhals import dependencies as nwd
+
+    kinds = (
+        nwd.is_polars_lazyframe,
+        nwd.is_duckdb_relation,
+        nwd.is_pyspark_dataframe,
+        nwd.is_pyspark_connect_dataframe,
+        nwd.is_sqlframe_dataframe,
+        nwd.is_ibis_table,
+    )
+    return any(is_kind(X) for is_kind in kinds)
 
 
 def open_source(
@@ -38,6 +58,18 @@ def open_source(
         from discaudit.sources.dask import load_dask
 
         return load_dask(X, target=target, config=config, random_state=random_state)
+    if _is_lazy_frame(X):
+        from discaudit.sources.engines import load_lazy
+
+        if y is not None:
+            raise DataError(f"A lazy {type(X).__name__} needs target='<column>' naming its class column, not y.")
+        return load_lazy(X, target=target, config=config, random_state=random_state)
+    from discaudit.sources.frames import is_eager_frame
+
+    if is_eager_frame(X):
+        from discaudit.sources.frames import load_frame
+
+        return load_frame(X, y, target=target, config=config, random_state=random_state)
     from discaudit.sources.memory import load
 
     return load(X, y, target=target, config=config)

@@ -144,23 +144,57 @@ def summarize(
     columns = frame_columns(frame)
     if coordinates is None:
         coordinates = choose_coordinates([exact_range(c) for c in columns])
-    values = audit_values(columns, coordinates)
-    screen = screen_missing(values, labels, frame.index)
+    return summarize_values(
+        audit_values(columns, coordinates),
+        labels,
+        tuple(str(c) for c in frame.columns),
+        config,
+        capacity,
+        rng,
+        coordinates=coordinates,
+        non_numeric=tuple(non_numeric),
+        n_features_input=n_features_input,
+        conversions=conversions,
+    )
+
+
+def summarize_values(
+    values: FloatArray,
+    labels: pd.Series,
+    features: tuple[str, ...],
+    config: Config,
+    capacity: int,
+    rng: np.random.Generator,
+    *,
+    coordinates: Coordinates,
+    non_numeric: tuple[str, ...] = (),
+    n_features_input: int | None = None,
+    conversions: dict[str, str] | None = None,
+) -> ChunkSummary:
+    """Summarize rows already read as a float array in the audit's ``coordinates``
+    (``labels`` indexed by the rows' labels).
+
+    What :func:`summarize` does once it has split and converted a pandas chunk; sources that read
+    columns straight into arrays (Arrow batches, Polars frames) call it without building a DataFrame.
+    """
+    index = labels.index
+    screen = screen_missing(values, labels, index)
     dropped = labels[screen.bad_rows & ~screen.missing_label].value_counts().to_dict()
     keep = screen.keep
-    values, labels, index = values[keep], labels[keep], frame.index[keep]
+    n_rows_input = values.shape[0]
+    values, labels, kept_index = values[keep], labels[keep], index[keep]
     codes, class_list = label_codes(labels)
     classes = tuple(class_list)
     col_min, col_max = column_range(values)
-    check_magnitude(np.maximum(-col_min, col_max), list(frame.columns))  # before any square is formed
+    check_magnitude(np.maximum(-col_min, col_max), list(features))  # before any square is formed
     moments = ClassMoments.from_arrays(values, codes, classes)
-    row_labels = np.asarray(index, dtype=object)
+    row_labels = np.asarray(kept_index, dtype=object)
     reservoirs = {
         c: Reservoir.of(values[codes == k], row_labels[codes == k], capacity, rng) for k, c in enumerate(classes)
     }
     limit = config.few_distinct_values
     return ChunkSummary(
-        features=tuple(str(c) for c in frame.columns),
+        features=features,
         moments=moments,
         reservoirs=reservoirs,
         col_min=col_min,
@@ -169,16 +203,16 @@ def summarize(
         missing_per_column=screen.missing_per_column,
         first_missing_row=screen.first_bad_row,
         missing_labels=int(screen.missing_label.sum()),
-        missing_label_rows=tuple(label(r) for r in frame.index[screen.missing_label][:5]),
+        missing_label_rows=tuple(label(r) for r in index[screen.missing_label][:5]),
         dropped_per_class={label(k): int(v) for k, v in dropped.items()},
-        non_numeric=tuple(non_numeric),
+        non_numeric=non_numeric,
         same_as=identical_columns(values),
-        n_rows_input=len(chunk),
-        n_features_input=n_features_input,
+        n_rows_input=n_rows_input,
+        n_features_input=len(features) if n_features_input is None else n_features_input,
         capacity=capacity,
         distinct_limit=limit,
         coordinates=coordinates,
-        conversions=conversions,
+        conversions=dict(conversions or {}),
     )
 
 
@@ -375,15 +409,19 @@ class BlockSpec:
             frame = numeric_columns(frame, self.config)[0]
         columns = frame_columns(frame)
         values = audit_values(columns, self.coordinates or Coordinates.plain(len(columns)))
-        labels = chunk[self.target]
-        screen = screen_missing(values, labels, chunk.index)
+        return self.block_values(values, chunk[self.target])
+
+    def block_values(self, values: FloatArray, labels: pd.Series) -> RowBlock:
+        """The same for rows already read as floats in the audit's coordinates, in ``columns``
+        order (labels indexed by row label)."""
+        screen = screen_missing(values, labels, labels.index)
         raw = labels.to_numpy(dtype=object)
         codes = np.array(
             [self.codes.get(str(v) if self.text_labels else v, -1) if ok else -1 for v, ok in zip(raw, screen.keep)],
             dtype=np.intp,
         )
         rows = np.flatnonzero(codes >= 0)
-        return RowBlock(np.ascontiguousarray(values[np.ix_(rows, self.kept)]), codes[rows], chunk.index[rows])
+        return RowBlock(np.ascontiguousarray(values[np.ix_(rows, self.kept)]), codes[rows], labels.index[rows])
 
 
 def block_spec(summary: ChunkSummary, data: AuditData, target: str, config: Config | None = None) -> BlockSpec:

@@ -518,3 +518,8 @@ def _class_like(frame: pd.DataFrame, target: str) -> str:
     if not found:
         return " Pass the column of class labels as --target."
     return f" Columns that look like class labels: {', '.join(found[:3])}; pass one of them as --target."
+
+
+def no_data_rows(path: str | os.PathLike[str]) -> DataError:
+    """The error for a file holding only a header (for readers other than pandas)."""
+    return DataError(f"no data rows in {path} (only a header); an audit needs labelled rows.")

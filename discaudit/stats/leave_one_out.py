@@ -190,18 +190,18 @@ class LeaveOneOutResult:
 
         None when no QDA setting was scored.
         """
-        idx = [i for i, m in enumerate(self.models) if m == "qda"]
-        if not idx:
-            return None
-        values = self.log_loss[idx] if _check_metric(metric) == "log_loss" else -self.accuracy[idx]
-        return self.settings[idx[int(np.argmin(values))]]
+        return self._best_setting("qda", metric)
 
     def best_shrinkage(self, metric: Metric = "log_loss") -> float | None:
         """Regularized LDA's shrinkage with the lowest leave-one-out log-loss (or highest accuracy); first of ties.
 
         None when no shrinkage value was scored.
         """
-        idx = [i for i, m in enumerate(self.models) if m == "regularized_lda"]
+        return self._best_setting("regularized_lda", metric)
+
+    def _best_setting(self, model: str, metric: Metric) -> float | None:
+        """The setting of ``model`` with the lowest log-loss (or highest accuracy); first of ties."""
+        idx = [i for i, m in enumerate(self.models) if m == model]
         if not idx:
             return None
         values = self.log_loss[idx] if _check_metric(metric) == "log_loss" else -self.accuracy[idx]

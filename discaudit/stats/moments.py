@@ -107,6 +107,20 @@ class ClassMoments:
         scatter -= residual[:, :, None] * residual[:, None, :] / np.maximum(counts, 1)[:, None, None]
         return cls(tuple(classes), counts, means, (scatter + scatter.transpose(0, 2, 1)) / 2.0, low, high)._exact()
 
+    @classmethod
+    def from_summaries(
+        cls,
+        classes: tuple[Any, ...],
+        counts: npt.NDArray[np.int64],
+        means: FloatArray,
+        scatter: FloatArray,
+        minimum: FloatArray,
+        maximum: FloatArray,
+    ) -> ClassMoments:
+        """Moments computed elsewhere (e.g. inside a database engine), with the exact facts of
+        constant features imposed as :meth:`from_arrays` imposes them."""
+        return cls(tuple(classes), counts, means, scatter, minimum, maximum)._exact()
+
     def _exact(self) -> ClassMoments:
         """The same moments with the exact facts imposed where a feature is constant in a class.
 

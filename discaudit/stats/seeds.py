@@ -15,7 +15,8 @@ salt                value  stream
 ``LABEL_UNIFY``       7   merging classes whose labels arrived as text and as numbers
 ``LOGISTIC_CV``       8   row keys of the logistic subsample and folds (no key)
 ``PERFORMANCE_ROWS``  9   row keys of the rows scored by leave-one-out on large inputs
-``CANONICAL``        10   content keys of the canonical row and class order (seed fixed at 0)
+``ENGINE_SAMPLE``    10   the hash seed of a per-class sample drawn inside an engine (no key)
+``CANONICAL``        11   content keys of the canonical row and class order (seed fixed at 0)
 ==================  ====  ========================================================
 
 ``PARTITION_MERGE`` and ``OUTLIERS`` share a value but never a stream: the first always carries
@@ -37,7 +38,8 @@ NORMALITY = 4
 LABEL_UNIFY = 7
 LOGISTIC_CV = 8
 PERFORMANCE_ROWS = 9
-CANONICAL = 10
+ENGINE_SAMPLE = 10
+CANONICAL = 11
 
 
 def _entropy(random_state: int | None, salt: int, key: tuple[int, ...]) -> list[int] | None:
