@@ -35,7 +35,7 @@ def _report(argv: list[str], out) -> dict:
 def _flagged(report: dict) -> dict:
     """Flagged rows listed per class (row label, robust distance to 1e-9)."""
     return {
-        c: [(r["row"], round(r["distance"], 6)) for r in d["flagged_rows"]]
+        c: [(r["row"], round(r["squared_distance"], 6)) for r in d["flagged_rows"]]
         for c, d in report["findings"]["outliers"]["details"]["per_class"].items()
     }
 

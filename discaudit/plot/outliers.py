@@ -18,6 +18,7 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
+from matplotlib.artist import Artist
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
@@ -185,7 +186,7 @@ def _log_for(verdict: Any, rows: np.ndarray) -> bool:
     return c.use_log(y, float(cuts.min()) if cuts.size else 1.0, LOG_FACTOR)
 
 
-def _legend_handles(robust_any: bool) -> list[Line2D]:
+def _legend_handles(robust_any: bool) -> list[Artist]:
     return [
         Line2D([], [], color=c.GREY, linestyle="--", label="Gaussian cut-off (per class)"),
         Line2D([], [], color=c.GREY, linestyle="-.", label="far-out fence (per class)"),
