@@ -427,13 +427,27 @@ def test_legends_sit_outside_the_axes(demo, check):
     ]
 
 
-def test_flagged_row_labels_do_not_overlap(demo, outlier_figure):
-    renderer = _renderer(outlier_figure)
-    for ax in outlier_figure.axes:
-        boxes = [t.get_window_extent(renderer) for t in _gids(ax, "flag-label:")]
+@pytest.mark.parametrize("data", ["demo", "breast_cancer", "digits"])
+def test_flagged_row_labels_do_not_overlap(demo, data):
+    # the demo, and two open data sets with many flagged rows (digits: ten classes on one panel)
+    from matplotlib.text import Text
+    from sklearn.datasets import load_breast_cancer, load_digits
+
+    if data == "demo":
+        verdict = demo
+    else:
+        X, y = (load_breast_cancer if data == "breast_cancer" else load_digits)(return_X_y=True)
+        verdict = discaudit.preflight(X, y, random_state=0)
+    fig = plot_verdict(verdict, "outliers")
+    renderer = _renderer(fig)
+    labelled = 0
+    for ax in fig.axes:
+        boxes = [Text.get_window_extent(t, renderer) for t in _gids(ax, "flag-label:")]  # the text, not its leader
+        labelled += len(boxes)
         for i, a in enumerate(boxes):
             for b in boxes[i + 1 :]:
                 assert not a.overlaps(b), ax.get_title(loc="left")
+    assert labelled >= 5
 
 
 def test_class_panels_share_one_scale(demo, outlier_figure):

@@ -334,3 +334,18 @@ def test_each_pair_of_axes_is_rotated_to_the_minimum_of_its_two_by_two_problem()
         ref = optimize.minimize_scalar(f, bounds=(x0 - 1e-4, x0 + 1e-4), args=(Tp,), method="bounded",
                                        options={"xatol": 1e-12})  # fmt: skip
         assert f(t, Tp) <= ref.fun + 1e-10 * abs(ref.fun)
+
+
+def test_a_single_feature_has_one_fixed_axis_and_no_cpc_or_proportional_step() -> None:
+    # p = 1: every 1 x 1 covariance is proportional to every other and shares the one axis, so
+    # proportional, CPC and unrelated coincide; the equal-versus-proportional step is Bartlett-like.
+    m = _moments([np.array([[1.0]]), np.array([[4.0]])], [30, 40])
+    fl = flury_hierarchy(m)
+    assert fl.cpc_axes.shape == (1, 1) and abs(fl.cpc_axes[0, 0]) == 1.0
+    assert [s["df"] for s in fl.steps] == [1, 0, 0]
+    assert fl.steps[1]["statistic"] == pytest.approx(0.0, abs=1e-12) and fl.steps[2]["statistic"] == pytest.approx(
+        0.0, abs=1e-12
+    )
+    # numpy: sum_k n_k ln(pooled / s_k) with the n-weighted pooled variance
+    pooled = (30 * 1.0 + 40 * 4.0) / 70
+    assert fl.steps[0]["statistic"] == pytest.approx(30 * np.log(pooled / 1.0) + 40 * np.log(pooled / 4.0))

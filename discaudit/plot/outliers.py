@@ -18,6 +18,7 @@ from __future__ import annotations
 from typing import Any
 
 import numpy as np
+from matplotlib.artist import Artist
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
@@ -191,9 +192,9 @@ def _log_for(verdict: Any, rows: np.ndarray) -> bool:
     return c.use_log(y, float(cuts.min()) if cuts.size else 1.0, LOG_FACTOR)
 
 
-def _legend_handles(robust_any: bool, verdict: Any = None) -> list[Line2D]:
+def _legend_handles(robust_any: bool, verdict: Any = None) -> list[Artist]:
     rank, drop = dropped_rows(verdict) if verdict is not None else (0, set())
-    extra = [
+    extra: list[Artist] = [
         Line2D([], [], marker="o", markerfacecolor="none", markeredgecolor="black", linestyle="none", markersize=9,
                label=f"removed by remedy {rank}")
     ] if drop else []  # fmt: skip
@@ -205,8 +206,11 @@ def _legend_handles(robust_any: bool, verdict: Any = None) -> list[Line2D]:
     ]
 
 
-def draw(verdict: Any, ax: Axes) -> None:
-    """Every class on one axes: robust vs classical distance, cut-offs, fences, labelled flags."""
+def draw(verdict: Any, ax: Axes, legend: bool = True) -> None:
+    """Every class on one axes: robust vs classical distance, cut-offs, fences, labelled flags.
+
+    ``legend=False`` leaves the legend to the caller (one legend under a whole figure).
+    """
     groups = c.class_groups(verdict, _arrays(verdict)["class"])
     every = np.arange(len(_arrays(verdict)["squared_distance"]))
     log = _log_for(verdict, every)
@@ -217,16 +221,20 @@ def draw(verdict: Any, ax: Axes) -> None:
     ax.set_xlim(*xlim)
     ax.set_ylim(*ylim)
     _finish_distance_axes(ax, log, all(_robust(verdict, name) for _, name, _ in groups))
-    place_labels(ax, requests)
-    handles, _ = ax.get_legend_handles_labels()
-    ax.legend(handles=handles + _legend_handles(True, verdict), fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0),
-              borderaxespad=0.0)  # fmt: skip
+    if legend:
+        handles, _ = ax.get_legend_handles_labels()
+        ax.legend(handles=handles + _legend_handles(True, verdict), fontsize=7, loc="upper left",
+                  bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)  # fmt: skip
     total = int(np.asarray(_arrays(verdict)["flagged"], dtype=bool).sum())
     shown = f"; {COMBINED_LABEL_CAP} farthest per class labelled" if total > len(requests) else ""
-    c.status_title(ax, f"Outliers: robust vs classical distance ({total} flagged{shown})", verdict, KEY)
+    kind = "robust" if any(_robust(verdict, name) for _, name, _ in groups) else "classical"
+    c.status_title(ax, f"Outliers: {kind} vs classical distance\n{total} flagged{shown}", verdict, KEY)
+    place_labels(ax, requests)  # last: the layout that spaces the labels is the final one
 
 
-def draw_qq(verdict: Any, ax: Axes, ylim: tuple[float, float] | None = None, log: bool | None = None) -> None:
+def draw_qq(
+    verdict: Any, ax: Axes, ylim: tuple[float, float] | None = None, log: bool | None = None, legend: bool = True
+) -> None:
     """Chi-square Q-Q plot of the robust squared distances, one series per class (its own df).
 
     Classes without usable distances (an exact fit, or no continuous feature) are left out.
@@ -253,12 +261,12 @@ def draw_qq(verdict: Any, ax: Axes, ylim: tuple[float, float] | None = None, log
     line = np.linspace(0.0, top, 200)[1:]  # many points: the line stays straight on a log axis
     ax.plot(line, line, color=c.GREY, linestyle=":", linewidth=0.8, gid="identity", scaley=False)
     dfs = sorted({int(df[rows][0]) for _, name, rows in groups if rows.size and name not in left_out})
-    ax.set_xlabel(
-        f"chi-square quantile (df = features each class's distances use: {', '.join(map(str, dfs))})", fontsize=8
-    )
+    which = f"df {dfs[0]}" if len(dfs) == 1 else "each class at its own df: the features its distances use"
+    ax.set_xlabel(f"chi-square quantile ({which})", fontsize=8)
     ax.set_ylabel("squared distance, sorted", fontsize=8)
-    ax.legend(fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
-    extra = f"; left out (no distances): {', '.join(c.short(n, 16) for n in left_out)}" if left_out else ""
+    if legend:
+        ax.legend(fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
+    extra = f"\nleft out (no distances): {', '.join(c.short(n, 16) for n in left_out)}" if left_out else ""
     kind = "robust " if any(_robust(verdict, name) for _, name, _ in groups) else ""
     c.status_title(ax, f"Outliers: chi-square Q-Q of the {kind}squared distances{extra}", verdict, KEY)
 
@@ -300,8 +308,12 @@ def draw_figure(verdict: Any) -> Figure:
     groups = c.class_groups(verdict, _arrays(verdict)["class"])
     if len(groups) > MAX_CLASS_PANELS:
         fig, axes = c.new_figure(2)
-        draw(verdict, axes[0])
-        draw_qq(verdict, axes[1])
+        draw_qq(verdict, axes[1], legend=False)
+        handles, _ = axes[1].get_legend_handles_labels()
+        handles += _legend_handles(True, verdict)
+        fig.legend(handles=handles, loc="outside lower center", ncols=min(len(handles), 7), fontsize=7, frameon=False)
+        draw(verdict, axes[0], legend=False)  # last, so its labels are spaced in the final layout
+        fig.set_layout_engine("none")
         return fig
     fig, axes = c.new_figure(len(groups) + 1, ncols=3 if len(groups) >= 3 else 2)
     every = np.arange(len(_arrays(verdict)["squared_distance"]))
@@ -325,4 +337,5 @@ def draw_figure(verdict: Any) -> Figure:
         engine.execute(fig)  # once, so that label spacing uses the final panel sizes
     for ax, requests in pending:
         place_labels(ax, requests, layout=False)
+    fig.set_layout_engine("none")  # keep the panels where the labels were placed apart
     return fig

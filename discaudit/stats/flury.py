@@ -193,15 +193,15 @@ def cpc_axes(S: FloatArray, weights: FloatArray) -> tuple[FloatArray, int, bool]
     mean = np.einsum("k,kij->ij", w / w.sum(), S)
     _, B = np.linalg.eigh((mean + mean.T) / 2.0)
     B = B[:, ::-1].copy()
-    rounds = _rounds(p)
+    rounds = [pairs for pairs in _rounds(p) if pairs]  # none for a single feature: its axis is fixed
     previous = _cpc_objective(B, S, w)
     sweeps, converged = 0, p < 2
     limit = max(1, min(_MAX_SWEEPS, _MAX_ROTATIONS // max(1, p * (p - 1) // 2)))
-    for sweeps in range(1, limit + 1):  # noqa: B007 (the count is returned)
+    for sweeps in range(1, limit + 1 if rounds else 1):  # noqa: B007 (the count is returned)
         largest_turn = 0.0
         for pairs in rounds:
-            j = np.array([x for x, _ in pairs])
-            m = np.array([y for _, y in pairs])
+            j = np.array([x for x, _ in pairs], dtype=np.intp)
+            m = np.array([y for _, y in pairs], dtype=np.intp)
             cols = np.stack([B[:, j], B[:, m]], axis=-1)  # (p, P, 2)
             C = B.T @ S @ B  # (K, p, p): the matrices in the current axes; the pairs' 2 x 2 blocks are in it
             T = np.empty((len(pairs), K, 2, 2))
