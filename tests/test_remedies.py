@@ -60,19 +60,22 @@ def contaminated() -> tuple[discaudit.Verdict, list[str]]:
 def test_the_top_remedies_clear_the_planted_problems(demo, flakes) -> None:
     _, planted = flakes
     top = [r for r in demo.remedies if r.helps][:3]
-    assert {r.addresses for r in top} == {"scale_disparity", "collinearity"}
+    assert {r.addresses for r in top} == {"scale_disparity", "collinearity", "outliers"}
     scale = _by_action(demo, "standardize")
     assert scale.change == {"standardize": True} and scale.effect.statuses["scale_disparity"] == ("warn", "pass")
     bands = _by_action(demo, "drop_features")
     assert set(bands.change["drop_features"]) < set(planted["collinear_bands"])
     assert bands.effect.statuses["collinearity"] == ("fail", "warn")
+    # The contaminated batch (six flakes of one family) moves that family's mean: the outliers check warns,
+    # and the removal proposed is exactly the planted flakes, none of the Gaussian tail flagged beside them.
+    assert demo.findings["outliers"].status == "warn"
+    rows = _by_action(demo, "drop_rows")
+    assert sorted(rows.change["drop_rows"]) == sorted(planted["contaminated"])
+    assert rows.effect.statuses["outliers"] == ("warn", "pass")
     assert all(r.clears_addressed for r in top)
-    # The contaminated flakes are flagged, but the outliers check judges their influence small (it passes):
-    # removing rows is proposed only for rows judged influential.
-    outliers = demo.findings["outliers"]
-    flagged = {str(r) for r in outliers.arrays["row_label"][outliers.arrays["flagged"]]}
-    assert outliers.status == "pass" and set(planted["contaminated"]) <= flagged
-    assert not any(r.action == "drop_rows" for r in demo.remedies)
+    text = str(demo)
+    for line in ("scale_disparity WARN -> PASS", "outliers WARN -> PASS", "collinearity FAIL -> WARN"):
+        assert line in text, line  # the verdict table says what each top remedy clears
 
 
 def test_influential_gross_outliers_are_proposed_for_removal_and_cleared(contaminated) -> None:
@@ -93,7 +96,7 @@ def test_influential_gross_outliers_are_proposed_for_removal_and_cleared(contami
     assert circled == len(far)
 
 
-@pytest.mark.parametrize("action", ["standardize", "drop_features"])
+@pytest.mark.parametrize("action", ["standardize", "drop_features", "drop_rows"])
 def test_each_predicted_effect_is_that_of_a_what_if(demo, action) -> None:
     remedy = _by_action(demo, action)
     w = _assert_effect_is_a_what_if(demo, remedy)

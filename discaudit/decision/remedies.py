@@ -529,7 +529,10 @@ class Comparison:
     Attributes
     ----------
     status : tuple of str
-        Gate status (before, after).
+        Worst check status (before, after): ``Verdict.status``.
+    gate : tuple of str
+        The gate's outcome sentence (before, after): which candidates the data are fit for, or
+        why the gate fails (``Verdict.gate.outcome``; empty without a gate).
     statuses : dict
         Check -> (before, after) for every check of either verdict.
     changed : dict
@@ -547,6 +550,7 @@ class Comparison:
     """
 
     status: tuple[str, str]
+    gate: tuple[str, str]
     statuses: dict[str, tuple[str, str]]
     changed: dict[str, tuple[str, str]]
     recommendation: tuple[str, str]
@@ -562,6 +566,7 @@ class Comparison:
         out: dict[str, Any] = plain(
             {
                 "status": {"before": self.status[0], "after": self.status[1]},
+                "gate": {"before": self.gate[0], "after": self.gate[1]},
                 "statuses": {k: {"before": a, "after": b} for k, (a, b) in self.statuses.items()},
                 "changed": {k: {"before": a, "after": b} for k, (a, b) in self.changed.items()},
                 "recommendation": {"before": self.recommendation[0], "after": self.recommendation[1]},
@@ -579,7 +584,16 @@ class Comparison:
     def lines(self) -> list[str]:
         """The comparison as short sentences, most important first."""
         g0, g1 = self.status
-        out = [f"Gate status: {g0.upper()} -> {g1.upper()}" if g0 != g1 else f"Gate status unchanged: {g0.upper()}"]
+        out = [
+            f"Worst check status: {g0.upper()} -> {g1.upper()}"
+            if g0 != g1
+            else f"Worst check status unchanged: {g0.upper()}"
+        ]
+        o0, o1 = self.gate
+        if o0 != o1:
+            out += [f"Gate before: {o0}", f"Gate after: {o1}"]
+        elif o0:
+            out.append(f"Gate unchanged: {o0}")
         a, b = self.recommendation
         out.append(f"Recommendation: {a} -> {b}" if a != b else f"Recommendation unchanged: {a}")
         for k, (x, y) in self.changed.items():
@@ -610,6 +624,11 @@ def _pct(x: Any) -> str:
     return "-" if x is None else f"{100 * float(x):.1f}%"
 
 
+def _outcome(verdict: Any) -> str:
+    gate = getattr(verdict, "gate", None)
+    return "" if gate is None else str(gate.outcome)
+
+
 def compare(before: Any, after: Any) -> Comparison:
     """What changed from verdict ``before`` to verdict ``after`` (either may be a what-if of the other)."""
     fa, fb = before.findings, after.findings
@@ -625,6 +644,7 @@ def compare(before: Any, after: Any) -> Comparison:
     feats_a, feats_b = list(before.meta.get("features", [])), list(after.meta.get("features", []))
     return Comparison(
         status=(before.status, after.status),
+        gate=(_outcome(before), _outcome(after)),
         statuses=statuses,
         changed={k: v for k, v in statuses.items() if v[0] != v[1]},
         recommendation=(before.recommendation.model, after.recommendation.model),

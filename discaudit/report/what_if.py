@@ -46,7 +46,8 @@ def render_text(before: Verdict, after: Verdict, spec: str, width: int = WIDTH) 
         mark = "*" if key in comparison.changed else " "
         lines.append(f"{key:<{_CHECK_W - 1}}{mark}{left:<{col}}  {right}")
     lines.append("-" * width)
-    lines.append(f"{'gate status':<{_CHECK_W}}{before.status.upper():<{col}}  {after.status.upper()}")
+    lines.append(f"{'worst status':<{_CHECK_W}}{before.status.upper():<{col}}  {after.status.upper()}")
+    lines.append(f"{'gate':<{_CHECK_W}}{_gate(before)[:col]:<{col}}  {_gate(after)}")
     lines.append(
         f"{'recommendation':<{_CHECK_W}}{MODEL_NAMES[before.recommendation.model]:<{col}}  "
         f"{MODEL_NAMES[after.recommendation.model]}"
@@ -55,6 +56,13 @@ def render_text(before: Verdict, after: Verdict, spec: str, width: int = WIDTH) 
     lines += [f"  {line}" for line in comparison.lines()]
     lines += ["", "* status changed. The what-if re-audits the changed data with the same settings and seed."]
     return "\n".join(lines) + "\n"
+
+
+def _gate(verdict: Verdict) -> str:
+    gate = verdict.gate
+    if gate is None:
+        return "-"
+    return ("passes: " if gate.passed else "fails: ") + gate.headline
 
 
 def render_json(before: Verdict, after: Verdict, spec: str) -> str:
@@ -82,7 +90,8 @@ def render_markdown(before: Verdict, after: Verdict, spec: str) -> str:
             f"{status_label(b.status)} {escape(b.figure)}" if b else "-",
         ]
         lines.append("| " + " | ".join(cells) + " |")
-    lines.append(f"| gate status | {status_label(before.status)} | {status_label(after.status)} |")
+    lines.append(f"| worst status | {status_label(before.status)} | {status_label(after.status)} |")
+    lines.append(f"| gate | {escape(_gate(before))} | {escape(_gate(after))} |")
     lines.append(
         f"| recommendation | {escape(MODEL_NAMES[before.recommendation.model])} | "
         f"{escape(MODEL_NAMES[after.recommendation.model])} |"
