@@ -28,6 +28,7 @@ from sklearn.datasets import load_breast_cancer, load_iris, load_wine
 
 import discaudit
 from discaudit.errors import DataError
+from discaudit.remedy_effects import MOMENT_CHECKS
 from discaudit.sources.memory import load
 from discaudit.sources.what_if import Change, apply
 from discaudit.stats.moments import ClassMoments
@@ -37,15 +38,6 @@ from discaudit.stream import preflight_chunks
 #: a relative difference of 1e-12 in the statistic moves it by about 1e-9 relative, so such values are
 #: compared on the log scale, where the same 1e-9 is a statement about the statistic.
 TAIL = 1e-100
-
-MOMENT_CHECKS = (
-    "data_hygiene",
-    "sample_size",
-    "scale_disparity",
-    "collinearity",
-    "covariance_homogeneity",
-    "discriminant_signal",
-)
 
 
 def _open(name: str) -> tuple[pd.DataFrame, pd.Series]:
