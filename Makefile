@@ -66,6 +66,7 @@ validate: $(STAMP)
 bench: $(STAMP)
 	$(PY) benchmarks/bench_preflight.py
 	$(PY) benchmarks/bench_engines.py
+	$(PY) benchmarks/bench_what_if.py
 
 clean:
 	rm -rf $(VENV) build dist *.egg-info .pytest_cache

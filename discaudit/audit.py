@@ -8,10 +8,11 @@ data came from.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import time
 from typing import Any
 
-from discaudit import checks
+from discaudit import checks, remedy_effects
 from discaudit._threads import one_blas_thread, recorded_warnings
 from discaudit.config import Config
 from discaudit.dataset import AuditData
@@ -21,6 +22,7 @@ from discaudit.decision.gate import gate_status, judge
 from discaudit.findings import Finding, skipped
 from discaudit.jsonable import label
 from discaudit.sources import open_source
+from discaudit.sources.what_if import Change, apply
 from discaudit.verdict import Verdict
 
 
@@ -96,12 +98,43 @@ def audit(data: AuditData, config: Config, random_state: int | None) -> Verdict:
 def _assemble(
     findings: dict[str, Finding], data: AuditData, config: Config, random_state: int | None, timings: dict[str, float]
 ) -> Verdict:
-    """Findings -> recommendation, gate status and metadata: the one place a verdict is built."""
+    """Findings -> recommendation, gate status, remedies and metadata: the one place a verdict is built."""
     meta = _meta(data, config, random_state)
     recommendation = recommend(findings, config)
     gate = judge(findings, config)
     recommendation = with_gate(recommendation, gate, findings, config)
-    return Verdict(findings, recommendation, gate_status(findings, config), meta, timings, gate)
+    start = time.perf_counter()
+    try:
+        with one_blas_thread(), recorded_warnings() as caught:  # the checks it re-runs record their own
+            remedies = remedy_effects.evaluate(findings, recommendation.model, data, config, random_state, _run_check)
+        if caught:
+            meta["remedies_warnings"] = sorted(set(caught))
+    except Exception as exc:  # remedies are advice: a failure to find them never costs the verdict
+        remedies = ()
+        meta["remedies_error"] = f"{type(exc).__name__}: {exc}"
+    timings["remedies"] = time.perf_counter() - start
+    return Verdict(
+        findings,
+        recommendation,
+        gate_status(findings, config),
+        meta,
+        timings,
+        gate,
+        remedies=remedies,
+        data=data,
+        rerun=functools.partial(what_if, data, config, random_state),
+    )
+
+
+def what_if(data: AuditData, config: Config, random_state: int | None, **changes: Any) -> Verdict:
+    """The verdict of ``data`` changed as ``changes`` says (``Verdict.what_if``'s keywords), audited afresh.
+
+    The what-if source (:mod:`discaudit.sources.what_if`) updates the moments exactly and changes the
+    rows held and the row pass with them; every check then runs on the result as on any input.
+    """
+    return audit(
+        apply(data, Change.of(**changes), few_distinct_values=config.few_distinct_values), config, random_state
+    )
 
 
 def _run_check(
@@ -144,6 +177,7 @@ def _meta(data: AuditData, config: Config, random_state: int | None) -> dict[str
         "config": config.to_dict(),
         "fingerprint": _fingerprint(data),
         "class_moments": class_moments_record(data.moments, data.features),
+        **({"what_if": list(data.changes)} if data.changes else {}),
     }
 
 

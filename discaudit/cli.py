@@ -87,6 +87,7 @@ examples:
   discaudit check data.parquet --target label --format json --output audit.json
   discaudit check data.csv.gz --target label --exclude batch,operator --fail-on warn
   discaudit check data.csv --target label --format junit --output discaudit.xml --config ci/discaudit.toml
+  discaudit check flakes.csv --target family --index-col flake_id --what-if "drop=nir_1340,nir_1400;standardize"
   discaudit check big.parquet --target label --stream
   discaudit check --sql "SELECT * FROM 'data/*.parquet' WHERE year = 2024" --target label
 
@@ -220,6 +221,13 @@ def build_parser() -> argparse.ArgumentParser:
         help="how --stream reads the file: DuckDB (all cores), pyarrow's batch readers, or auto (DuckDB when "
         "installed); naming a reader implies --stream",
     )
+    check.add_argument(
+        "--what-if",
+        metavar="SPEC",
+        help="also audit the data changed as SPEC says and print both verdicts side by side (text, json or "
+        "markdown; the exit status is the original audit's): 'drop=a,b;drop_rows=12,40;merge=x+y;standardize;"
+        "transform=a,b'",
+    )
     check.set_defaults(run=run_check)
     return parser
 
@@ -280,7 +288,12 @@ def run_check(args: argparse.Namespace) -> int:
             stage, where = "comparing with the baseline", args.baseline
             verdict = baseline.compare(verdict, accepted, config, source=str(args.baseline))
         stage, where = "writing the report", args.output or "<stdout>"
-        report = FORMATS[args.format](verdict)
+        if getattr(args, "what_if", None):
+            stage, where = "auditing the what-if", "--what-if"
+            report = _what_if_report(verdict, args.what_if, args.format)
+            stage, where = "writing the report", args.output or "<stdout>"
+        else:
+            report = FORMATS[args.format](verdict)
         gate = verdict.gate
         assert gate is not None  # every audit gates
         if args.write_baseline:
@@ -373,6 +386,20 @@ def _sql_audit(args: argparse.Namespace, config: Config) -> Verdict:
         raise DataError("--features and --exclude do not apply to --sql; choose the columns in the query")
     with Progress("auditing the --sql query"):
         return preflight_sql(args.sql, args.target, index_col=args.index_col, config=config, random_state=args.seed)
+
+
+def _what_if_report(verdict: Verdict, spec: str, fmt: str) -> str:
+    """The audit and its what-if side by side (see :mod:`discaudit.report.what_if`)."""
+    from discaudit.report.what_if import RENDERERS
+    from discaudit.sources.what_if import Change
+
+    if fmt not in RENDERERS:
+        raise DataError(f"--what-if prints {', '.join(RENDERERS)}; got --format {fmt}.")
+    change = Change.parse(spec)
+    if change.is_empty():
+        raise DataError(f"--what-if {spec!r} changes nothing; e.g. --what-if 'drop=a,b'.")
+    after = verdict.what_if(**change.to_kwargs())
+    return RENDERERS[fmt](verdict, after, change.to_spec())
 
 
 def _write_file(path: Path, text: str) -> None:

@@ -21,6 +21,7 @@ __all__ = [
     "MISSING_POLICIES",
     "NON_NUMERIC_POLICIES",
     "OUTLIER_CUTOFFS",
+    "REMEDY_EFFECTS",
     "SEVERITIES",
     "Config",
 ]
@@ -31,6 +32,7 @@ NON_NUMERIC_POLICIES = ("error", "drop")
 CATEGORICAL_POLICIES = ("non_numeric", "codes")
 SEVERITIES = ("gate", "advisory", "off")
 OUTLIER_CUTOFFS = ("small_sample_f", "chi2", "hardin_rocke")
+REMEDY_EFFECTS = ("statuses", "performance")
 #: Models a gate can judge: the four candidates (as the audit hands them out) and plain
 #: maximum-likelihood logistic regression, for teams that fit it without a penalty.
 GATE_MODELS = ("lda", "regularized_lda", "qda", "logistic_regression", "unpenalized_logistic_regression")
@@ -252,6 +254,38 @@ class Config:
         "Folds of the stratified cross-validation of logistic regression (fewer when a class has fewer rows).",
         "Kohavi (1995, IJCAI): 10-fold cross-validation is a good compromise of bias and variance",
     )
+    remedy_candidates: int = _threshold(
+        6,
+        "Proposed remedies whose effect is evaluated on the changed data (the most pressing first).",
+        "design choice (one proposal per kind of remedy fits; each costs the moment-based checks once)",
+    )
+    remedy_gross_outlier_ratio: float = _threshold(
+        2.0,
+        "A flagged row is a gross outlier, proposed for removal, when its squared robust distance is at least this "
+        "many times its class's cut-off (only when the outliers check judged the flagged rows influential, and "
+        "only in classes where such rows are at most outlier_fraction_warn of the class).",
+        "design choice (twice the chi-square(p) 0.975 quantile has a Gaussian tail probability of 1.5e-3 at p = 1, "
+        "6e-4 at p = 2 and 1e-5 at p = 10)",
+    )
+    remedy_effects: str = _threshold(
+        "statuses",
+        "What a remedy's predicted effect holds: 'statuses' (the statuses of the cheap checks the change can move; "
+        "the covariance check, whose model fits iterate, is left to Verdict.what_if) or 'performance' (also the "
+        "covariance check and the expected_performance check recomputed on the changed data: the accuracy of the "
+        "recommended model and whether the recommendation changes).",
+        "design choice: 'statuses' by default because each recomputation costs about as much as the audit's own "
+        "expected_performance check, most of an audit below 10,000 rows; Verdict.what_if and --what-if always "
+        "recompute it",
+    )
+    remedy_rows_per_class: int = _threshold(
+        500,
+        "A remedy's effect includes the row-reading check it addresses (outliers, normality) only while every class "
+        "has at most this many rows (or twice the rows a robust fit needs, if more); larger data leave it to "
+        "Verdict.what_if. Also the rows per class held while the moment-based checks run, and the per-class sample "
+        "on which remedy_effects='performance' recomputes the predicted performance on larger data.",
+        "design choice: that check costs about what it costs in the audit, so this keeps ranking the remedies near a "
+        "fifth of the audit's time at every size measured (benchmarks/bench_what_if.py)",
+    )
     model: str | None = _threshold(
         None,
         "The model the gate judges: 'lda', 'regularized_lda', 'qda', 'logistic_regression' (L2-penalized, as the "
@@ -304,6 +338,8 @@ class Config:
             raise DataError(f"Config.missing must be one of {MISSING_POLICIES}; got {self.missing!r}.")
         if self.outlier_cutoff not in OUTLIER_CUTOFFS:
             raise DataError(f"Config.outlier_cutoff must be one of {OUTLIER_CUTOFFS}; got {self.outlier_cutoff!r}.")
+        if self.remedy_effects not in REMEDY_EFFECTS:
+            raise DataError(f"Config.remedy_effects must be one of {REMEDY_EFFECTS}; got {self.remedy_effects!r}.")
         if self.model is not None and self.model not in GATE_MODELS:
             raise DataError(f"Config.model must be one of {list(GATE_MODELS)} or None; got {self.model!r}.")
         if self.fail_on not in FAIL_ON_LEVELS:

@@ -155,6 +155,9 @@ class AuditData:
     memo : dict
         Intermediate results that more than one check computes from these data (the per-class
         robust fits), filled by :meth:`shared` on first use; never part of any output.
+    changes : tuple of dict
+        What-if changes applied to the source's data (:mod:`discaudit.sources.what_if`), in the
+        order applied, as plain values; empty for data as the source read them.
     """
 
     values: FloatArray
@@ -169,6 +172,7 @@ class AuditData:
     all_rows: RowPass | None = field(default=None, repr=False, compare=False)
     coordinates: Coordinates | None = None
     memo: dict[Any, Any] = field(default_factory=dict, repr=False, compare=False)
+    changes: tuple[dict[str, Any], ...] = ()
 
     @property
     def n(self) -> int:

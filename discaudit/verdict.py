@@ -4,12 +4,16 @@ from __future__ import annotations
 
 import dataclasses
 import json
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from discaudit.findings import Finding
 from discaudit.jsonable import plain
+
+if TYPE_CHECKING:
+    from discaudit.dataset import AuditData
+    from discaudit.decision.remedies import Comparison, Remedy
 
 
 @dataclass(frozen=True)
@@ -248,6 +252,18 @@ class Verdict:
     baseline : BaselineComparison or None
         The comparison with an accepted baseline, when one was made (``discaudit check
         --baseline FILE`` or :func:`discaudit.decision.baseline.compare`).
+    remedies : tuple of Remedy
+        Suggested changes to the data, most helpful first, each with what to change (in the data's
+        own names), the finding it addresses and its predicted effect (see
+        :mod:`discaudit.decision.remedies`); empty when nothing warns or fails in a way a change
+        of the data can answer.
+    data : AuditData or None
+        The validated data the verdict was computed from (moments, rows or a sample, a row pass),
+        kept for :meth:`what_if`; not part of the JSON. It holds the rows the audit held (for an
+        array given in memory, a read-only view of it), so a kept verdict keeps them alive.
+    rerun : callable or None
+        How :meth:`what_if` audits changed data: the audit's own settings and seed, bound by
+        ``discaudit.audit`` (None for a verdict built without its data).
     """
 
     findings: Mapping[str, Finding]
@@ -257,6 +273,76 @@ class Verdict:
     timings: dict[str, float] = field(default_factory=dict, compare=False)
     gate: Gate | None = None
     baseline: BaselineComparison | None = None
+    remedies: tuple[Remedy, ...] = ()
+    data: AuditData | None = field(default=None, compare=False, repr=False)
+    rerun: Callable[..., Verdict] | None = field(default=None, compare=False, repr=False)
+
+    def what_if(
+        self,
+        drop_features: Any = None,
+        drop_rows: Any = None,
+        merge_classes: Any = None,
+        standardize: Any = None,
+        transform: Any = None,
+    ) -> Verdict:
+        """The verdict the data would get after a change, without re-reading the input where it can.
+
+        The per-class moments are updated exactly (dropping features drops rows and columns of the
+        moments; merging classes merges their moments; standardizing rescales them; dropping rows
+        subtracts their contribution, found in one pass over the rows; a transform recomputes them
+        in one pass), the rows held change with them, and every check runs again, with the same
+        settings and seed. The result equals a fresh audit of the changed data on every
+        moment-based figure, with the same statuses.
+
+        Parameters
+        ----------
+        drop_features : str or list of str, optional
+            Columns to remove.
+        drop_rows : label or list of labels, optional
+            Rows to remove, by the input's row labels.
+        merge_classes : list of labels, list of lists, or dict, optional
+            One group of classes to merge (``["PET", "PP"]``), several (``[["a", "b"], ["c", "d"]]``),
+            or ``{"new label": ["a", "b"]}``; a merged class is labelled ``"a+b"`` unless named.
+        standardize : True or list of str, optional
+            Centre and scale every feature (True) or those named, as scikit-learn's StandardScaler.
+        transform : list of str or dict, optional
+            Yeo-Johnson transform of the features named (exponents estimated by maximum likelihood
+            within classes, on the rows held), or ``{feature: exponent}``.
+
+        Returns
+        -------
+        Verdict
+            With ``meta["what_if"]`` listing what was changed (exponents, centres and scales).
+
+        Raises
+        ------
+        DataError
+            Naming the column, class or row that cannot be changed; also when the verdict does not
+            hold its data (e.g. one rebuilt from JSON).
+        """
+        if self.rerun is None:
+            from discaudit.errors import DataError
+
+            raise DataError("This verdict does not hold its data; audit the data again to ask what if.")
+        return self.rerun(
+            drop_features=drop_features,
+            drop_rows=drop_rows,
+            merge_classes=merge_classes,
+            standardize=standardize,
+            transform=transform,
+        )
+
+    def compare(self, other: Verdict) -> Comparison:
+        """What changed from this verdict to ``other``: gate status, check statuses, recommendation, key figures.
+
+        Returns
+        -------
+        Comparison
+            ``str()`` of it lists the changes one per line; ``to_dict()`` gives plain values.
+        """
+        from discaudit.decision.remedies import compare
+
+        return compare(self, other)
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-able content (no numpy types, no NaN or infinity)."""

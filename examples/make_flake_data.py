@@ -13,9 +13,9 @@ Planted on purpose, for the audit to catch:
    bands are correlated above 0.99 within each family (VIFs in the hundreds).
 2. **A thickness column on a scale thousands of times larger** than reflectance (SD of hundreds
    of micrometres against reflectance SDs of a few hundredths).
-3. **Contaminated flakes far from their family**: six flakes carrying a paper label or dirt film
-   (much darker across all bands, thicker) keep their polymer label; their ids are returned and
-   printed.
+3. **A contaminated batch far from its family**: six PET flakes from one bale still carrying a
+   paper label residue (much darker across all bands, thicker) keep their polymer label; together
+   they move the PET mean, so they matter to LDA. Their ids are returned and printed.
 4. **One family whose covariance clearly differs**: PS flakes come from foamed and solid stock,
    so their spread in brightness, spectral slope, band noise, thickness and density is three times
    that of the other families.
@@ -41,6 +41,7 @@ FAMILIES = {
 }
 ROWS_PER_FAMILY = 150
 N_CONTAMINATED = 6
+CONTAMINATED_FAMILY = "PET"
 
 
 def _mean_spectrum(level: float, centre: float, depth: float) -> np.ndarray:
@@ -83,7 +84,8 @@ def make_flakes(seed: int = 20261202) -> tuple[pd.DataFrame, dict[str, object]]:
     frame = pd.concat(blocks, ignore_index=True)
     frame = frame.sample(frac=1.0, random_state=seed % (2**32)).reset_index(drop=True)
     frame.index = pd.Index([f"F{i:04d}" for i in range(1, len(frame) + 1)], name="flake_id")
-    hit = rng.choice(len(frame), N_CONTAMINATED, replace=False)
+    # one contaminated batch: PET flakes that kept a label residue, darker and thicker than their class
+    hit = rng.choice(np.flatnonzero(frame["family"] == CONTAMINATED_FAMILY), N_CONTAMINATED, replace=False)
     bands = [f"nir_{b}" for b in BANDS]
     frame.iloc[hit, frame.columns.get_indexer(bands)] -= rng.uniform(0.25, 0.35, (N_CONTAMINATED, 1))
     frame.iloc[hit, frame.columns.get_loc("thickness_um")] += rng.uniform(1500.0, 2500.0, N_CONTAMINATED)

@@ -7,7 +7,7 @@ import json
 
 import pandas as pd
 import pytest
-from engine_data import MOMENT_CHECKS, close
+from engine_data import MOMENT_CHECKS, close, close_condition_numbers
 
 from discaudit.cli import main
 
@@ -45,12 +45,13 @@ def _same(got: dict, want: dict) -> None:
     assert got["recommendation"] == want["recommendation"]
     assert _flagged(got) == _flagged(want)
     for key in MOMENT_CHECKS:
-        skip = ("n_rows_input", "sample_note")
+        skip = ("n_rows_input", "sample_note", "condition_number_raw")
         close(
             {k: v for k, v in got["findings"][key]["details"].items() if k not in skip},
             {k: v for k, v in want["findings"][key]["details"].items() if k not in skip},
             1e-9,
         )
+    close_condition_numbers(*(r["findings"]["scale_disparity"]["details"]["condition_number_raw"] for r in (got, want)))
 
 
 @pytest.fixture(scope="module")

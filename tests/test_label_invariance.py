@@ -31,7 +31,10 @@ import discaudit
 RTOL = 1e-9
 ATOL = 1e-12
 #: Checks whose figures come from an iterative optimizer (tolerance of its stopping rule).
-LOOSE = {"expected_performance": 1e-4}
+#: The raw condition number kappa is itself ill-conditioned: summing the rows in another order moves it
+#: by up to about 2 kappa eps relative (Golub & Van Loan 2013, Matrix Computations, sec. 2.6); 1e-5 covers
+#: the demo's kappa of 3.6e10.
+LOOSE = {"expected_performance": 1e-4, "condition_number_raw": 1e-5}
 
 
 def _map_back(value: Any, back: dict[str, str]) -> Any:

@@ -83,6 +83,7 @@ def test_json_round_trip_and_schema_keys(name, request) -> None:
         "recommendation",
         "findings",
         "meta",
+        "remedies",
         "caution",
     }
     assert document["schema_version"] == 1

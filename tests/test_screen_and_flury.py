@@ -295,7 +295,11 @@ def test_spread_ratios_match_slogdet_and_name_the_planted_class(flakes) -> None:
         assert d["spread"][c]["generalized_variance_ratio_to_pooled"] == pytest.approx(ratio, rel=1e-9)
     assert d["most_different_class"] == planted["different_covariance_family"]
     assert d["spread"]["PS"]["direction"] == "wider" and d["spread"]["PS"]["most_different_direction"] == "wider"
-    assert d["flury"]["best_by_bic"] == "proportional"  # the demo scales PS's whole spread by one factor
+    # The demo scales PS's whole spread by one factor; the contaminated PET batch bends PET's spread, so
+    # Flury's proportional model is the best by BIC once those rows are set aside.
+    clean = ~frame.index.isin(planted["contaminated"])
+    flury = discaudit.preflight(X[clean], y[clean], random_state=0).findings["covariance_homogeneity"].details
+    assert flury["flury"]["best_by_bic"] == "proportional"
 
 
 def test_normality_names_the_strongest_features_per_class(iris) -> None:

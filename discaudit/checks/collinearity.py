@@ -9,6 +9,7 @@ import numpy as np
 from discaudit.dataset import AuditData
 from discaudit.findings import Finding, fmt, names
 from discaudit.stats.condition_indices import ConditionIndicesResult, condition_indices_from_covariance
+from discaudit.stats.feature_removal import backward_elimination
 from discaudit.stats.shrinkage import pooled_ledoit_wolf_intensities
 from discaudit.stats.shrinkage_retention import shrinkage_retention
 from discaudit.stats.vif import vif_from_covariance
@@ -99,6 +100,37 @@ def _combination_text(terms: dict[str, float]) -> str:
     return text + (" ..." if len(terms) > 5 else "") + " = const"
 
 
+def _removal_plan(
+    S: np.ndarray,
+    used: list[str],
+    dependencies: list[dict[str, Any]],
+    vanishing: list[dict[str, float]],
+    vifs: np.ndarray,
+    config: Config,
+) -> dict[str, Any]:
+    """Features to remove, one at a time, each lowering the largest VIF most, until the check would pass.
+
+    Candidates are the features of the near dependencies and vanishing combinations (in that
+    order), else the features whose VIF is above ``vif_warn``; computed from the pooled covariance.
+    """
+    candidates: list[str] = []
+    for group in [d["features"] for d in dependencies] + [list(c) for c in vanishing]:
+        candidates += [f for f in group if f not in candidates]
+    if not candidates:
+        candidates = [used[j] for j in np.argsort(-vifs, kind="stable") if vifs[j] > config.vif_warn]
+    plan = backward_elimination(S, used, candidates, config.vif_warn, config.condition_index_warn)
+    return {
+        "removed": list(plan.removed),
+        "max_vif_after": list(plan.max_vif),
+        "condition_number_after": list(plan.condition_number),
+        "reaches_pass": plan.reached,
+        "candidates": candidates,
+        "rule": "greedy backward elimination from the pooled within-class covariance: each step removes the candidate "
+        "whose removal lowers the largest VIF most, until max VIF <= vif_warn and condition number <= "
+        "condition_index_warn or no candidate is left",
+    }
+
+
 def _shrinkage(data: AuditData) -> dict[str, Any]:
     """Ledoit-Wolf intensities of the pooled within-class covariance, raw and standardized."""
     m = data.moments
@@ -174,6 +206,11 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             "vanishing_combinations_drop": vanishing_drops,
         }
     )
+    if vanishing or float(np.max(vifs)) > config.vif_warn or ci.condition_number > config.condition_index_warn:
+        try:
+            details["removal_plan"] = _removal_plan(S_used, used, dependencies, vanishing, vifs, config)
+        except (np.linalg.LinAlgError, ValueError) as exc:  # the plan is advice: its failure is not the check's
+            details["removal_plan_error"] = f"{type(exc).__name__}: {exc}"
     if vanishing:
         details["rank_deficient_reason"] = "pooled within-class covariance is singular: VIF is infinite"
         return Finding(

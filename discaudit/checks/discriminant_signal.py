@@ -9,12 +9,56 @@ import numpy as np
 from discaudit.dataset import AuditData
 from discaudit.errors import DataError
 from discaudit.findings import Finding, fmt, fmt_p
+from discaudit.jsonable import label
+from discaudit.stats.pairwise_hotelling import pairwise_hotelling
 from discaudit.stats.wilks_lambda import wilks_lambda_from_moments
 
 if TYPE_CHECKING:
     from discaudit.config import Config
 
 KEY = "discriminant_signal"
+#: Pairs of classes listed in the details, least distinct first (all pairs are counted).
+_MAX_LISTED_PAIRS = 20
+
+
+def _pairwise(data: AuditData, alpha: float) -> dict[str, Any]:
+    """Hotelling's T^2 between every pair of class means (pooled covariance), Holm-adjusted.
+
+    A pair whose adjusted p-value is not below ``alpha`` has no detectable signal between its
+    two classes: the data cannot tell them apart by their means.
+    """
+    try:
+        h = pairwise_hotelling(data.moments)
+    except (DataError, np.linalg.LinAlgError, ValueError) as exc:
+        return {"skipped": str(exc)}
+    order = np.argsort(-h.p_adjusted, kind="stable")
+    pairs = [
+        {
+            "classes": [label(data.classes[h.pairs[i][0]]), label(data.classes[h.pairs[i][1]])],
+            "mahalanobis": float(np.sqrt(h.mahalanobis_sq[i])),
+            "f": float(h.f[i]),
+            "p_value": float(h.p_value[i]),
+            "p_adjusted": float(h.p_adjusted[i]),
+        }
+        for i in order[:_MAX_LISTED_PAIRS]
+    ]
+    return {
+        "pairs": pairs,
+        "n_pairs": len(h.pairs),
+        "indistinct_pairs": [
+            [label(data.classes[a]), label(data.classes[b])]
+            for (a, b), q in zip(h.pairs, h.p_adjusted, strict=True)
+            if not q < alpha
+        ],
+        "df1": h.df1,
+        "df2": h.df2,
+        "alpha": alpha,
+        "definition": "Hotelling's T^2 between two class means with the pooled within-class covariance of all "
+        "classes, F(p, N - K - p + 1); p-values Holm-adjusted over the pairs; a pair is indistinct when its "
+        "adjusted p-value is not below alpha",
+    }
+
+
 #: Wilks' Lambda below this (float64's machine epsilon) is a rounding-level figure: "exact separation".
 _ROUNDING_LAMBDA = float(np.finfo(np.float64).eps)
 
@@ -51,6 +95,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         "alpha": config.signal_alpha,
         "weak_signal_lambda": config.weak_signal_lambda,
         "definition": "Lambda = det W / det(W + B); eigenvalues of W^-1 B; Rao's F approximation",
+        "pairwise": _pairwise(data, config.signal_alpha),
     }
     # Lambda = prod 1 / (1 + l_i): below machine precision, 1 + l_i has lost every digit of the
     # within-class spread, so Lambda, F and its p-value only say "separated exactly": a rounding-

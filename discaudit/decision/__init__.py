@@ -8,6 +8,7 @@ module         holds
 ``rules``      the assumption rules, used when no predicted performance exists
 ``settings``   the suggested estimator settings
 ``gate``       gate status and levels
+``remedies``   remedies proposed and ranked from the findings; two verdicts compared
 =============  ==============================================================
 
 The decision reads finished findings only; it never reads input or runs a statistic.

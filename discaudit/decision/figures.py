@@ -58,6 +58,18 @@ CLASS_ENCODING_FEATURES = Figure("data_hygiene", ("class_encoding_features",))
 #: Wilks' Lambda below machine precision: the classes separate exactly (a rounding-level figure).
 EXACT_SEPARATION = Figure("discriminant_signal", ("exact_separation",))
 
+# Read by the remedies (decision/remedies.py).
+N_TOTAL = Figure("sample_size", ("n_total",))
+SD_RATIO = Figure("scale_disparity", ("sd_ratio",))
+REMOVAL_PLAN = Figure("collinearity", ("removal_plan",))
+OUTLIER_PER_CLASS = Figure("outliers", ("per_class",))
+OUTLIER_N_FLAGGED = Figure("outliers", ("n_flagged",))
+OUTLIER_MAX_SHIFT = Figure("outliers", ("max_mean_shift",))
+OUTLIER_LOGDET_EXCESS = Figure("outliers", ("pooled_logdet_excess_per_feature",))
+NORMALITY_PER_CLASS = Figure("normality", ("per_class",))
+PAIRWISE = Figure("discriminant_signal", ("pairwise",))
+WILKS_LAMBDA = Figure("discriminant_signal", ("wilks_lambda",))
+
 CANDIDATE_FIGURES = Figure("expected_performance", ("candidates",))
 PAIRED = Figure("expected_performance", ("paired",))
 BEST = Figure("expected_performance", ("best",))
@@ -96,4 +108,14 @@ FIGURES: tuple[Figure, ...] = (
     LOWEST_LOG_LOSS,
     CLASS_ENCODING_FEATURES,
     EXACT_SEPARATION,
+    N_TOTAL,
+    SD_RATIO,
+    REMOVAL_PLAN,
+    OUTLIER_PER_CLASS,
+    OUTLIER_N_FLAGGED,
+    OUTLIER_MAX_SHIFT,
+    OUTLIER_LOGDET_EXCESS,
+    NORMALITY_PER_CLASS,
+    PAIRWISE,
+    WILKS_LAMBDA,
 )

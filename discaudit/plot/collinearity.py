@@ -19,6 +19,7 @@ from matplotlib.patches import Patch
 
 from discaudit.findings import fmt
 from discaudit.plot import _common as c
+from discaudit.plot._remedies import dropped_features
 
 KEY = "collinearity"
 #: Features shown; beyond this the largest VIFs are kept (and the rest counted).
@@ -92,6 +93,18 @@ def draw(verdict: Any, ax: Axes) -> None:
                 fontsize=7,
                 gid=f"dependency-tag:{name}",
             )
+    rank, drop = dropped_features(verdict)
+    for y, name, s in zip(pos, names, shown, strict=True):
+        if name in drop:  # what the remedy would remove
+            ax.annotate(
+                f"drop (remedy {rank})",
+                (s, y),
+                xytext=(3, 3),
+                textcoords="offset points",
+                fontsize=6.5,
+                color=c.GREY,
+                gid=f"remedy-drop:{name}",
+            )
     ci_warn = th.get("condition_index_warn", 10)
     prop = th.get("variance_proportion", 0.5)
     if lines:
@@ -107,6 +120,8 @@ def draw(verdict: Any, ax: Axes) -> None:
         body += "\nexact dependency: " + ", ".join(c.short(k, 14) for k in list(combo)[:5])
     if hidden:
         body += f"\n{hidden} features with smaller VIF not shown"
+    if drop:
+        body += f"\n'drop (remedy {rank})': the features remedy {rank} would remove"
     # the figures go under the axis label and the legend beside the axes: neither covers a bar
     ax.set_xlabel("VIF, pooled within-class correlation (log scale)\n" + body, fontsize=8)
     handles: list[Artist] = [

@@ -26,6 +26,7 @@ from scipy import stats as sps
 
 from discaudit.findings import fmt
 from discaudit.plot import _common as c
+from discaudit.plot._remedies import dropped_rows
 
 KEY = "outliers"
 #: At most this many flagged rows per class are labelled, farthest first (per-class panels).
@@ -113,6 +114,11 @@ def _draw_class(ax: Axes, verdict: Any, k: int, name: str, rows: np.ndarray, cap
         fence = float(_column(verdict, "fence")[rows][0])
         if np.isfinite(fence):
             ax.axhline(fence, color=colour, linestyle="-.", linewidth=1.0, gid=f"fence:{k}")
+    _, drop = dropped_rows(verdict)
+    removed = ok & np.isin(np.array([str(v) for v in labels], dtype=object), list(drop)) if drop else None
+    if removed is not None and removed.any():  # what the remedy would remove
+        ax.scatter(x[removed], y[removed], s=80, marker="o", facecolors="none", edgecolors="black", linewidths=1.2,
+                   gid=f"remedy-rows:{k}")  # fmt: skip
     chosen = np.flatnonzero(ok & flagged)
     chosen = chosen[np.argsort(-y[chosen], kind="stable")][:cap]
     return [(float(x[i]), float(y[i]), c.short(labels[i], 16), f"flag-label:{k}") for i in chosen]
@@ -186,8 +192,13 @@ def _log_for(verdict: Any, rows: np.ndarray) -> bool:
     return c.use_log(y, float(cuts.min()) if cuts.size else 1.0, LOG_FACTOR)
 
 
-def _legend_handles(robust_any: bool) -> list[Artist]:
-    return [
+def _legend_handles(robust_any: bool, verdict: Any = None) -> list[Artist]:
+    rank, drop = dropped_rows(verdict) if verdict is not None else (0, set())
+    extra: list[Artist] = [
+        Line2D([], [], marker="o", markerfacecolor="none", markeredgecolor="black", linestyle="none", markersize=9,
+               label=f"removed by remedy {rank}")
+    ] if drop else []  # fmt: skip
+    return extra + [
         Line2D([], [], color=c.GREY, linestyle="--", label="Gaussian cut-off (per class)"),
         Line2D([], [], color=c.GREY, linestyle="-.", label="far-out fence (per class)"),
         Line2D([], [], marker="o", color="black", linestyle="none", label="flagged: beyond both (filled, labelled)"),
@@ -212,8 +223,8 @@ def draw(verdict: Any, ax: Axes, legend: bool = True) -> None:
     _finish_distance_axes(ax, log, all(_robust(verdict, name) for _, name, _ in groups))
     if legend:
         handles, _ = ax.get_legend_handles_labels()
-        ax.legend(handles=handles + _legend_handles(True), fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0),
-                  borderaxespad=0.0)  # fmt: skip
+        ax.legend(handles=handles + _legend_handles(True, verdict), fontsize=7, loc="upper left",
+                  bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)  # fmt: skip
     total = int(np.asarray(_arrays(verdict)["flagged"], dtype=bool).sum())
     shown = f"; {COMBINED_LABEL_CAP} farthest per class labelled" if total > len(requests) else ""
     kind = "robust" if any(_robust(verdict, name) for _, name, _ in groups) else "classical"
@@ -299,7 +310,7 @@ def draw_figure(verdict: Any) -> Figure:
         fig, axes = c.new_figure(2)
         draw_qq(verdict, axes[1], legend=False)
         handles, _ = axes[1].get_legend_handles_labels()
-        handles += _legend_handles(True)
+        handles += _legend_handles(True, verdict)
         fig.legend(handles=handles, loc="outside lower center", ncols=min(len(handles), 7), fontsize=7, frameon=False)
         draw(verdict, axes[0], legend=False)  # last, so its labels are spaced in the final layout
         fig.set_layout_engine("none")
@@ -317,7 +328,7 @@ def draw_figure(verdict: Any) -> Figure:
         pending.append((ax, requests))
         c.status_title(ax, _panel_title(verdict, name, rows, len(requests)), verdict, KEY)
     draw_qq(verdict, axes[len(groups)], ylim=ylim, log=log)
-    handles = _legend_handles(True)
+    handles = _legend_handles(True, verdict)
     fig.legend(handles=handles, loc="outside lower center", ncols=len(handles), fontsize=8, frameon=False)
     kind = "robust " if any(_robust(verdict, name) for _, name, _ in groups) else "classical "
     c.figure_title(fig, f"Outliers: {kind}squared distances per class (same scale in every panel)", verdict, KEY)

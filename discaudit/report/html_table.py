@@ -14,6 +14,7 @@ from html import escape
 from typing import TYPE_CHECKING
 
 from discaudit.report.labels import MODEL_NAMES, format_params, status_label
+from discaudit.report.remedies import html_section as remedy_section
 from discaudit.report.table import VerdictTable, build
 
 if TYPE_CHECKING:
@@ -78,6 +79,8 @@ def format_table(table: VerdictTable) -> str:
     if table.alternatives:
         items = "".join(f"<li>{e(MODEL_NAMES[a['model']])}: {e(a['reason'])}</li>" for a in table.alternatives)
         parts.append(f"<p><strong>Alternatives, best first:</strong></p><ol>{items}</ol>")
+    if table.remedies:
+        parts.append(remedy_section(table))
     parts += [f"<p><small>{e(note)}</small></p>" for note in table.notes]
     parts.append("</div>")
     return "\n".join(parts)

@@ -51,6 +51,13 @@ meta : object
     rows, full precision; what ``--baseline`` compares a later batch with; above 200 features
     only ``variance``). Nothing that varies between runs (timings) is written, so the same data,
     settings and seed give the same JSON.
+remedies : list
+    Suggested changes to the data, most helpful first (may be empty): ``rank``, ``action``,
+    ``change`` (the keyword arguments of ``Verdict.what_if``), ``spec`` (the same for
+    ``--what-if``), ``addresses`` (a check key), ``description``, ``reason``,
+    ``needs_row_pass`` and ``effect`` (``statuses``, ``changed``, ``figures``, ``clears``,
+    ``worsens``, ``evaluated``, ``not_evaluated``, ``accuracy``, ``recommendation``, ``rows``).
+    A what-if verdict's ``meta`` also has ``what_if``: the changes applied.
 caution : str
     What the audit does not establish.
 """
@@ -91,5 +98,6 @@ def verdict_to_dict(verdict: Verdict) -> dict[str, Any]:
         "recommendation": verdict.recommendation.to_dict(),
         "findings": {key: f.to_dict() for key, f in verdict.findings.items()},
         "meta": plain(verdict.meta),
+        "remedies": [r.to_dict() for r in getattr(verdict, "remedies", ())],
         "caution": CAUTION,
     }

@@ -6,7 +6,16 @@ from typing import Any
 
 from discaudit._version import __version__
 
-__all__ = ["CAUTION", "MODEL_NAMES", "STATUS_SYMBOLS", "VERSION", "format_params", "status_label"]
+__all__ = [
+    "CAUTION",
+    "MODEL_NAMES",
+    "REMEDIES_NOTE",
+    "REMEDIES_TITLE",
+    "STATUS_SYMBOLS",
+    "VERSION",
+    "format_params",
+    "status_label",
+]
 
 VERSION = __version__
 
@@ -21,6 +30,13 @@ MODEL_NAMES = {
     "qda": "QDA",
     "logistic_regression": "logistic regression",
 }
+
+#: The remedies section: its title and how its predictions were made.
+REMEDIES_TITLE = "What would help"
+REMEDIES_NOTE = (
+    "Predicted by auditing the changed data (moments updated exactly; the checks that read rows only where the "
+    "change alters them); verdict.what_if(**remedy.change) or --what-if SPEC re-audits a change in full."
+)
 
 #: Status words with a symbol, so a status reads without colour.
 STATUS_SYMBOLS = {"pass": "\u2713", "warn": "\u26a0", "fail": "\u2717", "skip": "\u2013"}

@@ -15,6 +15,7 @@ import re
 from typing import TYPE_CHECKING
 
 from discaudit.report.labels import MODEL_NAMES, format_params, status_label
+from discaudit.report.remedies import markdown_lines as remedy_lines
 from discaudit.report.table import VerdictTable, build
 
 if TYPE_CHECKING:
@@ -66,6 +67,7 @@ def format_table(table: VerdictTable) -> str:
             for i, alt in enumerate(table.alternatives, 1)
         ]
         lines.append("")
+    lines += remedy_lines(table, escape)
     lines += [f"> {escape(note)}" for note in table.notes]
     return "\n".join(lines) + "\n"
 

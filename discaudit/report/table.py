@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 from discaudit.findings import fmt, fmt_p
-from discaudit.report.labels import CAUTION
+from discaudit.report.labels import CAUTION, MODEL_NAMES
 
 if TYPE_CHECKING:
     from discaudit.verdict import Verdict
@@ -58,6 +58,23 @@ class BaselineSection:
 
 
 @dataclass(frozen=True)
+class RemedyRow:
+    """One remedy of the "What would help" section, in words."""
+
+    rank: int
+    description: str
+    addresses: str
+    changes: list[str]
+    clears_addressed: bool
+    accuracy: str | None
+    recommendation: str | None
+    spec: str
+    needs_row_pass: bool
+    rows: str
+    helps: bool = True
+
+
+@dataclass(frozen=True)
 class VerdictTable:
     """Rows, recommendation block, gate, baseline and notes of a verdict, ready to format."""
 
@@ -76,6 +93,7 @@ class VerdictTable:
     gate_rule: str = ""
     baseline: BaselineSection | None = None
     failing_checks: list[str] = field(default_factory=list)
+    remedies: list[RemedyRow] = field(default_factory=list)
 
 
 def _cell_mean(test: Any) -> str:
@@ -147,4 +165,39 @@ def build(verdict: Verdict) -> VerdictTable:
         gate_rule=gate.rule if gate is not None else "",
         baseline=_baseline(verdict),
         failing_checks=failing,
+        remedies=[_remedy_row(r) for r in getattr(verdict, "remedies", ())],
+    )
+
+
+def _remedy_row(remedy: Any) -> RemedyRow:
+    """The words of one remedy: what to do, what it addresses, the statuses it is predicted to change."""
+    effect = remedy.effect
+    changes = [f"{k} {a.upper()} -> {b.upper()}" for k, (a, b) in effect.changed.items()]
+    if not remedy.addressed_evaluated:
+        changes.insert(0, f"{remedy.addresses} not re-evaluated here (large data: --what-if re-audits it)")
+    accuracy = None
+    if effect.accuracy is not None:
+        acc = effect.accuracy
+        accuracy = (
+            f"predicted accuracy of {MODEL_NAMES.get(acc['model'], acc['model'])} "
+            f"{100 * acc['before']:.1f}% -> {100 * acc['after']:.1f}%"
+        )
+    recommendation = None
+    if effect.recommendation is not None:
+        a, b = effect.recommendation
+        recommendation = (
+            "recommendation unchanged" if a == b else f"recommendation would change to {MODEL_NAMES.get(b, b)}"
+        )
+    return RemedyRow(
+        rank=remedy.rank,
+        description=remedy.description,
+        addresses=remedy.addresses,
+        changes=changes,
+        clears_addressed=remedy.clears_addressed,
+        accuracy=accuracy,
+        recommendation=recommendation,
+        spec=remedy.spec,
+        needs_row_pass=remedy.needs_row_pass,
+        rows=effect.rows,
+        helps=remedy.helps,
     )

@@ -6,6 +6,7 @@ import textwrap
 from typing import TYPE_CHECKING
 
 from discaudit.report.labels import MODEL_NAMES, format_params
+from discaudit.report.remedies import text_lines as remedy_lines
 from discaudit.report.table import VerdictTable, build
 
 if TYPE_CHECKING:
@@ -53,6 +54,7 @@ def render(verdict: Verdict, width: int = WIDTH) -> str:
         lines += textwrap.wrap(
             f"{MODEL_NAMES[alt['model']]}: {alt['reason']}", width, initial_indent=f"  {i}. ", subsequent_indent="     "
         )
+    lines += remedy_lines(table, width)
     lines.append("")
     for note in table.notes:
         lines += textwrap.wrap(note, width)

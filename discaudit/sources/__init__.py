@@ -14,6 +14,7 @@ module                 input
                        Spark DataFrames (``spark``), Ibis tables (via narwhals)
 ``duck``               DuckDB (or pyarrow) readers for big files and SQL queries
 ``files``              CSV and Parquet files: whole, or in batches for ``chunks``
+``what_if``            audited data with changes applied (``Verdict.what_if``), moments updated
 =====================  =================================================================
 
 To add a source: a module here that returns ``AuditData`` (reuse ``screening`` and, for data that

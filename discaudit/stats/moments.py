@@ -179,6 +179,41 @@ class ClassMoments:
         high = None if self.maximum is None else self.maximum[idx]
         return ClassMoments(names, self.counts[idx], self.means[idx], self.scatter[idx], low, high)
 
+    def downdate(
+        self, removed: ClassMoments, minimum: FloatArray | None = None, maximum: FloatArray | None = None
+    ) -> ClassMoments:
+        """Exact moments of these rows without the rows ``removed`` summarizes (same classes, a subset).
+
+        The inverse of :meth:`merge`: per class, n = n - n_r, m = (n m - n_r m_r) / (n - n_r) and
+        S = S - S_r - (n_kept n_r / n) (m_kept - m_r)(m_kept - m_r)'. The ranges of the rows kept
+        cannot follow from the moments; give them (``minimum``, ``maximum``, shape (K, p)) to impose
+        the exact facts of features constant in a class, as :meth:`from_arrays` does. A class left
+        with no rows gets zero mean and scatter.
+        """
+        counts = self.counts - removed.counts
+        means = self.means.copy()
+        scatter = self.scatter.copy()
+        for k in np.flatnonzero(removed.counts):
+            n, nr, na = float(self.counts[k]), float(removed.counts[k]), float(counts[k])
+            if na == 0:
+                means[k], scatter[k] = 0.0, 0.0
+                continue
+            means[k] = (n * self.means[k] - nr * removed.means[k]) / na
+            d = means[k] - removed.means[k]
+            s = self.scatter[k] - removed.scatter[k] - np.outer(d, d) * (na * nr / n)
+            scatter[k] = (s + s.T) / 2.0
+        if minimum is None or maximum is None:
+            return ClassMoments(self.classes, counts, means, scatter)
+        return ClassMoments(self.classes, counts, means, scatter, minimum, maximum)._exact()
+
+    def affine(self, centre: FloatArray, scale: FloatArray) -> ClassMoments:
+        """Moments of the features mapped as x -> (x - centre) / scale (scale > 0, per feature); ranges too."""
+        low = None if self.minimum is None else (self.minimum - centre) / scale
+        high = None if self.maximum is None else (self.maximum - centre) / scale
+        return ClassMoments(
+            self.classes, self.counts, (self.means - centre) / scale, self.scatter / np.outer(scale, scale), low, high
+        )
+
     @property
     def constant_in_class(self) -> npt.NDArray[np.bool_] | None:
         """(K, p): the feature takes a single value in the class (exact: minimum == maximum)."""

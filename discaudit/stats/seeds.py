@@ -17,6 +17,7 @@ salt                value  stream
 ``PERFORMANCE_ROWS``  9   row keys of the rows scored by leave-one-out on large inputs
 ``ENGINE_SAMPLE``    10   the hash seed of a per-class sample drawn inside an engine (no key)
 ``CANONICAL``        11   content keys of the canonical row and class order (seed fixed at 0)
+``WHAT_IF_SAMPLE``    12  row keys of the rows a what-if keeps per class when it caps them (no key)
 ==================  ====  ========================================================
 
 ``PARTITION_MERGE`` and ``OUTLIERS`` share a value but never a stream: the first always carries
@@ -40,6 +41,7 @@ LOGISTIC_CV = 8
 PERFORMANCE_ROWS = 9
 ENGINE_SAMPLE = 10
 CANONICAL = 11
+WHAT_IF_SAMPLE = 12
 
 
 def _entropy(random_state: int | None, salt: int, key: tuple[int, ...]) -> list[int] | None:
