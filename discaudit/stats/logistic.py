@@ -18,6 +18,7 @@ from typing import Any
 
 import numpy as np
 import numpy.typing as npt
+from scipy.linalg import solve_triangular
 from scipy.optimize import minimize
 from scipy.special import expit
 
@@ -104,9 +105,9 @@ class LogisticFit:
     objective : float
         The penalized negative log-likelihood at the fit, sum_i -ln p(y_i | x_i) + ||coef||^2 / (2 C).
     n_iter : int
-        L-BFGS-B iterations taken.
+        Iterations taken (Newton's or L-BFGS-B's, see :func:`fit_logistic`).
     converged : bool
-        Whether L-BFGS-B met its tolerances (``LBFGS_GTOL`` or ``LBFGS_FTOL``) within ``LBFGS_MAX_ITER``.
+        Whether the solver met its tolerances (``LBFGS_GTOL`` or ``LBFGS_FTOL``) within its iterations.
     """
 
     n_classes: int
@@ -280,6 +281,24 @@ _Params = tuple[FloatArray, FloatArray]
 #: sets only the optimizer's coordinates (see :func:`_solve`), never the optimum.
 PRECONDITION_CURVATURE = 0.25
 
+#: Newton's method (exact Hessian) is used where the parameters are few, d = K' (p + 1) with K' = 1 for two
+#: classes and K for more, at most NEWTON_MAX_PARAMS, and a Hessian is cheap, n d^2 (its cost, up to a
+#: constant) at most NEWTON_MAX_WORK. There about five Hessians and their Cholesky factors cost less
+#: than the tens of L-BFGS-B iterations they replace; on more rows a well-conditioned L-BFGS-B needs few
+#: iterations and is the cheaper (design choice, measured with one BLAS thread: Newton 2x to 3.5x faster
+#: on iris, wine and breast cancer, even at (500, 8), 1.1x to 3x slower from (2,000, 10) to (1e5, 30)).
+NEWTON_MAX_PARAMS = 160
+NEWTON_MAX_WORK = 1.0e6
+
+#: Newton iterations at most before L-BFGS-B takes over from the start (design choice: from a warm start
+#: a fit takes 3 to 8, from zero on separable data up to about 25).
+NEWTON_MAX_ITER = 50
+
+#: Sufficient decrease of the Armijo condition f(x + t d) <= f(x) + ARMIJO t g'd (Nocedal & Wright's
+#: usual 1e-4), and the most halvings of t tried.
+ARMIJO = 1.0e-4
+NEWTON_MAX_HALVINGS = 40
+
 
 def _scores(basis: _Basis, rows: BoolArray, params: _Params, n_classes: int) -> FloatArray:
     """Scores b + (u - u_bar) W' = b + Y (W V)' of the selected rows: shape (n,) for K = 2, (n, K) else."""
@@ -332,6 +351,96 @@ def _multinomial_objective(
     return loss + 0.5 * strength * float(np.sum(W * PW)), grad.ravel()
 
 
+def _binary_hessian(theta: FloatArray, Z: FloatArray, penalty: FloatArray, strength: float) -> FloatArray:
+    """Hessian of :func:`_binary_objective` in theta = (v, b): Z1' diag(q (1 - q) / n) Z1 + penalty on v."""
+    n, p = Z.shape
+    z = Z @ theta[:-1] + theta[-1]
+    weight = expit(z) * expit(-z) / n
+    Zw = Z * weight[:, None]
+    H = np.empty((p + 1, p + 1))
+    H[:p, :p] = Zw.T @ Z
+    H[:p, p] = H[p, :p] = Zw.sum(axis=0)
+    H[p, p] = weight.sum()
+    H[np.arange(p), np.arange(p)] += strength * penalty
+    return H
+
+
+def _multinomial_hessian(
+    theta: FloatArray, Z1: FloatArray, n_classes: int, penalty: FloatArray, strength: float
+) -> FloatArray:
+    """Hessian of :func:`_multinomial_objective` in theta = (v_k, b_k) by class, plus the intercepts' common shift.
+
+    With z1_i = (z_i, 1) and P_ik the fitted probabilities, the block of classes k, l is
+    sum_i P_ik (delta_kl - P_il) z1_i z1_i' / n, the penalty adds strength * penalty on each v_k. A common
+    shift of the K intercepts leaves the objective unchanged (the Hessian's null direction u, u_k = 1 on
+    the intercepts); u u' / K is added, which changes no Newton step, the gradient being orthogonal to
+    u (the intercepts' derivatives sum to zero over the classes), and makes the matrix positive definite.
+    """
+    n, q = Z1.shape
+    K = n_classes
+    S = theta.reshape(K, q) @ Z1.T
+    S -= S.max(axis=0)
+    np.exp(S, out=S)
+    S /= S.sum(axis=0) * np.sqrt(n)  # S = P / sqrt(n), so each block below carries the 1 / n
+    H = np.empty((K * q, K * q))
+    for k in range(K):
+        rows = slice(k * q, (k + 1) * q)
+        for m in range(k, K):
+            weight = S[k] * ((1.0 / np.sqrt(n) if m == k else 0.0) - S[m])
+            block = (Z1 * weight[:, None]).T @ Z1
+            H[rows, m * q : (m + 1) * q] = block
+            H[m * q : (m + 1) * q, rows] = block.T
+    weights = np.arange(K * q).reshape(K, q)
+    diagonal = weights[:, :-1].ravel()
+    H[diagonal, diagonal] += np.tile(strength * penalty, K)
+    intercepts = weights[:, -1]
+    H[np.ix_(intercepts, intercepts)] += 1.0 / K
+    return H
+
+
+def _newton(
+    objective: Any, args: tuple[object, ...], hessian: Any, hessian_args: tuple[object, ...], x0: FloatArray
+) -> tuple[FloatArray, float, int] | None:
+    """Minimize a smooth convex objective by Newton's method with a backtracking (Armijo) line search.
+
+    Stops, converged, when the largest entry of the gradient is at most ``LBFGS_GTOL`` (L-BFGS-B's own
+    criterion) or when the decrease the Newton step promises, half the Newton decrement g'H^-1 g, is
+    below ``LBFGS_FTOL`` relative to the objective (nothing further is resolvable in float64; the step
+    is taken). ``objective(theta, *args)`` returns the value and the gradient, ``hessian(theta,
+    *hessian_args)`` the Hessian. Returns (theta, objective, iterations), or None when the Hessian is
+    not numerically positive definite, the line search fails or ``NEWTON_MAX_ITER`` is reached (the
+    caller then uses L-BFGS-B).
+    Nocedal & Wright (2006), Numerical Optimization, 2nd ed., sections 3.1 and 3.4.
+    """
+    theta = np.array(x0, dtype=np.float64)
+    f, g = objective(theta, *args)
+    for it in range(NEWTON_MAX_ITER):
+        if float(np.max(np.abs(g))) <= LBFGS_GTOL:
+            return theta, f, it
+        try:
+            L = np.linalg.cholesky(hessian(theta, *hessian_args))
+        except np.linalg.LinAlgError:
+            return None
+        step = -solve_triangular(L.T, solve_triangular(L, g, lower=True), lower=False)
+        slope = float(g @ step)
+        if not (np.all(np.isfinite(step)) and slope < 0.0):
+            return None
+        small = -0.5 * slope <= LBFGS_FTOL * max(abs(f), 1.0)
+        t = 1.0
+        for _ in range(NEWTON_MAX_HALVINGS):
+            f_new, g_new = objective(theta + t * step, *args)
+            if f_new <= f + ARMIJO * t * slope:
+                break
+            t *= 0.5
+        else:
+            return (theta, f, it) if small else None
+        theta = theta + t * step
+        f, g = f_new, g_new
+        if small:
+            return theta, f, it + 1
+    return None
+
+
 def _solve(
     basis: _Basis, rows: npt.NDArray[np.bool_] | None, codes: IntArray, n_classes: int, C: float, start: _Params | None
 ) -> tuple[_Params, float, int, bool]:
@@ -361,6 +470,17 @@ def _solve(
     else:
         fun = _multinomial_objective
         args = (Z, codes * n + np.arange(n), n_classes, penalty, strength)
+    d = K * (p + 1)
+    if d <= NEWTON_MAX_PARAMS and n * d * d <= NEWTON_MAX_WORK:
+        if n_classes == 2:
+            hess: Any = _binary_hessian
+            hess_args: tuple[object, ...] = (Z, penalty, strength)
+        else:
+            hess = _multinomial_hessian
+            hess_args = (np.column_stack([Z, np.ones(n)]), n_classes, penalty, strength)
+        found = _newton(fun, args, hess, hess_args, x0)
+        if found is not None:
+            return _params_of(found[0], basis, spread, K, p), found[1], found[2], True
     res = minimize(
         fun,
         x0,
@@ -372,9 +492,13 @@ def _solve(
     theta = np.asarray(res.x, dtype=np.float64)
     if not np.all(np.isfinite(theta)):  # cannot happen with a finite start and objective; kept as a guard
         theta = x0
+    return _params_of(theta, basis, spread, K, p), float(res.fun), int(res.nit), bool(res.success)
+
+
+def _params_of(theta: FloatArray, basis: _Basis, spread: FloatArray, K: int, p: int) -> _Params:
+    """The optimizer's coordinates back to coefficients of u and scores at the mean (see :func:`_solve`)."""
     T = theta.reshape(K, p + 1)
-    params = ((T[:, :-1] / spread) @ basis.vectors.T, T[:, -1].copy())
-    return params, float(res.fun), int(res.nit), bool(res.success)
+    return (T[:, :-1] / spread) @ basis.vectors.T, T[:, -1].copy()
 
 
 def _make_fit(
@@ -467,9 +591,15 @@ def fit_logistic(
     eigenbasis of their covariance (V diag(sigma) V') and each direction divided by
     sqrt(sigma_j + 1 / (a C n)), a = ``PRECONDITION_CURVATURE``, the penalty weighted to match, so that
     the minimizer is unchanged and only its conditioning improves (correlated features or features in
-    uneven units would otherwise slow L-BFGS by ten times and more). L-BFGS-B (Byrd, Lu, Nocedal & Zhu
-    1995), analytic gradient, tolerances ``LBFGS_GTOL`` and ``LBFGS_FTOL``, at most ``LBFGS_MAX_ITER``
-    iterations. Collinear or constant features need no special case (the penalty makes the optimum
+    uneven units would otherwise slow L-BFGS by ten times and more). Where the parameters are few and
+    the rows not many (``NEWTON_MAX_PARAMS``, ``NEWTON_MAX_WORK``) the minimum is found by Newton's
+    method with the exact Hessian and a backtracking line search (Nocedal & Wright 2006), stopped by
+    the same gradient tolerance ``LBFGS_GTOL``, which it meets in a few iterations; elsewhere, and
+    whenever Newton's method cannot proceed (a Hessian not numerically positive definite, a failed
+    line search, ``NEWTON_MAX_ITER`` reached), by L-BFGS-B (Byrd, Lu, Nocedal & Zhu 1995) from the
+    same start, analytic gradient, tolerances ``LBFGS_GTOL`` and ``LBFGS_FTOL``, at most
+    ``LBFGS_MAX_ITER`` iterations. Both minimize the same strictly convex function (up to the
+    intercepts' common shift for K > 2), so they reach the same optimum to the tolerance. Collinear or constant features need no special case (the penalty makes the optimum
     unique), and the penalty keeps the fit finite on separable data.
 
     References
@@ -478,6 +608,8 @@ def fit_logistic(
     Statistics 41, 191-201.
     Byrd, R. H., Lu, P., Nocedal, J. & Zhu, C. (1995). A limited memory algorithm for bound constrained
     optimization. SIAM Journal on Scientific Computing 16, 1190-1208.
+    Nocedal, J. & Wright, S. J. (2006). Numerical Optimization, 2nd ed. Springer (Newton's method with
+    a backtracking line search, chapters 3.1 and 3.4).
 
     Examples
     --------
@@ -583,7 +715,7 @@ class LogisticEstimate:
     fit : LogisticFit or None
         The fit at the chosen C on all rows used: which features carry the signal.
     all_converged : bool
-        Whether every fit met L-BFGS-B's tolerances.
+        Whether every fit met the solver's tolerances.
     skipped : str or None
         Why nothing was estimated (then the figures are None and the arrays empty), or None.
     """
