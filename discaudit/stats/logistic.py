@@ -441,6 +441,163 @@ def _newton(
     return None
 
 
+class _Folds:
+    """The training problems of every fold at one C, stacked: the fits of :func:`_solve`, solved together.
+
+    Fold f's problem is the one :func:`_solve` poses on the rows outside fold f, in its coordinates
+    (``spread`` from that fold's row count): the held-out rows enter with weight 0, so each objective is
+    that fold's function, only summed over a longer array. Newton's method then runs on all folds at
+    once, each fold with its own step length, and stops for each fold by :func:`_newton`'s criteria.
+    """
+
+    def __init__(self, basis: _Basis, fold: IntArray, n_folds: int, codes: IntArray, n_classes: int, C: float):
+        Y = basis.Y
+        m, p = Y.shape
+        self.K = n_classes
+        self.weight = (fold[None, :] != np.arange(n_folds)[:, None]).astype(np.float64)  # (F, m)
+        self.n = self.weight.sum(axis=1)
+        self.spread = np.sqrt(basis.sigma[None, :] + 1.0 / (PRECONDITION_CURVATURE * C * self.n[:, None]))
+        self.Z1 = np.empty((n_folds, m, p + 1))
+        self.Z1[:, :, :p] = Y[None, :, :] / self.spread[:, None, :]
+        self.Z1[:, :, p] = 1.0
+        self.penalty = 1.0 / (self.spread * self.spread)
+        self.strength = 1.0 / (C * self.n)
+        self.scaled = self.weight / self.n[:, None]  # w_fi / n_f
+        if n_classes == 2:
+            self.target = (codes == 1).astype(np.float64)
+        else:
+            self.target = (codes[None, :] == np.arange(n_classes)[:, None]).astype(np.float64)  # (K, m)
+
+    def start(self, basis: _Basis, starts: list[_Params | None]) -> FloatArray:
+        K = 1 if self.K == 2 else self.K
+        p = basis.Y.shape[1]
+        x0 = np.zeros((len(starts), K * (p + 1)))
+        for f, start in enumerate(starts):
+            if start is not None:
+                W0, b0 = start
+                x0[f] = np.column_stack([(W0 @ basis.vectors) * self.spread[f], b0]).ravel()
+        return x0
+
+    def objective(self, idx: IntArray, theta: FloatArray) -> tuple[FloatArray, FloatArray]:
+        """Objectives (len(idx),) and gradients (len(idx), d) of the folds ``idx`` at ``theta``."""
+        Z1, scaled, penalty, strength = self.Z1[idx], self.scaled[idx], self.penalty[idx], self.strength[idx]
+        if self.K == 2:
+            z = np.matmul(Z1, theta[:, :, None])[:, :, 0]
+            loss = np.sum(scaled * (np.logaddexp(0.0, z) - self.target * z), axis=1)
+            residual = (expit(z) - self.target) * scaled
+            grad = np.matmul(residual[:, None, :], Z1)[:, 0, :]
+            w = theta[:, :-1]
+            pw = penalty * w
+            grad[:, :-1] += strength[:, None] * pw
+            return loss + 0.5 * strength * np.sum(w * pw, axis=1), grad
+        K = self.K
+        T = theta.reshape(len(idx), K, -1)
+        S = np.matmul(T, Z1.transpose(0, 2, 1))  # (F, K, m)
+        S -= S.max(axis=1, keepdims=True)
+        own = np.sum(S * self.target, axis=1)
+        np.exp(S, out=S)
+        total = S.sum(axis=1)
+        loss = np.sum(scaled * (np.log(total) - own), axis=1)
+        S /= total[:, None, :]
+        S -= self.target
+        S *= scaled[:, None, :]
+        grad = np.matmul(S, Z1)  # (F, K, q)
+        W = T[:, :, :-1]
+        PW = W * penalty[:, None, :]
+        grad[:, :, :-1] += strength[:, None, None] * PW
+        return loss + 0.5 * strength * np.sum(W * PW, axis=(1, 2)), grad.reshape(len(idx), -1)
+
+    def hessian(self, idx: IntArray, theta: FloatArray) -> FloatArray:
+        """Hessians (len(idx), d, d): :func:`_binary_hessian` / :func:`_multinomial_hessian` per fold."""
+        Z1, scaled, penalty, strength = self.Z1[idx], self.scaled[idx], self.penalty[idx], self.strength[idx]
+        F, _, q = Z1.shape
+        p = q - 1
+        if self.K == 2:
+            z = np.matmul(Z1, theta[:, :, None])[:, :, 0]
+            weight = expit(z) * expit(-z) * scaled
+            H = np.matmul((Z1 * weight[:, :, None]).transpose(0, 2, 1), Z1)
+            H[:, np.arange(p), np.arange(p)] += strength[:, None] * penalty
+            return np.asarray(H, dtype=np.float64)
+        K = self.K
+        P = np.matmul(theta.reshape(F, K, q), Z1.transpose(0, 2, 1))
+        P -= P.max(axis=1, keepdims=True)
+        np.exp(P, out=P)
+        P /= P.sum(axis=1, keepdims=True)
+        H = np.empty((F, K * q, K * q))
+        for k in range(K):
+            rows = slice(k * q, (k + 1) * q)
+            for m in range(k, K):
+                weight = P[:, k] * ((1.0 if m == k else 0.0) - P[:, m]) * scaled
+                block = np.matmul((Z1 * weight[:, :, None]).transpose(0, 2, 1), Z1)
+                H[:, rows, m * q : (m + 1) * q] = block
+                H[:, m * q : (m + 1) * q, rows] = block.transpose(0, 2, 1)
+        positions = np.arange(K * q).reshape(K, q)
+        diagonal = positions[:, :-1].ravel()
+        H[:, diagonal, diagonal] += np.tile(strength[:, None] * penalty, (1, K))
+        intercepts = positions[:, -1]
+        H[:, intercepts[:, None], intercepts[None, :]] += 1.0 / K
+        return H
+
+
+def _newton_folds(problems: _Folds, x0: FloatArray) -> tuple[FloatArray, BoolArray]:
+    """:func:`_newton` on every fold at once; returns the parameters (F, d) and which folds converged.
+
+    A fold whose Hessian is not numerically positive definite, whose line search fails or that reaches
+    ``NEWTON_MAX_ITER`` is reported as not converged (the caller solves it alone).
+    """
+    theta = np.array(x0, dtype=np.float64)
+    F = theta.shape[0]
+    everything = np.arange(F)
+    f, g = problems.objective(everything, theta)
+    active = np.ones(F, dtype=np.bool_)
+    converged = np.zeros(F, dtype=np.bool_)
+    for _ in range(NEWTON_MAX_ITER):
+        done = active & (np.max(np.abs(g), axis=1) <= LBFGS_GTOL)
+        converged |= done
+        active &= ~done
+        idx = np.flatnonzero(active)
+        if idx.size == 0:
+            break
+        H = problems.hessian(idx, theta[idx])
+        usable = np.ones(idx.size, dtype=np.bool_)
+        try:
+            np.linalg.cholesky(H)  # positive definite, every fold (the test of :func:`_newton`)
+        except np.linalg.LinAlgError:
+            for i in range(idx.size):
+                try:
+                    np.linalg.cholesky(H[i])
+                except np.linalg.LinAlgError:
+                    usable[i] = False
+                    H[i] = np.eye(H.shape[1])  # a placeholder; the fold is dropped below
+        step = -np.linalg.solve(H, g[idx][:, :, None])[:, :, 0]
+        slope = np.einsum("ij,ij->i", g[idx], np.where(usable[:, None], step, 0.0))
+        usable &= np.all(np.isfinite(step), axis=1) & (slope < 0.0)
+        active[idx[~usable]] = False
+        idx, step, slope = idx[usable], step[usable], slope[usable]
+        small = -0.5 * slope <= LBFGS_FTOL * np.maximum(np.abs(f[idx]), 1.0)
+        t = np.ones(idx.size)
+        pending = np.ones(idx.size, dtype=np.bool_)
+        for _ in range(NEWTON_MAX_HALVINGS):
+            sel = np.flatnonzero(pending)
+            trial = theta[idx[sel]] + t[sel, None] * step[sel]
+            f_new, g_new = problems.objective(idx[sel], trial)
+            ok = f_new <= f[idx[sel]] + ARMIJO * t[sel] * slope[sel]
+            accepted = sel[ok]
+            theta[idx[accepted]] = trial[ok]
+            f[idx[accepted]], g[idx[accepted]] = f_new[ok], g_new[ok]
+            pending[accepted] = False
+            t[sel[~ok]] *= 0.5
+            if not pending.any():
+                break
+        stuck = idx[pending]
+        converged[stuck[small[pending]]] = True
+        active[stuck] = False
+        finished = idx[~pending & small]
+        converged[finished] = True
+        active[finished] = False
+    return theta, converged
+
+
 def _solve(
     basis: _Basis, rows: npt.NDArray[np.bool_] | None, codes: IntArray, n_classes: int, C: float, start: _Params | None
 ) -> tuple[_Params, float, int, bool]:
@@ -827,8 +984,10 @@ def cross_validated_logistic(
 
     Cross-validation (Stone 1974). For each fold the model is fitted on the other folds at each C in
     ascending order, each fit starting from the previous C's fit of that fold (a path; the first from
-    zero), and predicts the held-out rows. The cross-validated log-loss of a C is the mean over all rows
-    used of -ln p(class | row), pooled over the folds (not a mean of fold means); C is its argmin over
+    zero), and predicts the held-out rows. Where :func:`fit_logistic` would use Newton's method, the
+    folds' fits at one C are solved together, each to the same tolerance (the same optimum). The
+    cross-validated log-loss of a C is the mean over all rows used of -ln p(class | row), pooled over
+    the folds (not a mean of fold means); C is its argmin over
     the grid, first of ties, i.e. the strongest penalty among equals. The reported figures are those
     of the chosen C; ``fit`` is refitted on all rows used at that C, starting from the mean of the fold
     fits. ``scale`` is taken as fixed: a scaler refitted on each training fold is not reproduced.
@@ -924,12 +1083,24 @@ def cross_validated_logistic(
     correct = np.empty((len(grid), m), dtype=np.bool_)
     paths: list[list[_Params]] = [[] for _ in grid]
     converged = True
-    for f in range(F):
-        train, test = fold != f, fold == f
-        params: _Params | None = None
-        for g, C in enumerate(grid):
-            params, _, _, ok = _solve(basis, train, cs[train], K, C, params)
-            converged &= ok
+    d = (1 if K == 2 else K) * (Xs.shape[1] + 1)
+    largest_fold = m - int(np.bincount(fold, minlength=F).min())  # rows of the largest training set
+    together = d <= NEWTON_MAX_PARAMS and largest_fold * d * d <= NEWTON_MAX_WORK
+    previous: list[_Params | None] = [None] * F
+    for g, C in enumerate(grid):
+        # Each fold's fit starts from its fit at the previous C (a path); the folds are solved together
+        # where Newton's method applies, any fold it leaves unconverged (and every fold elsewhere) alone.
+        if together:
+            problems = _Folds(basis, fold, F, cs, K, C)
+            theta, solved = _newton_folds(problems, problems.start(basis, previous))
+        for f in range(F):
+            train, test = fold != f, fold == f
+            if together and solved[f]:
+                params = _params_of(theta[f], basis, problems.spread[f], 1 if K == 2 else K, Xs.shape[1])
+            else:
+                params, _, _, ok = _solve(basis, train, cs[train], K, C, previous[f])
+                converged &= ok
+            previous[f] = params
             paths[g].append(params)
             correct[g, test], nll[g, test] = _row_figures(_scores(basis, test, params, K), cs[test], K)
 
