@@ -106,7 +106,8 @@ TARGETS_TEXT = [
     f"at (1e5, 30) the full audit is at least {HAND_SPEEDUP:g}x faster than the hand-scripted checks;",
     f"at (1e6, 50) the full audit takes at most {LDA_MULTIPLE:g}x one LDA fit;",
     f"at (1e6, 50) the audit's extra memory is at most {MEMORY_MULTIPLE:g}x the input;",
-    f"`import discaudit` takes at most {IMPORT_MULTIPLE:g}x `import numpy, scipy.stats, pandas`.",
+    f"`import discaudit` with everything a first audit loads takes at most {IMPORT_MULTIPLE:g}x "
+    "`import numpy, scipy.stats, pandas`.",
 ]
 
 
@@ -486,13 +487,31 @@ def describe_failure(res: dict[str, Any]) -> str:
 
 _IMPORT_TIMER = "import time\nt0 = time.perf_counter()\nimport {modules}\nprint(time.perf_counter() - t0)\n"
 BASELINE_IMPORT = "numpy, scipy.stats, pandas"
+#: ``import discaudit`` alone loads almost nothing (the package imports its modules on first use), so
+#: the start-up that counts is the import plus a first audit of a tiny array, less that audit run again
+#: in the same interpreter (its own arithmetic): the cost of every module an audit of a numpy array loads.
+_FIRST_AUDIT = (
+    "import time\n"
+    "t0 = time.perf_counter()\n"
+    "import discaudit\n"
+    "import numpy as np\n"
+    "X = np.random.default_rng(0).standard_normal((60, 3))\n"
+    "y = np.repeat([0, 1, 2], 20)\n"
+    "discaudit.preflight(X, y, random_state=0)\n"
+    "t1 = time.perf_counter()\n"
+    "discaudit.preflight(X, y, random_state=0)\n"
+    "print(t1 - t0, time.perf_counter() - t1)\n"
+)
 _EXTRA_MODULES = (
     "import json, sys\n"
     "import numpy, scipy.stats, pandas\n"
     "base = set(sys.modules)\n"
     "import discaudit\n"
+    "on_import = sorted({m.split('.')[0] for m in set(sys.modules) - base} - {'discaudit'})\n"
+    "X = numpy.random.default_rng(0).standard_normal((60, 3))\n"
+    "discaudit.preflight(X, numpy.repeat([0, 1, 2], 20), random_state=0)\n"
     "extra = sorted({m.split('.')[0] for m in set(sys.modules) - base} - {'discaudit'})\n"
-    "print(json.dumps({'extra': extra, 'file': discaudit.__file__}))\n"
+    "print(json.dumps({'extra': extra, 'on_import': on_import, 'file': discaudit.__file__}))\n"
 )
 
 
@@ -529,9 +548,10 @@ def measure_imports(env: dict[str, str], runs: int = STARTUP_RUNS) -> dict[str, 
     included.
     """
     times: dict[str, list[float]] = {"discaudit": [], "baseline": [], "discaudit_wall": [], "baseline_wall": []}
-    times["python_wall"] = []
+    times.update(python_wall=[], first_audit=[], warm_audit=[], startup=[], first_audit_wall=[])
     for modules in ("discaudit", BASELINE_IMPORT):  # warm-up: fills a bytecode cache, if any
         _fresh([sys.executable, "-c", f"import {modules}"], env)
+    _fresh([sys.executable, "-c", _FIRST_AUDIT], env)
     for _ in range(runs):
         for key, modules in (("discaudit", "discaudit"), ("baseline", BASELINE_IMPORT)):
             wall, done = _fresh([sys.executable, "-c", _IMPORT_TIMER.format(modules=modules)], env)
@@ -539,6 +559,14 @@ def measure_imports(env: dict[str, str], runs: int = STARTUP_RUNS) -> dict[str, 
                 return {"status": "error", "message": done.stderr[-500:]}
             times[key].append(float(done.stdout.split()[-1]))
             times[key + "_wall"].append(wall)
+        wall, done = _fresh([sys.executable, "-c", _FIRST_AUDIT], env)
+        if done.returncode != 0:
+            return {"status": "error", "message": done.stderr[-500:]}
+        first, warm = (float(x) for x in done.stdout.split()[-2:])
+        times["first_audit"].append(first)
+        times["warm_audit"].append(warm)
+        times["startup"].append(first - warm)
+        times["first_audit_wall"].append(wall)
         wall, _ = _fresh([sys.executable, "-c", "pass"], env)
         times["python_wall"].append(wall)
     _, done = _fresh([sys.executable, "-c", _EXTRA_MODULES], env)
@@ -552,6 +580,7 @@ def measure_imports(env: dict[str, str], runs: int = STARTUP_RUNS) -> dict[str, 
         **{k: min(v) for k, v in times.items()},
         "runs": times,
         "extra_modules": facts["extra"],
+        "modules_on_import": facts["on_import"],
     }
 
 
@@ -614,21 +643,28 @@ def startup_lines(entry: dict[str, Any]) -> list[str]:
     lines = []
     imp, cli = entry.get("import", {}), entry.get("cli", {})
     if imp.get("status") == "ok":
+        if "startup" in imp:
+            lines.append(
+                f"import discaudit and a first audit of a 60 x 3 array, less its warm re-run: {imp['startup']:.3f} s "
+                f"(first {imp['first_audit']:.3f} s, warm {imp['warm_audit']:.3f} s), against import "
+                f"{BASELINE_IMPORT} {imp['baseline']:.3f} s: ratio {imp['startup'] / imp['baseline']:.2f}x"
+            )
         lines.append(
-            f"import discaudit {imp['discaudit']:.3f} s, import {BASELINE_IMPORT} {imp['baseline']:.3f} s "
-            f"(ratio {imp['discaudit'] / imp['baseline']:.2f}x); whole processes {imp['discaudit_wall']:.3f} s "
-            f"and {imp['baseline_wall']:.3f} s, `python -c pass` {imp['python_wall']:.3f} s"
+            f"import discaudit alone {imp['discaudit']:.3f} s (the package imports its modules on first use); whole "
+            f"processes {imp['discaudit_wall']:.3f} s and {imp['baseline_wall']:.3f} s, `python -c pass` "
+            f"{imp['python_wall']:.3f} s"
         )
         extra = ", ".join(imp["extra_modules"]) or "none"
-        lines.append(f"packages `import discaudit` loads beyond {BASELINE_IMPORT}: {extra}")
+        lines.append(f"packages an audit of a numpy array loads beyond {BASELINE_IMPORT}: {extra}")
     else:
         lines.append(f"import: failed: {imp.get('message', '?')}")
     source = entry.get("import_from_source", {})
     if source.get("status") == "ok":
+        basis = source.get("startup", source["discaudit"])
         lines.append(
-            f"with PYTHONDONTWRITEBYTECODE as set here (the checkout compiled at every start): import discaudit "
-            f"{source['discaudit']:.3f} s against {source['baseline']:.3f} s "
-            f"({source['discaudit'] / source['baseline']:.2f}x; not the target's basis)"
+            f"with PYTHONDONTWRITEBYTECODE as set here (the checkout compiled at every start): import and first "
+            f"audit {basis:.3f} s against {source['baseline']:.3f} s "
+            f"({basis / source['baseline']:.2f}x; not the target's basis)"
         )
     if cli.get("status") == "ok" and imp.get("status") == "ok":
         lines.append(
@@ -647,40 +683,53 @@ def render_startup(startups: list[dict[str, Any]]) -> list[str]:
         return []
     L = ["## Start-up (seconds, best of fresh interpreters)", ""]
     L.append(
-        f"Import times are measured inside the interpreter around the import statement; whole processes "
-        f"include the interpreter's own start-up. Runs alternate between the sides ({STARTUP_RUNS} each; the "
-        f"CLI {CLI_RUNS} each, text and HTML)."
+        "`import discaudit` alone loads almost nothing: the package imports its modules on first use. The "
+        "start-up that counts (the ratio's basis) is measured in a fresh interpreter as the time from `import "
+        "discaudit` to the end of a first `preflight` of a 60 x 3 array, less the same `preflight` run again "
+        "in that interpreter (the audit's own arithmetic): every module an audit of a numpy array loads, "
+        "numpy, scipy and pandas included. The baseline is `import numpy, scipy.stats, pandas`, timed around "
+        "the import statement. Whole processes include the interpreter's own start-up. Runs alternate "
+        f"between the sides ({STARTUP_RUNS} each; the CLI {CLI_RUNS} each, text and HTML)."
     )
     L.append("")
     L.append(
-        f"| row | date | import discaudit | import {BASELINE_IMPORT} | ratio | process: discaudit | "
-        "process: baseline | process: `pass` | CLI text | CLI html | extra packages |"
+        f"| row | date | import + first audit, less warm | (first, warm audit) | import {BASELINE_IMPORT} | ratio | "
+        "import discaudit alone | process: first audit | process: baseline | process: `pass` | CLI text | "
+        "CLI html | extra packages |"
     )
-    L.append("|---" * 11 + "|")
+    L.append("|---" * 13 + "|")
     for e in startups:
         imp, cli = e.get("import", {}), e.get("cli", {})
         if imp.get("status") != "ok":
-            L.append(f"| {any_label(e)} | {e['date']} | failed | | | | | | | | |")
+            L.append(f"| {any_label(e)} | {e['date']} | failed |" + " |" * 11)
             continue
         text = f"{cli['text']:.2f}" if cli.get("status") == "ok" else "failed"
         html = f"{cli['html']:.2f}" if cli.get("status") == "ok" else "failed"
+        if "startup" in imp:
+            basis, pair = f"{imp['startup']:.3f}", f"{imp['first_audit']:.3f}, {imp['warm_audit']:.3f}"
+            ratio, wall = f"{imp['startup'] / imp['baseline']:.2f}x", f"{imp['first_audit_wall']:.3f}"
+        else:  # a row written before the first audit was measured: the import alone
+            basis, pair = "not measured", ""
+            ratio, wall = f"{imp['discaudit'] / imp['baseline']:.2f}x (import alone)", ""
         L.append(
-            f"| {any_label(e)} | {e['date']} | {imp['discaudit']:.3f} | {imp['baseline']:.3f} | "
-            f"{imp['discaudit'] / imp['baseline']:.2f}x | {imp['discaudit_wall']:.3f} | {imp['baseline_wall']:.3f} | "
-            f"{imp['python_wall']:.3f} | {text} | {html} | {', '.join(imp['extra_modules']) or 'none'} |"
+            f"| {any_label(e)} | {e['date']} | {basis} | {pair} | {imp['baseline']:.3f} | {ratio} | "
+            f"{imp['discaudit']:.3f} | {wall} | {imp['baseline_wall']:.3f} | {imp['python_wall']:.3f} | {text} | "
+            f"{html} | {', '.join(imp['extra_modules']) or 'none'} |"
         )
     L.append("")
     L.append(
         "Both sides import from cached bytecode (`PYTHONPYCACHEPREFIX` in a temporary directory, filled by a "
-        "warm-up run), as an installed package does."
+        "warm-up run), as an installed package does. Extra packages: those loaded by the import and the "
+        f"first audit beyond `import {BASELINE_IMPORT}`."
     )
     for e in startups:
         source = e.get("import_from_source", {})
         if source.get("status") == "ok":
+            basis = source.get("startup", source["discaudit"])
             L.append(
                 f"{any_label(e)}: this environment sets PYTHONDONTWRITEBYTECODE, so a checkout's own modules are "
-                f"compiled at every start; so measured, import discaudit took {source['discaudit']:.3f} s against "
-                f"{source['baseline']:.3f} s ({source['discaudit'] / source['baseline']:.2f}x)."
+                f"compiled at every start; so measured, the import and first audit took {basis:.3f} s against "
+                f"{source['baseline']:.3f} s ({basis / source['baseline']:.2f}x)."
             )
     L.append("")
     cli = startups[0].get("cli", {})
@@ -828,8 +877,13 @@ def evaluate_targets(entries: dict[str, dict[str, Any]], blas_threads: int | Non
         imp = entry.get("import", {})
         if imp.get("status") != "ok":
             return {"measured": "n/a", "verdict": "not measured (a run failed)"}
-        r = imp["discaudit"] / imp["baseline"]
-        measured = f"{r:.2f}x (import discaudit {imp['discaudit']:.3f} s, numpy + scipy.stats + pandas {imp['baseline']:.3f} s)"
+        if "startup" not in imp:
+            return {"measured": "n/a", "verdict": "not measured (a row from before the first audit was timed)"}
+        r = imp["startup"] / imp["baseline"]
+        measured = (
+            f"{r:.2f}x (import discaudit and a first audit, less its warm re-run, {imp['startup']:.3f} s; "
+            f"numpy + scipy.stats + pandas {imp['baseline']:.3f} s)"
+        )
         if r <= IMPORT_MULTIPLE:
             return {"measured": measured, "verdict": f"holds ({IMPORT_MULTIPLE / r:.2f}x margin)"}
         return {"measured": measured, "verdict": f"MISSES by {r / IMPORT_MULTIPLE:.2f}x"}
@@ -851,7 +905,12 @@ def evaluate_targets(entries: dict[str, dict[str, Any]], blas_threads: int | Non
     )
     add(f"(1,000,000, 50): at most {LDA_MULTIPLE:g}x one LDA fit", "1e6x50", vs_lda)
     add(f"(1,000,000, 50): extra memory at most {MEMORY_MULTIPLE:g}x the input", "1e6x50", memory)
-    add(f"import discaudit at most {IMPORT_MULTIPLE:g}x import numpy, scipy.stats, pandas", STARTUP, imports)
+    add(
+        f"import discaudit (with what a first audit loads) at most {IMPORT_MULTIPLE:g}x import numpy, scipy.stats, "
+        "pandas",
+        STARTUP,
+        imports,
+    )
     return out
 
 

@@ -19,6 +19,7 @@ from sklearn.linear_model import LogisticRegression
 from sklearn.preprocessing import StandardScaler
 
 from discaudit.errors import DataError
+from discaudit.stats import logistic
 from discaudit.stats.logistic import (
     DEFAULT_C_GRID,
     LogisticFit,
@@ -100,9 +101,19 @@ def _objective(est: LogisticRegression, X_fit: np.ndarray, y: np.ndarray, C: flo
     return float(-logp.sum() + np.sum(est.coef_**2) / (2.0 * C))
 
 
+@pytest.fixture(params=["newton", "lbfgs"])
+def solver(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch) -> str:
+    """Each of the two solvers of the fits on every case: Newton's method where it is allowed, or L-BFGS-B only."""
+    if request.param == "newton":
+        monkeypatch.setattr(logistic, "NEWTON_MAX_WORK", float("inf"))
+    else:
+        monkeypatch.setattr(logistic, "NEWTON_MAX_PARAMS", 0)
+    return str(request.param)
+
+
 @pytest.mark.parametrize("C", [0.01, 1.0, 100.0])
 @pytest.mark.parametrize("case", list(CASES))
-def test_fit_matches_sklearn_at_its_optimum(case: str, C: float) -> None:
+def test_fit_matches_sklearn_at_its_optimum(case: str, C: float, solver: str) -> None:
     load, standardized = CASES[case]
     X, y = load()
     K = int(y.max()) + 1
@@ -245,6 +256,24 @@ def _check_cv_against_sklearn(X, y, *, scale=None, grid=DEFAULT_C_GRID, **kw):
         sizes = np.bincount(est.fold[y[est.rows] == k], minlength=est.folds)
         assert sizes.max() - sizes.min() <= 1
     return est
+
+
+@pytest.mark.parametrize("load", [_wine, _cancer, _iris])
+def test_newton_and_lbfgs_reach_the_same_estimate(load, monkeypatch: pytest.MonkeyPatch) -> None:
+    # Property: the two solvers minimize one strictly convex objective, so every out-of-fold figure agrees
+    # to the solvers' tolerance and every classification is the same.
+    X, y = load()
+    K = int(y.max()) + 1
+    monkeypatch.setattr(logistic, "NEWTON_MAX_WORK", float("inf"))
+    newton = cross_validated_logistic(X, y, K, scale=X.std(axis=0), random_state=1)
+    monkeypatch.setattr(logistic, "NEWTON_MAX_PARAMS", 0)
+    lbfgs = cross_validated_logistic(X, y, K, scale=X.std(axis=0), random_state=1)
+    assert newton.all_converged and lbfgs.all_converged and newton.C == lbfgs.C
+    np.testing.assert_array_equal(newton.correct, lbfgs.correct)
+    np.testing.assert_allclose(np.exp(-newton.neg_log_prob), np.exp(-lbfgs.neg_log_prob), atol=PROB_ATOL)
+    np.testing.assert_allclose(newton.cv_log_loss, lbfgs.cv_log_loss, rtol=1e-5)
+    assert newton.fit is not None and lbfgs.fit is not None
+    assert newton.fit.objective <= lbfgs.fit.objective * (1.0 + 1e-9)  # Newton stops at least as low
 
 
 def test_wine_out_of_fold_predictions_match_sklearn_refits() -> None:

@@ -36,6 +36,15 @@ def _is_dask_frame(X: Any) -> bool:
     return frames is not None and isinstance(X, frames.DataFrame)
 
 
+def _is_in_memory(X: Any) -> bool:
+    """A numpy array, a pandas frame or series, or a plain sequence: :mod:`~discaudit.sources.memory` reads
+    it, and no other library need be imported to tell (narwhals costs about 20 ms to import)."""
+    if isinstance(X, (list, tuple)) or type(X).__module__ == "numpy":
+        return True
+    pandas = sys.modules.get("pandas")  # a pandas object exists only once pandas is imported
+    return pandas is not None and isinstance(X, (pandas.DataFrame, pandas.Series))
+
+
 def _is_lazy_frame(X: Any) -> bool:
     """A lazy frame narwhals knows (Polars LazyFrame, DuckDB relation, Spark, Ibis), by type only."""
     from narwhals import dependencies as nwd
@@ -55,6 +64,10 @@ def open_source(
     X: Any, y: Any = None, *, target: str | None = None, config: Config, random_state: int | None
 ) -> AuditData:
     """Validated data from any supported input, chosen by the input's type."""
+    if _is_in_memory(X):
+        from discaudit.sources.memory import load
+
+        return load(X, y, target=target, config=config)
     if _is_dask_frame(X):
         from discaudit.sources.dask import load_dask
 

@@ -125,7 +125,9 @@ def _pair_angles(T: FloatArray, weights: FloatArray) -> FloatArray:
         h = np.einsum("k,pk->p", weights, (2.0 * r2 * np.cos(u) * D - (r2 * np.sin(u)) ** 2) / D**2)
         lo, hi = np.where(g > 0, lo, phi), np.where(g > 0, phi, hi)  # the minimum lies where f' changes sign
         step = np.where(h > 0, phi - g / np.where(h > 0, h, 1.0), (lo + hi) / 2.0)
-        new = np.where((step > lo) & (step < hi), step, (lo + hi) / 2.0)
+        # A Newton step onto an end of the bracket is kept: once phi is the root to rounding, the bracket
+        # ends at phi and the step returns to it (a strict test bisected some 40 times towards it instead).
+        new = np.where((step >= lo) & (step <= hi), step, (lo + hi) / 2.0)
         if np.max(np.abs(new - phi)) < 1e-14:
             return np.asarray(new / 2.0, dtype=np.float64)
         phi = new

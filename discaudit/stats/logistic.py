@@ -18,6 +18,7 @@ from typing import Any
 
 import numpy as np
 import numpy.typing as npt
+from scipy.linalg import solve_triangular
 from scipy.optimize import minimize
 from scipy.special import expit
 
@@ -104,9 +105,9 @@ class LogisticFit:
     objective : float
         The penalized negative log-likelihood at the fit, sum_i -ln p(y_i | x_i) + ||coef||^2 / (2 C).
     n_iter : int
-        L-BFGS-B iterations taken.
+        Iterations taken (Newton's or L-BFGS-B's, see :func:`fit_logistic`).
     converged : bool
-        Whether L-BFGS-B met its tolerances (``LBFGS_GTOL`` or ``LBFGS_FTOL``) within ``LBFGS_MAX_ITER``.
+        Whether the solver met its tolerances (``LBFGS_GTOL`` or ``LBFGS_FTOL``) within its iterations.
     """
 
     n_classes: int
@@ -280,6 +281,24 @@ _Params = tuple[FloatArray, FloatArray]
 #: sets only the optimizer's coordinates (see :func:`_solve`), never the optimum.
 PRECONDITION_CURVATURE = 0.25
 
+#: Newton's method (exact Hessian) is used where the parameters are few, d = K' (p + 1) with K' = 1 for two
+#: classes and K for more, at most NEWTON_MAX_PARAMS, and a Hessian is cheap, n d^2 (its cost, up to a
+#: constant) at most NEWTON_MAX_WORK. There about five Hessians and their Cholesky factors cost less
+#: than the tens of L-BFGS-B iterations they replace; on more rows a well-conditioned L-BFGS-B needs few
+#: iterations and is the cheaper (design choice, measured with one BLAS thread: Newton 2x to 3.5x faster
+#: on iris, wine and breast cancer, even at (500, 8), 1.1x to 3x slower from (2,000, 10) to (1e5, 30)).
+NEWTON_MAX_PARAMS = 160
+NEWTON_MAX_WORK = 1.0e6
+
+#: Newton iterations at most before L-BFGS-B takes over from the start (design choice: from a warm start
+#: a fit takes 3 to 8, from zero on separable data up to about 25).
+NEWTON_MAX_ITER = 50
+
+#: Sufficient decrease of the Armijo condition f(x + t d) <= f(x) + ARMIJO t g'd (Nocedal & Wright's
+#: usual 1e-4), and the most halvings of t tried.
+ARMIJO = 1.0e-4
+NEWTON_MAX_HALVINGS = 40
+
 
 def _scores(basis: _Basis, rows: BoolArray, params: _Params, n_classes: int) -> FloatArray:
     """Scores b + (u - u_bar) W' = b + Y (W V)' of the selected rows: shape (n,) for K = 2, (n, K) else."""
@@ -332,6 +351,253 @@ def _multinomial_objective(
     return loss + 0.5 * strength * float(np.sum(W * PW)), grad.ravel()
 
 
+def _binary_hessian(theta: FloatArray, Z: FloatArray, penalty: FloatArray, strength: float) -> FloatArray:
+    """Hessian of :func:`_binary_objective` in theta = (v, b): Z1' diag(q (1 - q) / n) Z1 + penalty on v."""
+    n, p = Z.shape
+    z = Z @ theta[:-1] + theta[-1]
+    weight = expit(z) * expit(-z) / n
+    Zw = Z * weight[:, None]
+    H = np.empty((p + 1, p + 1))
+    H[:p, :p] = Zw.T @ Z
+    H[:p, p] = H[p, :p] = Zw.sum(axis=0)
+    H[p, p] = weight.sum()
+    H[np.arange(p), np.arange(p)] += strength * penalty
+    return H
+
+
+def _multinomial_hessian(
+    theta: FloatArray, Z1: FloatArray, n_classes: int, penalty: FloatArray, strength: float
+) -> FloatArray:
+    """Hessian of :func:`_multinomial_objective` in theta = (v_k, b_k) by class, plus the intercepts' common shift.
+
+    With z1_i = (z_i, 1) and P_ik the fitted probabilities, the block of classes k, l is
+    sum_i P_ik (delta_kl - P_il) z1_i z1_i' / n, the penalty adds strength * penalty on each v_k. A common
+    shift of the K intercepts leaves the objective unchanged (the Hessian's null direction u, u_k = 1 on
+    the intercepts); u u' / K is added, which changes no Newton step, the gradient being orthogonal to
+    u (the intercepts' derivatives sum to zero over the classes), and makes the matrix positive definite.
+    """
+    n, q = Z1.shape
+    K = n_classes
+    S = theta.reshape(K, q) @ Z1.T
+    S -= S.max(axis=0)
+    np.exp(S, out=S)
+    S /= S.sum(axis=0) * np.sqrt(n)  # S = P / sqrt(n), so each block below carries the 1 / n
+    H = np.empty((K * q, K * q))
+    for k in range(K):
+        rows = slice(k * q, (k + 1) * q)
+        for m in range(k, K):
+            weight = S[k] * ((1.0 / np.sqrt(n) if m == k else 0.0) - S[m])
+            block = (Z1 * weight[:, None]).T @ Z1
+            H[rows, m * q : (m + 1) * q] = block
+            H[m * q : (m + 1) * q, rows] = block.T
+    weights = np.arange(K * q).reshape(K, q)
+    diagonal = weights[:, :-1].ravel()
+    H[diagonal, diagonal] += np.tile(strength * penalty, K)
+    intercepts = weights[:, -1]
+    H[np.ix_(intercepts, intercepts)] += 1.0 / K
+    return H
+
+
+def _newton(
+    objective: Any, args: tuple[object, ...], hessian: Any, hessian_args: tuple[object, ...], x0: FloatArray
+) -> tuple[FloatArray, float, int] | None:
+    """Minimize a smooth convex objective by Newton's method with a backtracking (Armijo) line search.
+
+    Stops, converged, when the largest entry of the gradient is at most ``LBFGS_GTOL`` (L-BFGS-B's own
+    criterion) or when the decrease the Newton step promises, half the Newton decrement g'H^-1 g, is
+    below ``LBFGS_FTOL`` relative to the objective (nothing further is resolvable in float64; the step
+    is taken). ``objective(theta, *args)`` returns the value and the gradient, ``hessian(theta,
+    *hessian_args)`` the Hessian. Returns (theta, objective, iterations), or None when the Hessian is
+    not numerically positive definite, the line search fails or ``NEWTON_MAX_ITER`` is reached (the
+    caller then uses L-BFGS-B).
+    Nocedal & Wright (2006), Numerical Optimization, 2nd ed., sections 3.1 and 3.4.
+    """
+    theta = np.array(x0, dtype=np.float64)
+    f, g = objective(theta, *args)
+    for it in range(NEWTON_MAX_ITER):
+        if float(np.max(np.abs(g))) <= LBFGS_GTOL:
+            return theta, f, it
+        try:
+            L = np.linalg.cholesky(hessian(theta, *hessian_args))
+        except np.linalg.LinAlgError:
+            return None
+        step = -solve_triangular(L.T, solve_triangular(L, g, lower=True), lower=False)
+        slope = float(g @ step)
+        if not (np.all(np.isfinite(step)) and slope < 0.0):
+            return None
+        small = -0.5 * slope <= LBFGS_FTOL * max(abs(f), 1.0)
+        t = 1.0
+        for _ in range(NEWTON_MAX_HALVINGS):
+            f_new, g_new = objective(theta + t * step, *args)
+            if f_new <= f + ARMIJO * t * slope:
+                break
+            t *= 0.5
+        else:
+            return (theta, f, it) if small else None
+        theta = theta + t * step
+        f, g = f_new, g_new
+        if small:
+            return theta, f, it + 1
+    return None
+
+
+class _Folds:
+    """The training problems of every fold at one C, stacked: the fits of :func:`_solve`, solved together.
+
+    Fold f's problem is the one :func:`_solve` poses on the rows outside fold f, in its coordinates
+    (``spread`` from that fold's row count): the held-out rows enter with weight 0, so each objective is
+    that fold's function, only summed over a longer array. Newton's method then runs on all folds at
+    once, each fold with its own step length, and stops for each fold by :func:`_newton`'s criteria.
+    """
+
+    def __init__(self, basis: _Basis, fold: IntArray, n_folds: int, codes: IntArray, n_classes: int, C: float):
+        Y = basis.Y
+        m, p = Y.shape
+        self.K = n_classes
+        self.weight = (fold[None, :] != np.arange(n_folds)[:, None]).astype(np.float64)  # (F, m)
+        self.n = self.weight.sum(axis=1)
+        self.spread = np.sqrt(basis.sigma[None, :] + 1.0 / (PRECONDITION_CURVATURE * C * self.n[:, None]))
+        self.Z1 = np.empty((n_folds, m, p + 1))
+        self.Z1[:, :, :p] = Y[None, :, :] / self.spread[:, None, :]
+        self.Z1[:, :, p] = 1.0
+        self.penalty = 1.0 / (self.spread * self.spread)
+        self.strength = 1.0 / (C * self.n)
+        self.scaled = self.weight / self.n[:, None]  # w_fi / n_f
+        if n_classes == 2:
+            self.target = (codes == 1).astype(np.float64)
+        else:
+            self.target = (codes[None, :] == np.arange(n_classes)[:, None]).astype(np.float64)  # (K, m)
+
+    def start(self, basis: _Basis, starts: list[_Params | None]) -> FloatArray:
+        K = 1 if self.K == 2 else self.K
+        p = basis.Y.shape[1]
+        x0 = np.zeros((len(starts), K * (p + 1)))
+        for f, start in enumerate(starts):
+            if start is not None:
+                W0, b0 = start
+                x0[f] = np.column_stack([(W0 @ basis.vectors) * self.spread[f], b0]).ravel()
+        return x0
+
+    def objective(self, idx: IntArray, theta: FloatArray) -> tuple[FloatArray, FloatArray]:
+        """Objectives (len(idx),) and gradients (len(idx), d) of the folds ``idx`` at ``theta``."""
+        Z1, scaled, penalty, strength = self.Z1[idx], self.scaled[idx], self.penalty[idx], self.strength[idx]
+        if self.K == 2:
+            z = np.matmul(Z1, theta[:, :, None])[:, :, 0]
+            loss = np.sum(scaled * (np.logaddexp(0.0, z) - self.target * z), axis=1)
+            residual = (expit(z) - self.target) * scaled
+            grad = np.matmul(residual[:, None, :], Z1)[:, 0, :]
+            w = theta[:, :-1]
+            pw = penalty * w
+            grad[:, :-1] += strength[:, None] * pw
+            return loss + 0.5 * strength * np.sum(w * pw, axis=1), grad
+        K = self.K
+        T = theta.reshape(len(idx), K, -1)
+        S = np.matmul(T, Z1.transpose(0, 2, 1))  # (F, K, m)
+        S -= S.max(axis=1, keepdims=True)
+        own = np.sum(S * self.target, axis=1)
+        np.exp(S, out=S)
+        total = S.sum(axis=1)
+        loss = np.sum(scaled * (np.log(total) - own), axis=1)
+        S /= total[:, None, :]
+        S -= self.target
+        S *= scaled[:, None, :]
+        grad = np.matmul(S, Z1)  # (F, K, q)
+        W = T[:, :, :-1]
+        PW = W * penalty[:, None, :]
+        grad[:, :, :-1] += strength[:, None, None] * PW
+        return loss + 0.5 * strength * np.sum(W * PW, axis=(1, 2)), grad.reshape(len(idx), -1)
+
+    def hessian(self, idx: IntArray, theta: FloatArray) -> FloatArray:
+        """Hessians (len(idx), d, d): :func:`_binary_hessian` / :func:`_multinomial_hessian` per fold."""
+        Z1, scaled, penalty, strength = self.Z1[idx], self.scaled[idx], self.penalty[idx], self.strength[idx]
+        F, _, q = Z1.shape
+        p = q - 1
+        if self.K == 2:
+            z = np.matmul(Z1, theta[:, :, None])[:, :, 0]
+            weight = expit(z) * expit(-z) * scaled
+            H = np.matmul((Z1 * weight[:, :, None]).transpose(0, 2, 1), Z1)
+            H[:, np.arange(p), np.arange(p)] += strength[:, None] * penalty
+            return np.asarray(H, dtype=np.float64)
+        K = self.K
+        P = np.matmul(theta.reshape(F, K, q), Z1.transpose(0, 2, 1))
+        P -= P.max(axis=1, keepdims=True)
+        np.exp(P, out=P)
+        P /= P.sum(axis=1, keepdims=True)
+        H = np.empty((F, K * q, K * q))
+        for k in range(K):
+            rows = slice(k * q, (k + 1) * q)
+            for m in range(k, K):
+                weight = P[:, k] * ((1.0 if m == k else 0.0) - P[:, m]) * scaled
+                block = np.matmul((Z1 * weight[:, :, None]).transpose(0, 2, 1), Z1)
+                H[:, rows, m * q : (m + 1) * q] = block
+                H[:, m * q : (m + 1) * q, rows] = block.transpose(0, 2, 1)
+        positions = np.arange(K * q).reshape(K, q)
+        diagonal = positions[:, :-1].ravel()
+        H[:, diagonal, diagonal] += np.tile(strength[:, None] * penalty, (1, K))
+        intercepts = positions[:, -1]
+        H[:, intercepts[:, None], intercepts[None, :]] += 1.0 / K
+        return H
+
+
+def _newton_folds(problems: _Folds, x0: FloatArray) -> tuple[FloatArray, BoolArray]:
+    """:func:`_newton` on every fold at once; returns the parameters (F, d) and which folds converged.
+
+    A fold whose Hessian is not numerically positive definite, whose line search fails or that reaches
+    ``NEWTON_MAX_ITER`` is reported as not converged (the caller solves it alone).
+    """
+    theta = np.array(x0, dtype=np.float64)
+    F = theta.shape[0]
+    everything = np.arange(F)
+    f, g = problems.objective(everything, theta)
+    active = np.ones(F, dtype=np.bool_)
+    converged = np.zeros(F, dtype=np.bool_)
+    for _ in range(NEWTON_MAX_ITER):
+        done = active & (np.max(np.abs(g), axis=1) <= LBFGS_GTOL)
+        converged |= done
+        active &= ~done
+        idx = np.flatnonzero(active)
+        if idx.size == 0:
+            break
+        H = problems.hessian(idx, theta[idx])
+        usable = np.ones(idx.size, dtype=np.bool_)
+        try:
+            np.linalg.cholesky(H)  # positive definite, every fold (the test of :func:`_newton`)
+        except np.linalg.LinAlgError:
+            for i in range(idx.size):
+                try:
+                    np.linalg.cholesky(H[i])
+                except np.linalg.LinAlgError:
+                    usable[i] = False
+                    H[i] = np.eye(H.shape[1])  # a placeholder; the fold is dropped below
+        step = -np.linalg.solve(H, g[idx][:, :, None])[:, :, 0]
+        slope = np.einsum("ij,ij->i", g[idx], np.where(usable[:, None], step, 0.0))
+        usable &= np.all(np.isfinite(step), axis=1) & (slope < 0.0)
+        active[idx[~usable]] = False
+        idx, step, slope = idx[usable], step[usable], slope[usable]
+        small = -0.5 * slope <= LBFGS_FTOL * np.maximum(np.abs(f[idx]), 1.0)
+        t = np.ones(idx.size)
+        pending = np.ones(idx.size, dtype=np.bool_)
+        for _ in range(NEWTON_MAX_HALVINGS):
+            sel = np.flatnonzero(pending)
+            trial = theta[idx[sel]] + t[sel, None] * step[sel]
+            f_new, g_new = problems.objective(idx[sel], trial)
+            ok = f_new <= f[idx[sel]] + ARMIJO * t[sel] * slope[sel]
+            accepted = sel[ok]
+            theta[idx[accepted]] = trial[ok]
+            f[idx[accepted]], g[idx[accepted]] = f_new[ok], g_new[ok]
+            pending[accepted] = False
+            t[sel[~ok]] *= 0.5
+            if not pending.any():
+                break
+        stuck = idx[pending]
+        converged[stuck[small[pending]]] = True
+        active[stuck] = False
+        finished = idx[~pending & small]
+        converged[finished] = True
+        active[finished] = False
+    return theta, converged
+
+
 def _solve(
     basis: _Basis, rows: npt.NDArray[np.bool_] | None, codes: IntArray, n_classes: int, C: float, start: _Params | None
 ) -> tuple[_Params, float, int, bool]:
@@ -361,6 +627,17 @@ def _solve(
     else:
         fun = _multinomial_objective
         args = (Z, codes * n + np.arange(n), n_classes, penalty, strength)
+    d = K * (p + 1)
+    if d <= NEWTON_MAX_PARAMS and n * d * d <= NEWTON_MAX_WORK:
+        if n_classes == 2:
+            hess: Any = _binary_hessian
+            hess_args: tuple[object, ...] = (Z, penalty, strength)
+        else:
+            hess = _multinomial_hessian
+            hess_args = (np.column_stack([Z, np.ones(n)]), n_classes, penalty, strength)
+        found = _newton(fun, args, hess, hess_args, x0)
+        if found is not None:
+            return _params_of(found[0], basis, spread, K, p), found[1], found[2], True
     res = minimize(
         fun,
         x0,
@@ -372,9 +649,13 @@ def _solve(
     theta = np.asarray(res.x, dtype=np.float64)
     if not np.all(np.isfinite(theta)):  # cannot happen with a finite start and objective; kept as a guard
         theta = x0
+    return _params_of(theta, basis, spread, K, p), float(res.fun), int(res.nit), bool(res.success)
+
+
+def _params_of(theta: FloatArray, basis: _Basis, spread: FloatArray, K: int, p: int) -> _Params:
+    """The optimizer's coordinates back to coefficients of u and scores at the mean (see :func:`_solve`)."""
     T = theta.reshape(K, p + 1)
-    params = ((T[:, :-1] / spread) @ basis.vectors.T, T[:, -1].copy())
-    return params, float(res.fun), int(res.nit), bool(res.success)
+    return (T[:, :-1] / spread) @ basis.vectors.T, T[:, -1].copy()
 
 
 def _make_fit(
@@ -467,9 +748,15 @@ def fit_logistic(
     eigenbasis of their covariance (V diag(sigma) V') and each direction divided by
     sqrt(sigma_j + 1 / (a C n)), a = ``PRECONDITION_CURVATURE``, the penalty weighted to match, so that
     the minimizer is unchanged and only its conditioning improves (correlated features or features in
-    uneven units would otherwise slow L-BFGS by ten times and more). L-BFGS-B (Byrd, Lu, Nocedal & Zhu
-    1995), analytic gradient, tolerances ``LBFGS_GTOL`` and ``LBFGS_FTOL``, at most ``LBFGS_MAX_ITER``
-    iterations. Collinear or constant features need no special case (the penalty makes the optimum
+    uneven units would otherwise slow L-BFGS by ten times and more). Where the parameters are few and
+    the rows not many (``NEWTON_MAX_PARAMS``, ``NEWTON_MAX_WORK``) the minimum is found by Newton's
+    method with the exact Hessian and a backtracking line search (Nocedal & Wright 2006), stopped by
+    the same gradient tolerance ``LBFGS_GTOL``, which it meets in a few iterations; elsewhere, and
+    whenever Newton's method cannot proceed (a Hessian not numerically positive definite, a failed
+    line search, ``NEWTON_MAX_ITER`` reached), by L-BFGS-B (Byrd, Lu, Nocedal & Zhu 1995) from the
+    same start, analytic gradient, tolerances ``LBFGS_GTOL`` and ``LBFGS_FTOL``, at most
+    ``LBFGS_MAX_ITER`` iterations. Both minimize the same strictly convex function (up to the
+    intercepts' common shift for K > 2), so they reach the same optimum to the tolerance. Collinear or constant features need no special case (the penalty makes the optimum
     unique), and the penalty keeps the fit finite on separable data.
 
     References
@@ -478,6 +765,8 @@ def fit_logistic(
     Statistics 41, 191-201.
     Byrd, R. H., Lu, P., Nocedal, J. & Zhu, C. (1995). A limited memory algorithm for bound constrained
     optimization. SIAM Journal on Scientific Computing 16, 1190-1208.
+    Nocedal, J. & Wright, S. J. (2006). Numerical Optimization, 2nd ed. Springer (Newton's method with
+    a backtracking line search, chapters 3.1 and 3.4).
 
     Examples
     --------
@@ -583,7 +872,7 @@ class LogisticEstimate:
     fit : LogisticFit or None
         The fit at the chosen C on all rows used: which features carry the signal.
     all_converged : bool
-        Whether every fit met L-BFGS-B's tolerances.
+        Whether every fit met the solver's tolerances.
     skipped : str or None
         Why nothing was estimated (then the figures are None and the arrays empty), or None.
     """
@@ -695,8 +984,10 @@ def cross_validated_logistic(
 
     Cross-validation (Stone 1974). For each fold the model is fitted on the other folds at each C in
     ascending order, each fit starting from the previous C's fit of that fold (a path; the first from
-    zero), and predicts the held-out rows. The cross-validated log-loss of a C is the mean over all rows
-    used of -ln p(class | row), pooled over the folds (not a mean of fold means); C is its argmin over
+    zero), and predicts the held-out rows. Where :func:`fit_logistic` would use Newton's method, the
+    folds' fits at one C are solved together, each to the same tolerance (the same optimum). The
+    cross-validated log-loss of a C is the mean over all rows used of -ln p(class | row), pooled over
+    the folds (not a mean of fold means); C is its argmin over
     the grid, first of ties, i.e. the strongest penalty among equals. The reported figures are those
     of the chosen C; ``fit`` is refitted on all rows used at that C, starting from the mean of the fold
     fits. ``scale`` is taken as fixed: a scaler refitted on each training fold is not reproduced.
@@ -792,12 +1083,24 @@ def cross_validated_logistic(
     correct = np.empty((len(grid), m), dtype=np.bool_)
     paths: list[list[_Params]] = [[] for _ in grid]
     converged = True
-    for f in range(F):
-        train, test = fold != f, fold == f
-        params: _Params | None = None
-        for g, C in enumerate(grid):
-            params, _, _, ok = _solve(basis, train, cs[train], K, C, params)
-            converged &= ok
+    d = (1 if K == 2 else K) * (Xs.shape[1] + 1)
+    largest_fold = m - int(np.bincount(fold, minlength=F).min())  # rows of the largest training set
+    together = d <= NEWTON_MAX_PARAMS and largest_fold * d * d <= NEWTON_MAX_WORK
+    previous: list[_Params | None] = [None] * F
+    for g, C in enumerate(grid):
+        # Each fold's fit starts from its fit at the previous C (a path); the folds are solved together
+        # where Newton's method applies, any fold it leaves unconverged (and every fold elsewhere) alone.
+        if together:
+            problems = _Folds(basis, fold, F, cs, K, C)
+            theta, solved = _newton_folds(problems, problems.start(basis, previous))
+        for f in range(F):
+            train, test = fold != f, fold == f
+            if together and solved[f]:
+                params = _params_of(theta[f], basis, problems.spread[f], 1 if K == 2 else K, Xs.shape[1])
+            else:
+                params, _, _, ok = _solve(basis, train, cs[train], K, C, previous[f])
+                converged &= ok
+            previous[f] = params
             paths[g].append(params)
             correct[g, test], nll[g, test] = _row_figures(_scores(basis, test, params, K), cs[test], K)
 
