@@ -712,6 +712,13 @@ def looks_section(full: int, partial: int, log: list[str]) -> list[str]:
     ]
     if log:
         L += [LOG_HEAD, "", *log, ""]
+    L += [
+        f"Earlier held-out batch (retired into tuning on {split.RETIRED_ON}, see `split.py`; its last report is "
+        "`RESULTS_HELD_OUT_FIRST_BATCH.md`):",
+        "",
+        *(f"- {line}" for line in split.RETIRED_LOOKS),
+        "",
+    ]
     return L
 
 
