@@ -1,6 +1,6 @@
 """Every summary is built from the figures its details hold: parse the sentence, find each number.
 
-For every open data set that scikit-learn, statsmodels and pingouin ship (the loaders of
+For every open data set of the validation study's tuning split (the loaders of
 ``benchmarks/validation/open_data.py``) and the invented demo data, each check's summary is
 parsed: every number in it (names of features, classes and rows set aside first) must be a
 figure of that finding's details, printed the way the summary prints it (``fmt``, ``fmt_p``, a
@@ -28,8 +28,11 @@ from discaudit.findings import fmt
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks" / "validation"))
 from open_data import OPEN_DATA
+from split import OPEN_SPLIT
 
-DATASETS = [*OPEN_DATA, "demo"]
+# The tuning split's open data sets only: the held-out ones are audited by the held-out look of the
+# validation study and nothing else (benchmarks/validation/split.py).
+DATASETS = [*(n for n in OPEN_DATA if n in OPEN_SPLIT["tuning"]), "demo"]
 NUMBER = re.compile(r"(?<![\w.])[-+]?\d+(?:\.\d+)?(?:e[-+]?\d+)?%?(?![\w])")
 
 

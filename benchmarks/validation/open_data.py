@@ -1,4 +1,4 @@
-"""Open data sets shipped with scikit-learn and statsmodels, as (X DataFrame, y Series).
+"""Open data sets shipped with scikit-learn, statsmodels and pingouin, as (X DataFrame, y Series).
 
 scikit-learn: iris, wine, breast cancer, digits (64 pixels, some constant: the audit sets
 them aside and every candidate pipeline drops columns constant in its training folds).
@@ -35,6 +35,20 @@ no class variable:
 ``drug_trial_condition``
     pingouin's ``multivariate`` data set: drug or placebo from three health outcomes
     (fever, pressure, aches); 36 rows.
+
+Added with the second held-out batch (2026-12-03; never scored before):
+
+``ccard_ownrent``
+    statsmodels' ``ccard`` (Greene's credit-card expenditure data, 72 rows): whether the
+    cardholder owns their home (``OWNRENT``) from average expenditure, age and income
+    (``INCOMESQ`` is dropped: it is ``INCOME`` squared).
+``tips_time``
+    pingouin's ``tips`` (one waiter's tips, 244 rows): lunch or dinner from the total bill, the
+    tip, the party size, and the sex of the payer and whether the party smoked (coded 0/1); the
+    day of the week is left out (it nearly fixes the meal).
+``ancova_method``
+    pingouin's ``ancova`` (36 students): the teaching method (A, B, C, D) from the score, the
+    family income and the BMI.
 
 Data sets that the installed packages fetch from the network (scikit-learn's ``fetch_*``,
 statsmodels' ``get_rdataset``, seaborn's ``load_dataset``) are not used.
@@ -138,6 +152,29 @@ def drug_trial_condition():
     return df.drop(columns=["Condition"]).astype(float), df["Condition"].astype(str).rename("condition")
 
 
+def ccard_ownrent():
+    from statsmodels.datasets import ccard
+
+    df = ccard.load_pandas().data
+    y = df["OWNRENT"].astype(int).rename("owns_home")
+    return df[["AVGEXP", "AGE", "INCOME"]].astype(float), y
+
+
+def tips_time():
+    df = _pingouin("tips")
+    X = (
+        df[["total_bill", "tip", "size"]]
+        .astype(float)
+        .assign(female=(df["sex"] == "Female").astype(float), smoker=(df["smoker"] == "Yes").astype(float))
+    )
+    return X, df["time"].astype(str).rename("time")
+
+
+def ancova_method():
+    df = _pingouin("ancova")
+    return df[["Scores", "Income", "BMI"]].astype(float), df["Method"].astype(str).rename("method")
+
+
 OPEN_DATA: dict[str, tuple[str, Callable[[], tuple[pd.DataFrame, pd.Series]]]] = {
     "iris": ("scikit-learn", iris),
     "wine": ("scikit-learn", wine),
@@ -150,6 +187,9 @@ OPEN_DATA: dict[str, tuple[str, Callable[[], tuple[pd.DataFrame, pd.Series]]]] =
     "penguins_species": ("pingouin", penguins_species),
     "heart_disease": ("pingouin", heart_disease),
     "drug_trial_condition": ("pingouin", drug_trial_condition),
+    "ccard_ownrent": ("statsmodels", ccard_ownrent),
+    "tips_time": ("pingouin", tips_time),
+    "ancova_method": ("pingouin", ancova_method),
 }
 
 

@@ -1,10 +1,15 @@
 """Tune the recommendation's switching rule on the **tuning** split only.
 
 For each tuning case the audit is run once; the ``expected_performance`` details (predicted
-accuracy of every candidate and the paired standard errors) are kept, and the choice "most
-efficient candidate within ``z`` paired SE of the best" is replayed for several ``z`` (the
-``Config.performance_switch_se`` candidates). Prints, per ``z``: acceptable share over all and
-over the informative cases (not all four acceptable), mean and max regret, cases above 5 pp,
+accuracy and log-loss of every candidate and the paired standard errors) are kept, and the
+decision is replayed for a grid of ``z`` (``Config.performance_switch_se``) and ``g``
+(``Config.log_loss_guard_se``), with the log-loss guard as the check applies it
+(``checks.expected_performance._not_contenders``: a candidate is ruled out by a clearly lower
+log-loss only when its probabilities have collapsed, or when the other candidate is of another
+kind and its accuracy lead over it is weaker evidence than its log-loss deficit) and, for
+comparison, the earlier guard (ruled out whenever its log-loss exceeds the lowest by ``g``
+paired SE). Prints, per rule: acceptable share over all
+and over the informative cases (not all four acceptable), mean and max regret, cases above 5 pp,
 and the same for the four-model CV pick. Never reads the held-out split.
 
     .venv/bin/python benchmarks/validation/tune.py            # all tuning cases
@@ -24,53 +29,44 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 import study
 
+from discaudit.checks.expected_performance import _no_feature_log_loss, _not_contenders
+
 ORDER = ("lda", "regularized_lda", "qda", "logistic_regression")
-Z_GRID = (0.0, 0.25, 0.5, 0.75, 1.0, 1.5, 2.0, 3.0)
+Z_GRID = (0.0, 0.5, 0.75, 1.0, 1.5, 2.0)
+G_GRID = (0.5, 1.0, 1.5, 2.0, 3.0)
 
 
-def replay(details: dict, z: float) -> str:
-    """The most efficient candidate whose accuracy is within z paired SE of the best."""
-    cand = details["candidates"]
-    best = details["best"]
-    for m in ORDER:
-        if m not in cand:
-            continue
-        if m == best:
-            return m
-        d = details["paired"][best][m]
-        if d["accuracy_difference"] <= z * d["accuracy_se"]:
-            return m
-    return best
+def replay(details: dict, counts: np.ndarray, z: float, g: float, guard: str = "kind") -> str:
+    """The most efficient contender whose accuracy is within ``z`` paired SE of the best contender.
 
-
-def replay_guarded(details: dict, z: float, z_ll: float) -> str:
-    """As :func:`replay`, among candidates whose log-loss is not worse than the best log-loss by more
-    than ``z_ll`` paired SE (a guard against accuracy that is high by chance while the predictive
-    probabilities have collapsed)."""
-    cand = details["candidates"]
-    best_ll = min(cand, key=lambda m: cand[m]["log_loss"])
-    keep = {
-        m
-        for m in cand
-        if m == best_ll
-        or details["paired"][m][best_ll]["log_loss_difference"] <= z_ll * details["paired"][m][best_ll]["log_loss_se"]
-    }
+    ``guard="kind"`` rules candidates out as the check does; ``guard="lowest"`` is the earlier rule
+    (ruled out when the log-loss exceeds the lowest by more than ``g`` paired SE)."""
+    cand, paired = details["candidates"], details["paired"]
+    scored = [m for m in ORDER if m in cand]
+    lowest = min(scored, key=lambda m: (cand[m]["log_loss"], ORDER.index(m)))
+    if guard == "kind":
+        out = _not_contenders(scored, cand, paired, z, g, _no_feature_log_loss(counts), lowest)
+    else:
+        out = {
+            m: {}
+            for m in scored
+            if m != lowest and paired[m][lowest]["log_loss_difference"] > g * paired[m][lowest]["log_loss_se"]
+        }
+    keep = [m for m in scored if m not in out]
     best = max(keep, key=lambda m: (cand[m]["accuracy"], -ORDER.index(m)))
-    for m in ORDER:
-        if m not in keep:
-            continue
-        if m == best:
-            return m
-        d = details["paired"][best][m]
-        if d["accuracy_difference"] <= z * d["accuracy_se"]:
-            return m
-    return best
+    within = [
+        m for m in keep if m == best or paired[best][m]["accuracy_difference"] <= z * paired[best][m]["accuracy_se"]
+    ]
+    if not details.get("beats_majority_rule", True):
+        within = scored
+    return within[0]
 
 
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser()
     ap.add_argument("--only", nargs="*")
-    ap.add_argument("--z", type=float, default=0.5, help="list the misses of this rule")
+    ap.add_argument("--z", type=float, default=1.0, help="list the misses of this rule")
+    ap.add_argument("--g", type=float, default=1.0, help="list the misses of this rule")
     args = ap.parse_args(argv)
     import discaudit
 
@@ -85,31 +81,38 @@ def main(argv: list[str] | None = None) -> int:
         if f is None or f.status == "skip":
             print(f"{c.name} seed {c.seed}: expected_performance skipped: {f.summary if f else 'absent'}")
             continue
-        rows.append((c, f.details, v.recommendation.model))
+        counts = np.unique(np.asarray(y), return_counts=True)[1]
+        rows.append((c, f.details, counts, v.recommendation.model))
     print(f"{len(rows)} tuning cases scored")
-    header = f"{'rule':<12} {'acc all':>8} {'acc inf':>8} {'mean pp':>8} {'max pp':>7} {'>5pp':>5}"
-    print(header)
+    print(f"{'rule':<22} {'acc all':>8} {'acc inf':>8} {'mean pp':>8} {'max pp':>7} {'>5pp':>5}")
 
-    def line(name: str, picks: list[str]) -> None:
-        ok = [p in c.acceptable for (c, _, _), p in zip(rows, picks)]
-        inf = [o for (c, _, _), o in zip(rows, ok) if len(c.acceptable) < 4]
-        reg = [c.regret(p) for (c, _, _), p in zip(rows, picks)]
+    def line(name: str, picks: list[str], keep=lambda c: True) -> None:
+        sel = [(c, p) for (c, _, _, _), p in zip(rows, picks) if keep(c)]
+        ok = [p in c.acceptable for c, p in sel]
+        inf = [o for (c, _), o in zip(sel, ok) if len(c.acceptable) < 4]
+        reg = [c.regret(p) for c, p in sel]
         print(
-            f"{name:<12} {100 * np.mean(ok):8.1f} {100 * np.mean(inf):8.1f} {np.mean(reg):8.2f} "
-            f"{np.max(reg):7.2f} {sum(r > 5 for r in reg):5d}"
+            f"{name:<22} {100 * np.mean(ok):8.1f} {100 * np.mean(inf) if inf else float('nan'):8.1f} "
+            f"{np.mean(reg):8.2f} {np.max(reg):7.2f} {sum(r > 5 for r in reg):5d}"
         )
 
-    for z in Z_GRID:
-        line(f"z = {z:g}", [replay(d, z) for _, d, _ in rows])
-    for z_ll in (1.0, 2.0, 3.0, 5.0):
-        for z in (0.0, 0.5, 1.0):
-            line(f"g{z_ll:g} z{z:g}", [replay_guarded(d, z, z_ll) for _, d, _ in rows])
-    line("log-loss", [min(d["candidates"], key=lambda m: d["candidates"][m]["log_loss"]) for _, d, _ in rows])
-    line("audit", [m for _, _, m in rows])
-    line("cv pick", [c.cv_pick for c, _, _ in rows])
-    misses = [(c, replay(d, args.z)) for c, d, _ in rows if replay(d, args.z) not in c.acceptable]
+    for kind in ("simulated", "open data"):
+        print(f"-- {kind}")
+
+        def only(c, kind=kind):
+            return c.kind == kind
+
+        for g in G_GRID:
+            for z in Z_GRID:
+                line(f"kind guard z={z:g} g={g:g}", [replay(d, n, z, g) for _, d, n, _ in rows], only)
+        for z in (0.5, 1.0):
+            line(f"lowest guard z={z:g} g=1", [replay(d, n, z, 1.0, "lowest") for _, d, n, _ in rows], only)
+        line("audit", [m for _, _, _, m in rows], only)
+        line("cv pick", [c.cv_pick for c, _, _, _ in rows], only)
+    picks = [replay(d, n, args.z, args.g) for _, d, n, _ in rows]
+    misses = [(c, p) for (c, _, _, _), p in zip(rows, picks) if p not in c.acceptable]
     for c, p in sorted(misses, key=lambda t: -t[0].regret(t[1])):
-        print(f"  miss at z: {c.name} seed {c.seed}: chose {p}, acceptable {c.acceptable}, regret {c.regret(p):.1f}")
+        print(f"  miss: {c.name} seed {c.seed}: chose {p}, acceptable {c.acceptable}, regret {c.regret(p):.1f}")
     return 0
 
 

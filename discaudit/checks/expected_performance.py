@@ -58,6 +58,19 @@ MATERIAL_GAP = 0.01
 NO_SIGNAL_SE = 2.0
 #: Inverse penalties scored for logistic regression; the lowest cross-validated log-loss wins.
 LOGISTIC_C_GRID = (0.01, 0.1, 1.0, 10.0, 100.0)
+#: What each candidate assumes about the classes. LDA and shrinkage LDA are two estimates of one
+#: model (Gaussian classes with a shared covariance): at few rows per feature plain LDA's plug-in
+#: probabilities are overconfident and a little shrinkage lowers its log-loss without changing which
+#: class it predicts, so a log-loss gap between the two is calibration, not evidence against the
+#: model. Between candidates of different kinds a clear log-loss gap at equal accuracy is evidence
+#: that one form fits the class probabilities better (design choice, checked on the tuning split of
+#: benchmarks/validation).
+KIND = {
+    "lda": "shared covariance",
+    "regularized_lda": "shared covariance",
+    "qda": "a covariance per class",
+    "logistic_regression": "no model of the features",
+}
 
 _METHOD = {
     "lda": "exact leave-one-out from the class moments (Lachenbruch & Mickey 1968), every row",
@@ -270,16 +283,13 @@ def _judge(
     for pairs in paired.values():
         for d in pairs.values():
             d["within_noise"] = bool(abs(d["accuracy_difference"]) <= z * d["accuracy_se"])
-    # Competitive: log-loss not worse than the lowest by more than Config.log_loss_guard_se paired
-    # SE. A candidate whose accuracy is high by chance while its predictive probabilities have
-    # collapsed (p close to N - K) is not a contender, whatever its accuracy.
     lowest = min(scored, key=lambda c: (figures[c]["log_loss"], CANDIDATES.index(c)))
     g = config.log_loss_guard_se
-    competitive = [
-        c
-        for c in scored
-        if c == lowest or paired[c][lowest]["log_loss_difference"] <= g * paired[c][lowest]["log_loss_se"]
-    ]
+    counts = data.moments.counts
+    majority = float(counts.max() / counts.sum())
+    no_feature = _no_feature_log_loss(counts)
+    excluded = _not_contenders(scored, figures, paired, z, g, no_feature, lowest)
+    competitive = [c for c in scored if c not in excluded]
     best = max(competitive, key=lambda c: (figures[c]["accuracy"], -CANDIDATES.index(c)))
     versus_best = {c: paired[best][c] for c in scored if c != best}
     within = [
@@ -287,8 +297,6 @@ def _judge(
         for c in competitive
         if c == best or versus_best[c]["accuracy_difference"] <= z * versus_best[c]["accuracy_se"]
     ]
-    counts = data.moments.counts
-    majority = float(counts.max() / counts.sum())
     # No signal: the best candidate does not beat always predicting the largest class by two of its
     # standard errors; then every difference between candidates is noise and the most efficient
     # candidate that can be fitted is kept.
@@ -304,15 +312,21 @@ def _judge(
         "most_efficient_within_noise": efficient,
         "lowest_log_loss": lowest,
         "competitive_by_log_loss": competitive,
+        "not_contenders": excluded,
+        "no_feature_log_loss": no_feature,
         "majority_rule_accuracy": majority,
         "beats_majority_rule": beats_majority,
         "paired": paired,
         "switch_se": z,
         "log_loss_guard_se": g,
-        "switch_rule": f"candidates whose log-loss exceeds the lowest by more than {g:g} paired standard errors "
-        "(Config.log_loss_guard_se) are not contenders; among the others, one is within noise of the best when its "
-        f"accuracy is lower by at most {z:g} paired standard errors (Config.performance_switch_se); the most "
-        "efficient candidate within noise is kept, in the order " + ", ".join(CANDIDATES),
+        "switch_rule": f"a candidate is not a contender when its log-loss exceeds another's by more than {g:g} paired "
+        "standard errors (Config.log_loss_guard_se) and either its log-loss is worse than predicting the class "
+        "shares for every row (its probabilities have collapsed) or the other is of a different kind and its "
+        "accuracy lead over that one, in paired standard errors, is no larger than the other's log-loss lead (nor "
+        f"than {z:g}); among the contenders, one "
+        f"is within noise of the best when its accuracy is lower by at most {z:g} paired standard errors "
+        "(Config.performance_switch_se); the most efficient candidate within noise is kept, in the order "
+        + ", ".join(CANDIDATES),
         "rows_scored": {"leave_one_out": loo.n_used, "logistic_subsample": scores.n_common},
         "sample_note": None if data.sample is None or data.all_rows is not None else "scored on the per-class sample",
     }
@@ -359,6 +373,68 @@ def _judge(
         others = [c for c in within if c != efficient]
         summary += f"; within noise of it: {', '.join(_SHORT[c] for c in others)}." if others else "."
     return Finding(KEY, status, summary, details, figure)
+
+
+def _no_feature_log_loss(counts: np.ndarray) -> float:
+    """Log-loss of predicting the class shares for every row: the entropy of the shares (nats)."""
+    share = np.asarray(counts, dtype=np.float64)
+    share = share[share > 0] / share.sum()
+    return float(-(share * np.log(share)).sum())
+
+
+def _not_contenders(
+    scored: list[str],
+    figures: dict[str, dict[str, Any]],
+    paired: dict[str, dict[str, dict[str, Any]]],
+    z: float,
+    g: float,
+    no_feature: float,
+    lowest: str,
+) -> dict[str, dict[str, Any]]:
+    """Candidates the log-loss rules out, each with the candidate it loses to and why.
+
+    ``c`` is ruled out by ``o`` when c's log-loss exceeds o's by more than ``g`` paired standard
+    errors and either (collapsed) c's log-loss is worse than the no-feature rule's, so its
+    probabilities are worse than knowing nothing, as when p is close to N - K; or (fits worse) o is
+    of another kind (``KIND``) and c's accuracy lead over o, in paired standard errors, is no
+    larger than o's log-loss lead over c in its paired standard errors (nor than ``z``): the
+    stronger of the two pieces of evidence decides. A candidate that classifies clearly better
+    than its calibration is worse keeps its place, and LDA is never ruled out by its own shrunk
+    estimate unless it has collapsed.
+    The candidate with the lowest log-loss (``lowest``) is never ruled out, so at least one remains
+    even when the paired comparisons, made on different rows for logistic regression, disagree.
+    """
+    out: dict[str, dict[str, Any]] = {}
+    by_log_loss = sorted(scored, key=lambda c: (figures[c]["log_loss"], CANDIDATES.index(c)))
+    for c in scored:
+        if c == lowest:
+            continue
+        for o in by_log_loss:
+            if o == c:
+                continue
+            d = paired[c][o]
+            if not d["log_loss_difference"] > g * d["log_loss_se"]:
+                continue
+            collapsed = figures[c]["log_loss"] > no_feature
+            if collapsed or (KIND[o] != KIND[c] and _ratio(d, "accuracy") <= max(z, _ratio(d, "log_loss"))):
+                out[c] = {
+                    "against": o,
+                    "why": "collapsed" if collapsed else "fits worse",
+                    "log_loss_difference": d["log_loss_difference"],
+                    "log_loss_se": d["log_loss_se"],
+                    "accuracy_difference": d["accuracy_difference"],
+                    "accuracy_se": d["accuracy_se"],
+                }
+                break
+    return out
+
+
+def _ratio(d: dict[str, Any], metric: str) -> float:
+    """A paired difference in units of its standard error (``inf`` for a positive difference with no spread)."""
+    diff, se = float(d[f"{metric}_difference"]), float(d[f"{metric}_se"])
+    if se > 0:
+        return diff / se
+    return float("inf") if diff > 0 else 0.0
 
 
 def _cap(text: str) -> str:

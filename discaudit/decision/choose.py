@@ -21,9 +21,10 @@ from discaudit.decision.figures import (
     CLASS_ENCODING_FEATURES,
     COMPETITIVE,
     DELTA_BIC,
-    LOWEST_LOG_LOSS,
     MAJORITY_ACCURACY,
     MOST_EFFICIENT_WITHIN_NOISE,
+    NO_FEATURE_LOG_LOSS,
+    NOT_CONTENDERS,
     PAIRED,
     SWITCH_SE,
     Findings,
@@ -101,7 +102,7 @@ def choose(findings: Findings) -> Choice:
     )
     reasons = [f"Predicted held-out accuracy: {listing}."]
     competitive = COMPETITIVE.read(findings) or list(candidates)
-    lowest = LOWEST_LOG_LOSS.read(findings)
+    ruled_out: dict[str, Any] = NOT_CONTENDERS.read(findings) or {}
     close = [c for c in ORDER if c in candidates and c in competitive and c != model and _within(versus(c, model))]
     if encoders:
         reasons.append(
@@ -138,15 +139,16 @@ def choose(findings: Findings) -> Choice:
             f"less than the {fmt(SWITCH_SE.read(findings))} SE needed to switch; {NAMES[model]} "
             f"is preferred because {_EFFICIENCY[model]}."
         )
+    guard = fmt(findings["expected_performance"].details.get("log_loss_guard_se", 1.0))
+    no_signal = BEATS_MAJORITY.read(findings) is False  # then every candidate is kept as a fallback
     for c in ORDER:
-        if c in candidates and c not in competitive and candidates[c]["accuracy"] >= candidates[model]["accuracy"]:
-            d = versus(c, lowest)
-            reasons.append(
-                f"{_cap(NAMES[c])} predicts as many rows right, but its log-loss is higher than {NAMES[lowest]}'s by "
-                f"{fmt(d['log_loss_difference'], 2)} (paired SE {fmt(d['log_loss_se'], 2)}, more than the "
-                f"{fmt(findings['expected_performance'].details.get('log_loss_guard_se', 1.0))} SE allowed): its "
-                "predicted probabilities fit the held-out rows less well, so it is not a contender."
-            )
+        if (
+            c != model
+            and not no_signal
+            and c in ruled_out
+            and candidates[c]["accuracy"] >= candidates[model]["accuracy"]
+        ):
+            reasons.append(_ruled_out_sentence(c, ruled_out[c], candidates, guard, NO_FEATURE_LOG_LOSS.read(findings)))
     for check, (argued, words, statuses) in _ARGUES_FOR.items():
         if status(findings, check) not in statuses:
             continue
@@ -180,7 +182,10 @@ def choose(findings: Findings) -> Choice:
             + (
                 "within noise of the recommendation"
                 if c in close
-                else "not a contender: its log-loss is too high"
+                else f"not a contender: its log-loss is higher than {NAMES[ruled_out[c]['against']]}'s by "
+                f"{fmt(ruled_out[c]['log_loss_difference'], 2)} (paired SE {fmt(ruled_out[c]['log_loss_se'], 2)})"
+                if c in ruled_out
+                else "not a contender"
                 if c not in competitive
                 else "outside the noise of the recommendation"
             )
@@ -190,6 +195,31 @@ def choose(findings: Findings) -> Choice:
         if c not in candidates:
             alternatives.append({"model": c, "reason": "could not be scored (see expected_performance)"})
     return Choice(model, reasons, alternatives, close, dict(candidates[model]["settings"]))
+
+
+def _ruled_out_sentence(
+    c: str, why: dict[str, Any], candidates: dict[str, Any], guard: str, no_feature: float | None
+) -> str:
+    """Why a candidate predicted at least as accurate as the recommendation is not a contender."""
+    other = why["against"]
+    gap = (
+        f"its log-loss ({fmt(candidates[c]['log_loss'], 3)}) is higher than {NAMES[other]}'s by "
+        f"{fmt(why['log_loss_difference'], 2)} (paired SE {fmt(why['log_loss_se'], 2)}, more than the {guard} SE "
+        "allowed)"
+    )
+    if why["why"] == "collapsed":
+        floor = f" ({fmt(no_feature, 3)})" if no_feature is not None else ""
+        return (
+            f"{_cap(NAMES[c])} is predicted at {_pct(candidates[c]['accuracy'])}, but {gap} and worse than predicting "
+            f"the class shares for every row{floor}: its predicted probabilities have collapsed, so its accuracy is "
+            "not to be trusted and it is not a contender."
+        )
+    return (
+        f"{_cap(NAMES[c])} is predicted at {_pct(candidates[c]['accuracy'])}, {_signed(why['accuracy_difference'])} "
+        f"points against {NAMES[other]} (paired SE {_pts(why['accuracy_se'])}), but {gap}, the stronger evidence: "
+        f"{NAMES[other]}'s model fits the class probabilities of the held-out rows better, so {NAMES[c]} is not a "
+        "contender."
+    )
 
 
 def _lead(words: str, figure: str) -> str:

@@ -77,6 +77,9 @@ MOST_EFFICIENT_WITHIN_NOISE = Figure("expected_performance", ("most_efficient_wi
 SWITCH_SE = Figure("expected_performance", ("switch_se",))
 COMPETITIVE = Figure("expected_performance", ("competitive_by_log_loss",))
 LOWEST_LOG_LOSS = Figure("expected_performance", ("lowest_log_loss",))
+#: Candidates the log-loss rules out: the candidate each loses to, why, and the paired figures.
+NOT_CONTENDERS = Figure("expected_performance", ("not_contenders",))
+NO_FEATURE_LOG_LOSS = Figure("expected_performance", ("no_feature_log_loss",))
 BEATS_MAJORITY = Figure("expected_performance", ("beats_majority_rule",))
 MAJORITY_ACCURACY = Figure("expected_performance", ("majority_rule_accuracy",))
 
@@ -106,6 +109,8 @@ FIGURES: tuple[Figure, ...] = (
     MAJORITY_ACCURACY,
     COMPETITIVE,
     LOWEST_LOG_LOSS,
+    NOT_CONTENDERS,
+    NO_FEATURE_LOG_LOSS,
     CLASS_ENCODING_FEATURES,
     EXACT_SEPARATION,
     N_TOTAL,
