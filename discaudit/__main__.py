@@ -9,6 +9,9 @@ from __future__ import annotations
 
 import sys
 
+#: Exit status of an interrupted command (128 + SIGINT, the shell's convention).
+INTERRUPTED = 130
+
 
 def run() -> int:
     """Run the command line; return its exit status (130 when interrupted, at any point)."""
@@ -17,7 +20,7 @@ def run() -> int:
 
         status = main()
     except KeyboardInterrupt:
-        status = 130
+        status = INTERRUPTED
         try:
             sys.stderr.write("discaudit: error: interrupted\n")
             sys.stderr.flush()
@@ -37,5 +40,26 @@ def _ignore_late_interrupts() -> None:
         pass
 
 
+def entry() -> None:
+    """The console script and ``python -m discaudit``: run, then end the process with the status.
+
+    An interrupted run ends with ``os._exit(130)`` once its streams are flushed. CPython keeps a flag
+    when a KeyboardInterrupt leaves code that an extension module ran during import, even after the
+    exception is caught, and then ends the interpreter by re-raising SIGINT at exit: status -2
+    instead of 130. Nothing is left to clean up at that point (reports are written to a temporary
+    name and renamed only when complete, and the temporary file is removed on the way out).
+    """
+    status = run()
+    if status == INTERRUPTED:
+        import contextlib
+        import os
+
+        for stream in (sys.stdout, sys.stderr):
+            with contextlib.suppress(OSError, ValueError):  # the stream may be gone
+                stream.flush()
+        os._exit(INTERRUPTED)
+    raise SystemExit(status)
+
+
 if __name__ == "__main__":
-    raise SystemExit(run())
+    entry()
