@@ -17,6 +17,7 @@ matplotlib.use("Agg")
 import numpy as np
 import pandas as pd
 import pytest
+from scipy import stats as sps
 
 import discaudit
 from discaudit.cli import main
@@ -40,6 +41,11 @@ def _assert_effect_is_a_what_if(verdict: discaudit.Verdict, remedy) -> discaudit
     for key in remedy.effect.evaluated:
         assert remedy.effect.statuses[key] == (verdict.findings[key].status, w.findings[key].status), key
         assert remedy.effect.figures[key] == (verdict.findings[key].figure, w.findings[key].figure), key
+    acc = remedy.effect.accuracy
+    if acc is not None:  # the recommended model's predicted accuracy, as the fresh audit of the change gives it
+        after = w.findings["expected_performance"].details["candidates"][acc["model"]]
+        assert acc["after"] == pytest.approx(after["accuracy"], rel=1e-12)
+        assert acc["se_after"] == pytest.approx(after["accuracy_se"], rel=1e-9, abs=1e-15)
     return w
 
 
@@ -73,6 +79,8 @@ def test_the_top_remedies_clear_the_planted_problems(demo, flakes) -> None:
     assert sorted(rows.change["drop_rows"]) == sorted(planted["contaminated"])
     assert rows.effect.statuses["outliers"] == ("warn", "pass")
     assert all(r.clears_addressed for r in top)
+    # LDA is recommended: each remedy carries its exact leave-one-out accuracy on the changed data.
+    assert all(r.effect.accuracy is not None and r.effect.accuracy["model"] == "lda" for r in top)
     text = str(demo)
     for line in ("scale_disparity WARN -> PASS", "outliers WARN -> PASS", "collinearity FAIL -> WARN"):
         assert line in text, line  # the verdict table says what each top remedy clears
@@ -210,6 +218,13 @@ def test_strongly_skewed_classes_get_a_power_transform_with_its_exponents() -> N
     w = _assert_effect_is_a_what_if(verdict, remedy)
     assert w.meta["what_if"][0]["transform"]["lambdas"] == remedy.change["transform"]
     assert remedy.effect.statuses["normality"][1] in ("pass", "warn")
+    # The exponent is shown to two decimals, so the spec can be typed; it is the change evaluated.
+    lam = remedy.change["transform"]["s"]
+    assert lam == round(lam, 2) and f"s:{lam!r}" in remedy.spec
+    # One exponent for both classes maximizes the sum of their likelihoods, so it lies between each class's
+    # own maximum-likelihood exponent (scipy.stats.yeojohnson_normmax), up to the rounding.
+    own = [sps.yeojohnson_normmax(X["s"].to_numpy()[y == c]) for c in ("p", "q")]
+    assert min(own) - 0.005 <= lam <= max(own) + 0.005
 
 
 def test_no_remedy_when_nothing_needs_one(gaussian_classes) -> None:

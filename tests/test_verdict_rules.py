@@ -215,3 +215,15 @@ def test_estimator_without_scikit_learn_says_how_to_install(monkeypatch) -> None
     rec = discaudit.Recommendation("lda", {}, [], [])
     with pytest.raises(ImportError, match=r"pip install discaudit\[sklearn\]"):
         rec.estimator()
+
+
+def test_a_covariance_difference_that_bic_does_not_back_argues_weakly(wine) -> None:
+    """Wine (scikit-learn): Box's M rejects equal covariances while BIC favours one shared covariance.
+    The reasons must not say plainly that unequal covariances argue for QDA."""
+    X, y = wine
+    verdict = discaudit.preflight(X, y, random_state=0)
+    details = verdict.findings["covariance_homogeneity"].details
+    assert details["bic"]["delta_bic"] < 0 and verdict.findings["covariance_homogeneity"].status != "pass"
+    text = " ".join(verdict.recommendation.reasons)
+    assert "though BIC favours one shared covariance" in text and "argue weakly for QDA" in text
+    assert "Unequal class covariances (BIC: shared" not in text

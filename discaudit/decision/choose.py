@@ -127,9 +127,16 @@ def choose(findings: Findings) -> Choice:
                 "preferred because it predicts best and is the more efficient model."
             )
         else:
+            near = [c for c in ORDER if c in ruled_out and c != model and _within(versus(c, model))]
             reasons.append(
                 f"{_cap(NAMES[model])} predicts best; no other contender comes within {fmt(SWITCH_SE.read(findings))} "
-                "paired SE of it."
+                "paired SE of it"
+                + (
+                    f" ({_join([NAMES[c] for c in near])} {'does' if len(near) == 1 else 'do'} in accuracy, but "
+                    f"{'fits' if len(near) == 1 else 'fit'} the class probabilities clearly worse by log-loss)."
+                    if near
+                    else "."
+                )
             )
     else:
         lead = versus(best, model)
@@ -155,10 +162,14 @@ def choose(findings: Findings) -> Choice:
         if check == "covariance_homogeneity" and DELTA_BIC.read(findings) is None:
             continue  # the comparison could not be made (a singular class covariance): no argument
         figure = findings[check].figure
+        opening = _lead(words, figure)
+        if check == "covariance_homogeneity" and (DELTA_BIC.read(findings) or 0.0) < 0:
+            # Box's M rejects while BIC prefers one shared covariance: a weak argument, said as such.
+            opening = f"Unequal class covariances by Box's M test, though BIC favours one shared covariance ({figure}), argue weakly"
         if argued not in candidates:
-            reasons.append(f"{_lead(words, figure)} for {NAMES[argued]}, which could not be scored.")
+            reasons.append(f"{opening} for {NAMES[argued]}, which could not be scored.")
         elif argued == model:
-            reasons.append(f"{_lead(words, figure)} for {NAMES[argued]}, as chosen.")
+            reasons.append(f"{opening} for {NAMES[argued]}, as chosen.")
         else:
             d = versus(argued, model)
             verdict = (
@@ -169,7 +180,7 @@ def choose(findings: Findings) -> Choice:
                 else "not enough to switch"
             )
             reasons.append(
-                f"{_lead(words, figure)} for {NAMES[argued]}, predicted at "
+                f"{opening} for {NAMES[argued]}, predicted at "
                 f"{_pct(candidates[argued]['accuracy'])}: {_signed(d['accuracy_difference'])} points against "
                 f"{NAMES[model]} (paired SE {_pts(d['accuracy_se'])}), {verdict}."
             )

@@ -113,9 +113,10 @@ class Effect:
     evaluated, not_evaluated : tuple of str
         Checks re-run on the changed data, and those left as they were (see ``Verdict.what_if``).
     accuracy : dict or None
-        ``{"model", "before", "after", "difference", "se_after"}``: predicted held-out accuracy of the
-        recommended model before and after (the ``expected_performance`` check on the changed data);
-        None when it was not recomputed.
+        ``{"model", "before", "after", "difference", "se_after", "method"}``: predicted held-out
+        accuracy of the recommended model before and after: the ``expected_performance`` check on the
+        changed data, or (by default, for LDA, shrinkage LDA and QDA) that model's exact leave-one-out
+        alone; None when it was not recomputed (a logistic-regression recommendation by default).
     recommendation : tuple of str or None
         (model before, model after); None when the predicted performance was not recomputed.
     rows : str
@@ -442,16 +443,17 @@ def effect_of(
     recommended: str,
     recommendation_after: str | None = None,
     rows: str = "every row",
+    accuracy: dict[str, Any] | None = None,
 ) -> Effect:
     """The effect of a change: statuses and key figures of the evaluated checks, before and after.
 
     ``recommendation_after`` (the model the decision picks on the changed findings) is given only when
-    the ``expected_performance`` check was among those evaluated.
+    the ``expected_performance`` check was among those evaluated; ``accuracy`` is the recommended
+    model's predicted accuracy found otherwise (its leave-one-out alone), used when that check was not.
     """
     statuses = {k: (status(before, k), status(after, k)) for k in evaluated}
     figures = {k: (before[k].figure if k in before else "-", after[k].figure if k in after else "-") for k in evaluated}
     not_evaluated = tuple(k for k in before if k not in evaluated)
-    accuracy = None
     if "expected_performance" in evaluated:
         a, b = CANDIDATE_FIGURES.read(before) or {}, CANDIDATE_FIGURES.read(after) or {}
         if recommended in a and recommended in b:
@@ -461,6 +463,7 @@ def effect_of(
                 "after": b[recommended]["accuracy"],
                 "difference": b[recommended]["accuracy"] - a[recommended]["accuracy"],
                 "se_after": b[recommended].get("accuracy_se"),
+                "method": "the expected_performance check recomputed on the changed data",
             }
     rec = (recommended, recommendation_after) if recommendation_after is not None else None
     return Effect(statuses, figures, tuple(evaluated), not_evaluated, accuracy, rec, rows)
@@ -517,7 +520,7 @@ KEY_FIGURES = {
     "SD ratio": SD_RATIO,
     "rows flagged as outliers": OUTLIER_N_FLAGGED,
     "largest outlier mean shift": OUTLIER_MAX_SHIFT,
-    "delta BIC (separate - shared covariances)": DELTA_BIC,
+    "delta BIC (shared - separate covariances)": DELTA_BIC,
     "Wilks' Lambda": WILKS_LAMBDA,
 }
 

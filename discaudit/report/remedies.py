@@ -54,6 +54,12 @@ def _footer(table: VerdictTable) -> list[str]:
     left_out = _left_out(table)
     if left_out:
         out.insert(0, left_out)
+    if any(r.accuracy is not None and r.recommendation is None for r in shown):
+        out.append(
+            "Predicted accuracy: the recommended model's exact leave-one-out on the changed data alone; whether "
+            "the recommendation would change is found by Config(remedy_effects='performance'), --what-if SPEC "
+            "or verdict.what_if."
+        )
     if any(r.accuracy is None for r in shown):
         out.append(
             "The predicted accuracy was not recomputed for these remedies; Config(remedy_effects='performance'), "

@@ -226,7 +226,9 @@ class Change:
         if self.merge_classes:
             parts.append("merge=" + ",".join("+".join(str(label(c)) for c in g) for g in self.merge_classes))
         if self.transform:
-            parts.append("transform=" + ",".join(f if lam is None else f"{f}:{lam:.17g}" for f, lam in self.transform))
+            parts.append(
+                "transform=" + ",".join(f if lam is None else f"{f}:{float(lam)!r}" for f, lam in self.transform)
+            )
         if self.standardize is True:
             parts.append("standardize")
         elif self.standardize:
