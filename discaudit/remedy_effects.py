@@ -164,6 +164,9 @@ def evaluate(
                     "difference": scored["accuracy"] - before_accuracy["accuracy"],
                     "se_after": scored["accuracy_se"],
                     "method": LOO_ONLY_METHOD,
+                    "rows": f"a seeded sample of at most {cap} rows per class, before and after"
+                    if large
+                    else "every row",
                 }
         kept.append(proposal)
         effects.append(effect_of(before, after, keys, before_model, model_after, rows, accuracy))

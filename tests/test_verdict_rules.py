@@ -227,3 +227,33 @@ def test_a_covariance_difference_that_bic_does_not_back_argues_weakly(wine) -> N
     text = " ".join(verdict.recommendation.reasons)
     assert "though BIC favours one shared covariance" in text and "argue weakly for QDA" in text
     assert "Unequal class covariances (BIC: shared" not in text
+
+
+def _open_data_sets():
+    import statsmodels.api as sm
+    from sklearn.datasets import load_breast_cancer, load_iris, load_wine
+
+    for loader in (load_iris, load_wine, load_breast_cancer):
+        d = loader(as_frame=True)
+        yield loader.__name__, d.data, d.target
+    anes = sm.datasets.anes96.load_pandas().data  # statsmodels' bundled ANES 1996 extract
+    yield "anes96", anes.drop(columns=["vote"]), anes["vote"]
+
+
+def test_predicts_best_means_among_the_contenders_when_a_ruled_out_model_classifies_more() -> None:
+    """On open data sets (scikit-learn, statsmodels): "predicts best" is never said of a model that a
+    candidate ruled out by its log-loss beats in accuracy; then it "predicts best of the contenders"."""
+    seen_above = False
+    for name, X, y in _open_data_sets():
+        verdict = discaudit.preflight(X, y, random_state=0)
+        details = verdict.findings["expected_performance"].details
+        model = verdict.recommendation.model
+        candidates, ruled_out = details["candidates"], details.get("not_contenders") or {}
+        above = any(c in ruled_out and candidates[c]["accuracy"] > candidates[model]["accuracy"] for c in candidates)
+        text = " ".join(verdict.recommendation.reasons)
+        seen_above |= above
+        if above:
+            assert "predicts best of the contenders" in text, name
+        else:
+            assert "best of the contenders" not in text, name
+    assert seen_above, "precondition: at least one data set has a ruled-out candidate that classifies more"

@@ -120,16 +120,19 @@ def choose(findings: Findings) -> Choice:
             f"noise, so {NAMES[model]}, the most efficient model that can be fitted, is kept ({_EFFICIENCY[model]})."
         )
     elif model == best:
+        # "best" is the best contender: a candidate ruled out by its log-loss may classify more rows right.
+        above = any(c in ruled_out and candidates[c]["accuracy"] > candidates[model]["accuracy"] for c in candidates)
+        best_words = "predicts best of the contenders" if above else "predicts best"
         if close:
             reasons.append(
-                f"{_cap(NAMES[model])} predicts best, but {_join([NAMES[c] for c in close])} "
+                f"{_cap(NAMES[model])} {best_words}, but {_join([NAMES[c] for c in close])} "
                 f"{'is' if len(close) == 1 else 'are'} within noise of it: too close to call; {NAMES[model]} is "
-                "preferred because it predicts best and is the more efficient model."
+                f"preferred because it {best_words} and is the more efficient model."
             )
         else:
             near = [c for c in ORDER if c in ruled_out and c != model and _within(versus(c, model))]
             reasons.append(
-                f"{_cap(NAMES[model])} predicts best; no other contender comes within {fmt(SWITCH_SE.read(findings))} "
+                f"{_cap(NAMES[model])} {best_words}; no other contender comes within {fmt(SWITCH_SE.read(findings))} "
                 "paired SE of it"
                 + (
                     f" ({_join([NAMES[c] for c in near])} {'does' if len(near) == 1 else 'do'} in accuracy, but "

@@ -181,6 +181,7 @@ def _remedy_row(remedy: Any) -> RemedyRow:
         accuracy = (
             f"predicted accuracy of {MODEL_NAMES.get(acc['model'], acc['model'])} "
             f"{100 * acc['before']:.1f}% -> {100 * acc['after']:.1f}%"
+            + (f" (on {acc['rows']})" if acc.get("rows", "every row") != "every row" else "")
         )
     recommendation = None
     if effect.recommendation is not None:

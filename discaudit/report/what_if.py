@@ -47,7 +47,7 @@ def render_text(before: Verdict, after: Verdict, spec: str, width: int = WIDTH) 
         lines.append(f"{key:<{_CHECK_W - 1}}{mark}{left:<{col}}  {right}")
     lines.append("-" * width)
     lines.append(f"{'worst status':<{_CHECK_W}}{before.status.upper():<{col}}  {after.status.upper()}")
-    lines.append(f"{'gate':<{_CHECK_W}}{_gate(before)[:col]:<{col}}  {_gate(after)}")
+    lines.append(f"{'gate':<{_CHECK_W}}{_clip(_gate(before), col):<{col}}  {_gate(after)}")
     lines.append(
         f"{'recommendation':<{_CHECK_W}}{MODEL_NAMES[before.recommendation.model]:<{col}}  "
         f"{MODEL_NAMES[after.recommendation.model]}"
@@ -58,10 +58,17 @@ def render_text(before: Verdict, after: Verdict, spec: str, width: int = WIDTH) 
     return "\n".join(lines) + "\n"
 
 
+def _clip(text: str, width: int) -> str:
+    return text if len(text) <= width else text[: width - 3] + "..."
+
+
 def _gate(verdict: Verdict) -> str:
+    """The gate in a few words: passes, with the candidates the data are fit for, or fails, with why."""
     gate = verdict.gate
     if gate is None:
         return "-"
+    if gate.passed and gate.fit_for:
+        return "fit for " + ", ".join(MODEL_NAMES[m] for m in gate.fit_for)
     return ("passes: " if gate.passed else "fails: ") + gate.headline
 
 
