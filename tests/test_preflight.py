@@ -10,15 +10,10 @@ import pytest
 
 import discaudit
 from discaudit.config import CHECK_KEYS
+from discaudit.remedy_effects import MOMENT_CHECKS
 
-CLOSED_FORM = (
-    "data_hygiene",
-    "sample_size",
-    "scale_disparity",
-    "collinearity",
-    "covariance_homogeneity",
-    "discriminant_signal",
-)
+#: The checks whose findings follow from the class moments alone.
+CLOSED_FORM = MOMENT_CHECKS
 
 
 def _numbers(verdict: discaudit.Verdict) -> dict:
