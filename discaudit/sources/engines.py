@@ -40,6 +40,7 @@ in-memory frame, a query with ``ORDER BY``).
 from __future__ import annotations
 
 import dataclasses
+from abc import ABC, abstractmethod
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
 from typing import Any, Protocol, TypeVar
@@ -113,21 +114,25 @@ class Engine(Protocol):
 
 
 @dataclass
-class _LocalEngine:
-    """Shared by engines whose rows are streamed back to this process."""
+class _LocalEngine(ABC):
+    """Shared by engines whose rows are streamed back to this process; each engine supplies the three
+    abstract steps."""
 
     native: Any
     name: str
     label_column: str | None = None
 
-    def numbered(self) -> Any:  # pragma: no cover - overridden
-        raise NotImplementedError
+    @abstractmethod
+    def numbered(self) -> Any:
+        """The native frame with a column ROW: the row label column when one is named, else 0, 1, ..."""
 
-    def keyed(self, numbered: Any, seed: int) -> Any:  # pragma: no cover - overridden
-        raise NotImplementedError
+    @abstractmethod
+    def keyed(self, numbered: Any, seed: int) -> Any:
+        """``numbered`` with a column KEY in [0, 1): a seeded hash of ROW, which chooses the sample."""
 
-    def batches(self, native: Any) -> Iterator[Any]:  # pragma: no cover - overridden
-        raise NotImplementedError
+    @abstractmethod
+    def batches(self, native: Any) -> Iterator[Any]:
+        """The rows of ``native`` as Arrow record batches of about BATCH_ROWS rows."""
 
     def row_pass(self, native: Any, features: tuple[str, ...]) -> RowPass:
         return StreamedRows(lambda: self.batches(native), features)
