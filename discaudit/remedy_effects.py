@@ -35,7 +35,7 @@ from discaudit.checks.expected_performance import gaussian_accuracy
 from discaudit.dataset import AuditData
 from discaudit.decision import recommend
 from discaudit.decision.figures import CANDIDATE_FIGURES, status
-from discaudit.decision.remedies import Effect, Proposal, Remedy, effect_of, propose, rank
+from discaudit.decision.remedies import Effect, Proposal, Remedy, accuracy_effect, effect_of, propose, rank
 from discaudit.errors import DataError
 from discaudit.findings import Finding
 from discaudit.sources.what_if import Change, apply, cap_rows, estimate_transform, subsample
@@ -157,17 +157,10 @@ def evaluate(
                 subsample(changed, cap, random_state) if large else changed, recommended, config, random_state
             )
             if scored is not None:
-                accuracy = {
-                    "model": recommended,
-                    "before": before_accuracy["accuracy"],
-                    "after": scored["accuracy"],
-                    "difference": scored["accuracy"] - before_accuracy["accuracy"],
-                    "se_after": scored["accuracy_se"],
-                    "method": LOO_ONLY_METHOD,
-                    "rows": f"a seeded sample of at most {cap} rows per class, before and after"
-                    if large
-                    else "every row",
-                }
+                sampled = f"a seeded sample of at most {cap} rows per class, before and after"
+                accuracy = accuracy_effect(
+                    recommended, before_accuracy, scored, LOO_ONLY_METHOD, sampled if large else "every row"
+                )
         kept.append(proposal)
         effects.append(effect_of(before, after, keys, before_model, model_after, rows, accuracy))
         specs.append(change.to_spec())

@@ -19,7 +19,7 @@ Three steps, each reading finished findings only:
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
@@ -436,6 +436,24 @@ def _merge_indistinct(findings: Findings) -> list[Proposal]:
 # --- Ranking -----------------------------------------------------------------------------------
 
 
+def accuracy_effect(
+    model: str, before: Mapping[str, Any], after: Mapping[str, Any], method: str, rows: str | None = None
+) -> dict[str, Any]:
+    """``Effect.accuracy`` from the figures (``accuracy``, ``accuracy_se``) of ``model`` before and after a
+    change; ``rows`` (which rows both were scored on) is recorded when given."""
+    out = {
+        "model": model,
+        "before": before["accuracy"],
+        "after": after["accuracy"],
+        "difference": after["accuracy"] - before["accuracy"],
+        "se_after": after.get("accuracy_se"),
+        "method": method,
+    }
+    if rows is not None:
+        out["rows"] = rows
+    return out
+
+
 def effect_of(
     before: Findings,
     after: Findings,
@@ -457,14 +475,12 @@ def effect_of(
     if "expected_performance" in evaluated:
         a, b = CANDIDATE_FIGURES.read(before) or {}, CANDIDATE_FIGURES.read(after) or {}
         if recommended in a and recommended in b:
-            accuracy = {
-                "model": recommended,
-                "before": a[recommended]["accuracy"],
-                "after": b[recommended]["accuracy"],
-                "difference": b[recommended]["accuracy"] - a[recommended]["accuracy"],
-                "se_after": b[recommended].get("accuracy_se"),
-                "method": "the expected_performance check recomputed on the changed data",
-            }
+            accuracy = accuracy_effect(
+                recommended,
+                a[recommended],
+                b[recommended],
+                "the expected_performance check recomputed on the changed data",
+            )
     rec = (recommended, recommendation_after) if recommendation_after is not None else None
     return Effect(statuses, figures, tuple(evaluated), not_evaluated, accuracy, rec, rows)
 
