@@ -162,11 +162,12 @@ def choose(findings: Findings) -> Choice:
     for check, (argued, words, statuses) in _ARGUES_FOR.items():
         if status(findings, check) not in statuses:
             continue
-        if check == "covariance_homogeneity" and DELTA_BIC.read(findings) is None:
+        delta_bic = DELTA_BIC.read(findings) if check == "covariance_homogeneity" else None
+        if check == "covariance_homogeneity" and delta_bic is None:
             continue  # the comparison could not be made (a singular class covariance): no argument
         figure = findings[check].figure
         opening = _lead(words, figure)
-        if check == "covariance_homogeneity" and (DELTA_BIC.read(findings) or 0.0) < 0:
+        if delta_bic is not None and delta_bic < 0:
             # Box's M rejects while BIC prefers one shared covariance: a weak argument, said as such.
             opening = f"Unequal class covariances by Box's M test, though BIC favours one shared covariance ({figure}), argue weakly"
         if argued not in candidates:
