@@ -145,6 +145,14 @@ def _gaussian(
     return scorer, tally.result()
 
 
+def _setting_of(result: LeaveOneOutResult, model: str) -> str | None:
+    """The scored setting that stands for a Gaussian candidate: plain LDA itself, else the grid
+    point with the lowest leave-one-out log-loss; None when it was not scored."""
+    if model == "lda":
+        return "lda" if "lda" in result.names else None
+    return _best_of(result, model)
+
+
 def _best_of(result: LeaveOneOutResult, model: str) -> str | None:
     """The scored setting of ``model`` with the lowest leave-one-out log-loss (first of ties)."""
     names = [n for n, mdl in zip(result.names, result.models, strict=True) if mdl == model]
@@ -171,7 +179,7 @@ def gaussian_accuracy(
     if model not in CANDIDATES[:3]:
         return None
     _, loo = _gaussian(data, _total_scale(data), config, random_state, only=model)
-    name = ("lda" if "lda" in loo.names else None) if model == "lda" else _best_of(loo, model)
+    name = _setting_of(loo, model)
     if name is None:
         return None
     i = loo.index(name)
@@ -190,9 +198,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     """
     scale = _total_scale(data)
     scorer, loo = _gaussian(data, scale, config, random_state)
-    chosen = {"lda": "lda" if "lda" in loo.names else None}
-    chosen["regularized_lda"] = _best_of(loo, "regularized_lda")
-    chosen["qda"] = _best_of(loo, "qda")
+    chosen = {model: _setting_of(loo, model) for model in CANDIDATES[:3]}
     logit = cross_validated_logistic(
         data.values,
         data.codes,
