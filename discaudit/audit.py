@@ -7,6 +7,7 @@ data came from.
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import functools
 import time
@@ -85,6 +86,9 @@ def audit(data: AuditData, config: Config, random_state: int | None) -> Verdict:
     findings: dict[str, Finding] = {}
     timings: dict[str, float] = {}
     with one_blas_thread():
+        start = time.perf_counter()
+        _read_rows_once(data, config, random_state)
+        timings["row_pass"] = time.perf_counter() - start
         for key, run in checks.registry():
             start = time.perf_counter()
             if config.severity_of(key) == "off":
@@ -135,6 +139,17 @@ def what_if(data: AuditData, config: Config, random_state: int | None, **changes
     return audit(
         apply(data, Change.of(**changes), few_distinct_values=config.few_distinct_values), config, random_state
     )
+
+
+def _read_rows_once(data: AuditData, config: Config, random_state: int | None) -> None:
+    """Compute the row tasks of every check in one read of the rows (:meth:`AuditData.run_tasks`).
+
+    A streamed input is then read once for all the checks that score every row. If that shared
+    read fails, nothing is stored and each check reads the rows on its own and reports its own
+    error.
+    """
+    with recorded_warnings(), contextlib.suppress(Exception):
+        data.run_tasks(checks.row_tasks(data, config, random_state))
 
 
 def _run_check(

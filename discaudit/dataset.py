@@ -9,13 +9,17 @@ A source (:mod:`discaudit.sources`) validates its input once and returns an :cla
   results (in memory: blocks of the array; chunked input: the chunks read again; Dask: the
   partitions, where they live). A check that must see every row (outlier scoring) uses it, so no
   source ever calls into a check.
+
+A check that reads every row states what it computes as a :class:`RowTask`; when several checks
+do, the core runs them in one read of the rows (:meth:`AuditData.run_tasks`) and each check finds
+its result there (:meth:`AuditData.pass_result`), so a streamed input is read once for all of them.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from typing import Any, Protocol, TypeVar
+from typing import Any, Generic, Protocol, TypeVar
 
 import numpy as np
 import numpy.typing as npt
@@ -97,6 +101,33 @@ class RowPass(Protocol):
     def map_reduce(self, fn: Callable[[RowBlock], T], combine: Callable[[T, T], T]) -> T:
         """``combine`` of ``fn(block)`` over all blocks, in input order."""
         ...
+
+
+@dataclass(frozen=True)
+class RowTask(Generic[T]):
+    """What one check computes over every row: ``combine`` of ``fn(block)`` over the blocks.
+
+    ``key`` names everything the result depends on besides the data (the check, its settings,
+    the seed): two tasks with one key compute the same thing.
+    """
+
+    key: Any
+    fn: Callable[[RowBlock], T]
+    combine: Callable[[T, T], T]
+
+
+@dataclass(frozen=True)
+class _Together:
+    """Several tasks as one: a tuple of their block results, combined position by position (a
+    module-level class, so engines that ship the function to workers can pickle it)."""
+
+    tasks: tuple[RowTask[Any], ...]
+
+    def fn(self, block: RowBlock) -> tuple[Any, ...]:
+        return tuple(task.fn(block) for task in self.tasks)
+
+    def combine(self, a: tuple[Any, ...], b: tuple[Any, ...]) -> tuple[Any, ...]:
+        return tuple(task.combine(x, y) for task, x, y in zip(self.tasks, a, b, strict=True))
 
 
 @dataclass(frozen=True)
@@ -196,3 +227,29 @@ class AuditData:
         if key not in self.memo:
             self.memo[key] = compute()
         return self.memo[key]  # type: ignore[no-any-return]
+
+    def pass_result(self, task: RowTask[T]) -> T:
+        """The task's result over every row: from an earlier :meth:`run_tasks`, else a read of its own.
+
+        Raises
+        ------
+        ValueError
+            When the data have no row pass (a one-shot stream).
+        """
+        if self.all_rows is None:
+            raise ValueError("these data cannot be read again: there is no pass over every row")
+        rows = self.all_rows
+        return self.shared(("row_task", task.key), lambda: rows.map_reduce(task.fn, task.combine))
+
+    def run_tasks(self, tasks: Sequence[RowTask[Any]]) -> None:
+        """Compute the tasks not yet computed in one read of the rows, for :meth:`pass_result`.
+
+        Each block is handed to every task in turn, so the results are those of separate reads.
+        """
+        pending = tuple({task.key: task for task in tasks if ("row_task", task.key) not in self.memo}.values())
+        if self.all_rows is None or len(pending) < 2:
+            return
+        together = _Together(pending)
+        results: tuple[Any, ...] = self.all_rows.map_reduce(together.fn, together.combine)
+        for task, result in zip(pending, results, strict=True):
+            self.memo[("row_task", task.key)] = result

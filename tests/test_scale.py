@@ -127,3 +127,95 @@ def test_cli_streams_a_file_with_the_same_moment_findings(tmp_path, flakes) -> N
     for key in MOMENT_CHECKS:
         _close(stream["findings"][key]["details"], mem["findings"][key]["details"], rel=1e-6)
     assert stream["meta"]["sample"] is not None and mem["meta"]["sample"] is None
+
+
+def _counted(frame: pd.DataFrame, reads: list[int]):
+    chunks = _uneven_chunks(frame)
+
+    def again():
+        reads.append(1)
+        return chunks()
+
+    return again
+
+
+def test_a_streamed_input_is_read_once_for_every_check_that_scores_rows(flakes) -> None:
+    # Outlier scoring and the leave-one-out sums both read every row; the core hands both tasks to one
+    # read, and each check's finding is the one it gets from a read of its own.
+    from discaudit.audit import _read_rows_once
+    from discaudit.checks import expected_performance, outliers, row_tasks
+    from discaudit.sources.chunks import load_chunks
+
+    frame, _ = flakes
+    cfg = discaudit.Config(sample_rows_per_class=130)
+    reads: list[int] = []
+    shared = load_chunks(_counted(frame, reads), "family", cfg, 0, None)
+    _read_rows_once(shared, cfg, 0)
+    fused = {check.KEY: check.run(shared, cfg, 0) for check in (outliers, expected_performance)}
+    assert len(reads) == 2  # the summaries, then one row pass for both checks
+
+    alone = load_chunks(_uneven_chunks(frame), "family", cfg, 0, None)
+    assert len(row_tasks(alone, cfg, 0)) == 2
+    for check in (outliers, expected_performance):
+        separate = check.run(alone, cfg, 0)
+        assert fused[check.KEY].summary == separate.summary
+        _close(fused[check.KEY].details, separate.details, rel=0.0)
+
+
+def test_kept_moments_from_the_streamed_tally_equal_the_kept_rows_own(flakes) -> None:
+    # The kept rows' mean and scatter come from the class moments minus the flagged rows' sums; check
+    # them against the kept rows themselves (numpy's mean and centred cross-products).
+    import functools
+    import operator
+
+    from discaudit.checks import outliers as out
+    from discaudit.checks._robust import robust_fits
+    from discaudit.sources.chunks import load_chunks
+
+    frame, _ = flakes
+    cfg = discaudit.Config(sample_rows_per_class=130)
+    data = load_chunks(_uneven_chunks(frame), "family", cfg, 0, None)
+    assert data.all_rows is not None
+    scoring = out._Scoring.of(data.moments, tuple(robust_fits(data, cfg, 0).fits))
+    tally = data.all_rows.map_reduce(functools.partial(out._tally_block, scoring), operator.add)
+    outcomes, arrays = out._score_tally(data, data.all_rows, scoring, tally)
+    blocks = data.all_rows.map_reduce(lambda b: [b], operator.add)
+    values = np.vstack([b.values for b in blocks])
+    codes = np.concatenate([b.codes for b in blocks])
+    labels = pd.Index(np.concatenate([np.asarray(b.row_labels) for b in blocks]))
+    flagged = set(arrays["row_label"])
+    assert flagged, "the demo data have contaminated rows"
+    for fit, outcome in zip(scoring.fits, outcomes, strict=True):
+        rows = np.flatnonzero((codes == fit.code) & ~labels.isin(flagged))
+        if outcome.n_flagged == 0:
+            assert outcome.kept_mean is None
+            continue
+        assert rows.size == outcome.n - outcome.n_flagged
+        kept = values[rows]
+        np.testing.assert_allclose(outcome.kept_mean, kept.mean(axis=0), rtol=1e-10, atol=1e-12)
+        centred = kept - kept.mean(axis=0)
+        np.testing.assert_allclose(outcome.kept_scatter, centred.T @ centred, rtol=1e-8, atol=1e-10)
+
+
+def test_kept_moments_are_summed_directly_when_the_left_out_rows_carry_all_the_scatter() -> None:
+    # Two distinct rows and many copies of the mean: removing the two leaves no scatter, where the
+    # difference S - S_out would be rounding noise; the direct sums must be used and give exactly 0.
+    from discaudit.checks.outliers import _kept_from_out
+
+    X = np.vstack([np.full((50, 2), 3.0), [[3.0 + 1e3, 3.0 - 7e2]], [[3.0 - 1e3, 3.0 + 7e2]]])
+    moments = ClassMoments.from_arrays(X, np.zeros(52, dtype=np.intp), ("a",))
+    out_rows = X[50:]
+    centre = moments.means[0]
+    direct_calls: list[int] = []
+
+    def direct():
+        direct_calls.append(1)
+        kept = X[:50]
+        return kept.sum(axis=0), (kept - centre).T @ (kept - centre)
+
+    mean, scatter = _kept_from_out(
+        moments, 0, 2, out_rows.sum(axis=0), (out_rows - centre).T @ (out_rows - centre), direct
+    )
+    assert direct_calls == [1]
+    np.testing.assert_allclose(mean, [3.0, 3.0], rtol=1e-15)
+    np.testing.assert_allclose(scatter, np.zeros((2, 2)), atol=1e-9)

@@ -127,7 +127,12 @@ def canonical_layout(data: AuditData) -> tuple[list[IntArray], list[int]]:
 
 def robust_fits(data: AuditData, config: Config, random_state: int | None) -> RobustFits:
     """The fits and held-row scores of every class, computed once per audit (see the module notes)."""
-    key = (
+    return data.shared(fits_key(config, random_state), lambda: _compute(data, config, random_state))
+
+
+def fits_key(config: Config, random_state: int | None) -> tuple[Any, ...]:
+    """Everything the robust fits depend on besides the data: the settings they read and the seed."""
+    return (
         "robust_fits",
         random_state,
         config.outlier_quantile,
@@ -138,7 +143,6 @@ def robust_fits(data: AuditData, config: Config, random_state: int | None) -> Ro
         config.robust_max_skewness,
         config.outlier_far_out_mads,
     )
-    return data.shared(key, lambda: _compute(data, config, random_state))
 
 
 def _compute(data: AuditData, config: Config, random_state: int | None) -> RobustFits:

@@ -26,7 +26,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from discaudit.dataset import AuditData, RowBlock
+from discaudit.dataset import AuditData, RowBlock, RowTask
 from discaudit.findings import Finding, fmt, skipped
 from discaudit.jsonable import label
 from discaudit.stats._sampling import resolve_seed
@@ -121,19 +121,10 @@ def _gaussian(
     of about ``Config.performance_max_rows`` rows (chosen by row keys, so the same rows whatever their
     order or chunking); each scored row's refit still uses all the other rows. ``only`` restricts the
     grids to one candidate's (plain LDA is always scored; each figure is the same either way)."""
-    m = data.moments
-    scorer = LeaveOneOutScorer.from_moments(
-        m.counts,
-        m.means,
-        m.scatter,
-        shrinkage=SHRINKAGE_GRID if only in (None, "regularized_lda") else None,
-        qda_reg_grid=QDA_REG_GRID if only in (None, "qda") else (),
-        scale=scale,
-    )
-    share = min(1.0, config.performance_max_rows / m.n_total)
+    scorer = _scorer(data, scale, only)
     seed = resolve_seed(random_state)
     if data.all_rows is not None:
-        tally = data.all_rows.map_reduce(functools.partial(_tally, scorer, share, seed, _origin(data)), operator.add)
+        tally = data.pass_result(_loo_task(scorer, data, config, seed, only))
     else:  # a one-shot stream: the per-class sample stands in for the rows
         tally = _tally(
             scorer,
@@ -143,6 +134,38 @@ def _gaussian(
             RowBlock(data.values, data.codes, data.row_labels),
         )
     return scorer, tally.result()
+
+
+def _scorer(data: AuditData, scale: np.ndarray, only: str | None) -> LeaveOneOutScorer:
+    """The leave-one-out scorer of the Gaussian candidates (``only``: one candidate's grid)."""
+    m = data.moments
+    return LeaveOneOutScorer.from_moments(
+        m.counts,
+        m.means,
+        m.scatter,
+        shrinkage=SHRINKAGE_GRID if only in (None, "regularized_lda") else None,
+        qda_reg_grid=QDA_REG_GRID if only in (None, "qda") else (),
+        scale=scale,
+    )
+
+
+def _loo_task(
+    scorer: LeaveOneOutScorer, data: AuditData, config: Config, seed: int, only: str | None
+) -> RowTask[LeaveOneOutTally]:
+    """The leave-one-out sums over every row, or over the rows whose key falls in the sampled share."""
+    share = min(1.0, config.performance_max_rows / data.moments.n_total)
+    return RowTask(
+        (KEY, only, share, seed),
+        functools.partial(_tally, scorer, share, seed, _origin(data)),
+        operator.add,
+    )
+
+
+def row_task(data: AuditData, config: Config, random_state: int | None = None) -> RowTask[LeaveOneOutTally] | None:
+    """The leave-one-out sums :func:`run` needs from every row (None for a one-shot stream)."""
+    if data.all_rows is None:
+        return None
+    return _loo_task(_scorer(data, _total_scale(data), None), data, config, resolve_seed(random_state), None)
 
 
 def _setting_of(result: LeaveOneOutResult, model: str) -> str | None:

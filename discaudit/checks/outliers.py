@@ -15,6 +15,7 @@ from __future__ import annotations
 import dataclasses
 import functools
 import operator
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
@@ -22,8 +23,8 @@ import numpy as np
 import pandas as pd
 from scipy import stats as sps
 
-from discaudit.checks._robust import ClassFit, RobustFits, canonical_layout, robust_fits, robust_min_rows
-from discaudit.dataset import AuditData, RowBlock
+from discaudit.checks._robust import ClassFit, RobustFits, canonical_layout, fits_key, robust_fits, robust_min_rows
+from discaudit.dataset import AuditData, RowBlock, RowPass, RowTask
 from discaudit.findings import Finding, fmt, fmt_p, names
 from discaudit.jsonable import label
 from discaudit.stats._linalg import logdet_spd, mahalanobis_sq
@@ -109,24 +110,40 @@ def _kept_moments(
     return mean, cross - n_kept * np.outer(delta, delta)
 
 
-def _without(data: AuditData, k: int, out: np.ndarray) -> tuple[np.ndarray | None, np.ndarray | None]:
-    """Mean and scatter of class k without the rows ``out``, from the class's exact moments.
+def _kept_from_out(
+    moments: ClassMoments,
+    k: int,
+    n_out: int,
+    total_out: np.ndarray,
+    cross_out: np.ndarray,
+    direct: Callable[[], tuple[np.ndarray, np.ndarray]],
+) -> tuple[np.ndarray | None, np.ndarray | None]:
+    """Mean and scatter of class k without some rows, from the class's exact moments and the sums
+    of the rows left out (``total_out`` about the origin, ``cross_out`` about the class mean m).
 
-    Sum_kept (x - m)(x - m)' = S - sum_out (x - m)(x - m)' (m the class mean), so only the few
-    rows left out are read. When they carry nearly all of the scatter the difference would lose
-    its digits to cancellation; the kept rows are then summed directly.
+    Sum_kept (x - m)(x - m)' = S - sum_out (x - m)(x - m)', so only the rows left out are read.
+    When they carry nearly all of the scatter the difference would lose its digits to
+    cancellation; ``direct()`` then sums the kept rows themselves (column sums and cross-products
+    about m).
     """
-    m = data.moments
-    centre, n = m.means[k], int(m.counts[k])
-    total_out, cross_out = _scatter_about(data.values, out, centre)
-    n_kept = n - out.size
+    centre, n = moments.means[k], int(moments.counts[k])
     total_kept = centre * n - total_out
-    cross = m.scatter[k] - cross_out
-    if not np.trace(cross) > 1e-8 * np.trace(m.scatter[k]):
-        rows = data.class_rows(k)
-        kept = np.setdiff1d(rows, out, assume_unique=True)
-        total_kept, cross = _scatter_about(data.values, kept, centre)
-    return _kept_moments(total_kept, cross, n_kept, centre)
+    cross = moments.scatter[k] - cross_out
+    if not np.trace(cross) > 1e-8 * np.trace(moments.scatter[k]):
+        total_kept, cross = direct()
+    return _kept_moments(total_kept, cross, n - n_out, centre)
+
+
+def _without(data: AuditData, k: int, out: np.ndarray) -> tuple[np.ndarray | None, np.ndarray | None]:
+    """Mean and scatter of class k without the held rows ``out`` (:func:`_kept_from_out`)."""
+    centre = data.moments.means[k]
+    total_out, cross_out = _scatter_about(data.values, out, centre)
+
+    def direct() -> tuple[np.ndarray, np.ndarray]:
+        kept = np.setdiff1d(data.class_rows(k), out, assume_unique=True)
+        return _scatter_about(data.values, kept, centre)
+
+    return _kept_from_out(data.moments, k, out.size, total_out, cross_out, direct)
 
 
 def _score_held(data: AuditData, rf: RobustFits) -> tuple[list[ClassOutcome], dict[str, Any]]:
@@ -181,15 +198,19 @@ def _score_held(data: AuditData, rf: RobustFits) -> tuple[list[ClassOutcome], di
 
 @dataclass(frozen=True)
 class OutlierTally:
-    """Scoring counts of some rows, per class; tallies of disjoint blocks add up exactly."""
+    """Scoring counts of some rows, per class; tallies of disjoint blocks add up exactly.
+
+    Of the flagged rows only their sums are kept (``out_sum`` about the origin, ``out_cross`` about
+    the class mean): the kept rows' moments are the class's exact moments minus these
+    (:func:`_kept_from_out`), so no block sums the many kept rows.
+    """
 
     n: np.ndarray
     n_beyond: np.ndarray
     n_flagged: np.ndarray
     masked: np.ndarray
-    kept_sum: np.ndarray
-    kept_cross: np.ndarray
-    kept_n: np.ndarray
+    out_sum: np.ndarray
+    out_cross: np.ndarray
     listed: list[list[dict[str, Any]]]
     flagged: pd.DataFrame
 
@@ -203,9 +224,8 @@ class OutlierTally:
             self.n_beyond + other.n_beyond,
             self.n_flagged + other.n_flagged,
             self.masked + other.masked,
-            self.kept_sum + other.kept_sum,
-            self.kept_cross + other.kept_cross,
-            self.kept_n + other.kept_n,
+            self.out_sum + other.out_sum,
+            self.out_cross + other.out_cross,
             listed,
             pd.concat([self.flagged, other.flagged], ignore_index=True),
         )
@@ -214,12 +234,40 @@ class OutlierTally:
 _FLAGGED_COLUMNS = ["row_label", "class", "squared_distance", "classical_squared_distance", "cutoff", "fence", "df"]
 
 
-def _tally_block(moments: ClassMoments, fits: tuple[ClassFit, ...], block: RowBlock) -> OutlierTally:
-    """Score every row of one block against the fits; kept rows' sums are taken about the class means."""
+@dataclass(frozen=True)
+class _Scoring:
+    """What scoring a block needs besides the block: the fits, the class means, and each fit's
+    classical mean and covariance (computed once, not per block)."""
+
+    moments: ClassMoments
+    fits: tuple[ClassFit, ...]
+    classical: tuple[tuple[np.ndarray, np.ndarray] | None, ...]
+
+    @classmethod
+    def of(cls, moments: ClassMoments, fits: tuple[ClassFit, ...]) -> _Scoring:
+        return cls(moments, fits, tuple(_classical(moments, fit) for fit in fits))
+
+    def flags(self, k: int, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Robust squared distances of the rows ``X`` of fit ``k``'s class and whether each is flagged."""
+        fit = self.fits[k]
+        on = X if fit.columns.size == X.shape[1] else X[:, fit.columns]
+        d = mahalanobis_sq(on, fit.location, fit.covariance) if fit.usable else None
+        if d is None:
+            d = np.zeros(X.shape[0])
+        return d, d > fit.threshold
+
+
+def _tally_block(scoring: _Scoring, block: RowBlock) -> OutlierTally:
+    """Score every row of one block against the fits.
+
+    Classical distances are computed for the flagged rows only: they are all the tally reports
+    of them (the masked count and the listed rows).
+    """
+    moments, fits = scoring.moments, scoring.fits
     K, p = len(fits), block.values.shape[1]
-    n, n_beyond, n_flagged, masked, kept_n = (np.zeros(K, dtype=np.int64) for _ in range(5))
-    kept_sum = np.zeros((K, p))
-    kept_cross = np.zeros((K, p, p))
+    n, n_beyond, n_flagged, masked = (np.zeros(K, dtype=np.int64) for _ in range(4))
+    out_sum = np.zeros((K, p))
+    out_cross = np.zeros((K, p, p))
     listed: list[list[dict[str, Any]]] = [[] for _ in fits]
     parts = [pd.DataFrame(columns=_FLAGGED_COLUMNS)]
     for k, fit in enumerate(fits):
@@ -228,46 +276,79 @@ def _tally_block(moments: ClassMoments, fits: tuple[ClassFit, ...], block: RowBl
             continue
         X = block.values[rows]
         n[k] = rows.size
-        d = mahalanobis_sq(X[:, fit.columns], fit.location, fit.covariance) if fit.usable else None
-        if d is None:
-            d = np.zeros(rows.size)
-        classical = _classical(moments, fit)
-        got = mahalanobis_sq(X[:, fit.columns], *classical) if classical is not None else None
-        d_classical = got if got is not None else np.full(rows.size, np.nan)
-        beyond = d > fit.cutoff if fit.usable else np.zeros(rows.size, dtype=bool)
-        flags = d > fit.threshold
-        n_beyond[k], n_flagged[k] = int(beyond.sum()), int(flags.sum())
-        masked[k] = int((flags & (d_classical <= fit.threshold)).sum())
-        kept = X[~flags]
-        kept_sum[k], kept_n[k] = kept.sum(axis=0), kept.shape[0]
-        centred = kept - moments.means[fit.code]
-        kept_cross[k] = centred.T @ centred
+        d, flags = scoring.flags(k, X)
+        n_beyond[k] = int((d > fit.cutoff).sum()) if fit.usable else 0
+        n_flagged[k] = int(flags.sum())
+        d_classical = np.full(rows.size, np.nan)
+        if n_flagged[k] == 0:
+            continue
+        out = np.flatnonzero(flags)
+        classical = scoring.classical[k]
+        got = mahalanobis_sq(X[out][:, fit.columns], *classical) if classical is not None else None
+        if got is not None:
+            d_classical[out] = got
+        masked[k] = int((d_classical[out] <= fit.threshold).sum())
+        out_sum[k], out_cross[k] = _scatter_about(X, out, moments.means[fit.code])
         listed[k] = _listed(d, d_classical, flags, block.row_labels[rows])
-        if flags.any():
-            parts.append(
-                pd.DataFrame(
-                    {
-                        "row_label": block.row_labels[rows][flags],
-                        "class": moments.classes[fit.code],
-                        "squared_distance": d[flags],
-                        "classical_squared_distance": d_classical[flags],
-                        "cutoff": fit.cutoff,
-                        "fence": fit.fence.fence if fit.fence is not None else np.inf,
-                        "df": fit.df,
-                    }
-                )
+        parts.append(
+            pd.DataFrame(
+                {
+                    "row_label": block.row_labels[rows][flags],
+                    "class": moments.classes[fit.code],
+                    "squared_distance": d[flags],
+                    "classical_squared_distance": d_classical[flags],
+                    "cutoff": fit.cutoff,
+                    "fence": fit.fence.fence if fit.fence is not None else np.inf,
+                    "df": fit.df,
+                }
             )
+        )
     flagged = pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
-    return OutlierTally(n, n_beyond, n_flagged, masked, kept_sum, kept_cross, kept_n, listed, flagged)
+    return OutlierTally(n, n_beyond, n_flagged, masked, out_sum, out_cross, listed, flagged)
 
 
-def _score_tally(data: AuditData, rf: RobustFits, tally: OutlierTally) -> tuple[list[ClassOutcome], dict[str, Any]]:
+def _kept_block(scoring: _Scoring, k: int, block: RowBlock) -> tuple[np.ndarray, np.ndarray]:
+    """Column sums and cross-products about the class mean of the kept (unflagged) rows of fit
+    ``k``'s class in one block."""
+    code = scoring.fits[k].code
+    X = block.values[block.codes == code]
+    _, flags = scoring.flags(k, X)
+    return _scatter_about(X, np.flatnonzero(~flags), scoring.moments.means[code])
+
+
+def _add_pairs(a: tuple[np.ndarray, np.ndarray], b: tuple[np.ndarray, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+    return a[0] + b[0], a[1] + b[1]
+
+
+def _score_tally(
+    data: AuditData, rows_pass: RowPass, scoring: _Scoring, tally: OutlierTally
+) -> tuple[list[ClassOutcome], dict[str, Any]]:
+    """Outcomes and flagged-row arrays from the tally of every row.
+
+    Raises
+    ------
+    RuntimeError
+        When the row pass scored a different number of rows of a class than the moments count
+        (the input changed between its reads): the kept rows' moments would then be wrong.
+    """
     outcomes = []
-    for k, fit in enumerate(rf.fits):
-        centre = data.moments.means[fit.code]
+    m = data.moments
+    for k, fit in enumerate(scoring.fits):
+        if int(tally.n[k]) != int(m.counts[fit.code]):
+            raise RuntimeError(
+                f"the row pass read {int(tally.n[k])} rows of class {label(m.classes[fit.code])} where the first "
+                f"read counted {int(m.counts[fit.code])}: the input changed between its two reads"
+            )
         mean, scatter = (None, None)
         if tally.n_flagged[k]:
-            mean, scatter = _kept_moments(tally.kept_sum[k], tally.kept_cross[k], int(tally.kept_n[k]), centre)
+            mean, scatter = _kept_from_out(
+                m,
+                fit.code,
+                int(tally.n_flagged[k]),
+                tally.out_sum[k],
+                tally.out_cross[k],
+                functools.partial(rows_pass.map_reduce, functools.partial(_kept_block, scoring, k), _add_pairs),
+            )
         outcomes.append(
             ClassOutcome(
                 int(tally.n[k]),
@@ -291,7 +372,7 @@ def _score_tally(data: AuditData, rf: RobustFits, tally: OutlierTally) -> tuple[
         "df": rows["df"].to_numpy(dtype=np.int64),
         "beyond_cutoff": np.ones(n, dtype=bool),
         "flagged": np.ones(n, dtype=bool),
-        "fits": rf.fits,
+        "fits": scoring.fits,
     }
     return outcomes, arrays
 
@@ -593,6 +674,18 @@ def judge(
     return Finding(KEY, "pass", head + extra + ".", details, figure, arrays)
 
 
+def row_task(data: AuditData, config: Config, random_state: int | None = None) -> RowTask[OutlierTally] | None:
+    """The scoring of every row against the fits, when the rows held are a sample of an input that can
+    be read again (else None: the rows held are scored, or there is nothing to score)."""
+    if data.sample is None or data.all_rows is None:
+        return None
+    rf = robust_fits(data, config, random_state)
+    if not any(f.columns.size for f in rf.fits):
+        return None
+    scoring = _Scoring.of(data.moments, tuple(rf.fits))
+    return RowTask((KEY, fits_key(config, random_state)), functools.partial(_tally_block, scoring), operator.add)
+
+
 def run(data: AuditData, config: Config, random_state: int | None = None) -> Finding:
     """Flag rows far from their own class by robust distance, and measure their influence on LDA.
 
@@ -625,9 +718,10 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
             "-",
         )
     extra: dict[str, Any] = {}
-    if data.sample is not None and data.all_rows is not None:
-        scorer = functools.partial(_tally_block, data.moments, tuple(rf.fits))
-        outcomes, arrays = _score_tally(data, rf, data.all_rows.map_reduce(scorer, operator.add))
+    task = row_task(data, config, random_state)
+    if task is not None and data.all_rows is not None:
+        scoring = _Scoring.of(data.moments, tuple(rf.fits))
+        outcomes, arrays = _score_tally(data, data.all_rows, scoring, data.pass_result(task))
         extra["scored_rows"] = (
             "every row of the input (second pass), against robust fits and far-out fences from the sample"
         )
