@@ -9,7 +9,10 @@ child's wall time and peak resident memory (``ru_maxrss`` from ``wait4``). The t
 Spark runs on a smaller file (``--spark-rows``, default 1,000,000) in ``local[*]``; its memory is
 the Python driver's (the JVM is a separate process sized by ``spark.driver.memory``).
 
-    python benchmarks/bench_engines.py [--rows 20000000] [--spark-rows 1000000] [--skip spark,chunks]
+    python benchmarks/bench_engines.py [--rows 20000000] [--spark-rows 1000000] [--skip spark,chunks] [--reuse FILE]
+
+``--reuse FILE`` audits an existing file written by an earlier run (kept with ``--keep FILE``) instead of
+writing a new one.
 """
 
 from __future__ import annotations
@@ -17,6 +20,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import shutil
 import subprocess
 import sys
 import tempfile
@@ -82,20 +86,26 @@ def main() -> None:
     parser.add_argument("--rows", type=int, default=20_000_000)
     parser.add_argument("--spark-rows", type=int, default=1_000_000)
     parser.add_argument("--skip", default="", help="comma-separated readers to leave out: chunks, duckdb, arrow, spark")
+    parser.add_argument("--keep", type=Path, help="also copy the written file here, for a later --reuse")
+    parser.add_argument("--reuse", type=Path, help="audit this file (written by --keep) instead of writing one")
     args = parser.parse_args()
     skip = {s.strip() for s in args.skip.split(",") if s.strip()}
     load = os.getloadavg()
     print(f"machine: {os.cpu_count()} cores, load average {load[0]:.2f} {load[1]:.2f} {load[2]:.2f}")
     print("| reader | rows | seconds | peak RSS (MB) | verdict |\n| --- | --- | --- | --- | --- |")
     with tempfile.TemporaryDirectory() as folder:
-        path = Path(folder) / "rows.parquet"
-        write(path, args.rows)
+        path = args.reuse or Path(folder) / "rows.parquet"
+        if args.reuse is None:
+            write(path, args.rows)
+            if args.keep is not None:
+                shutil.copyfile(path, args.keep)
+        rows = pq.ParquetFile(path).metadata.num_rows
         for name in CHILD:
             if name.split()[0] in skip or name == "spark local":
                 continue
             r = run(name, path)
             print(
-                f"| {name} | {args.rows:,} | {r['seconds']} | {r['peak_mb']} | {r['verdict'] or 'exit ' + str(r['exit'])} |"
+                f"| {name} | {rows:,} | {r['seconds']} | {r['peak_mb']} | {r['verdict'] or 'exit ' + str(r['exit'])} |"
             )
         if "spark" not in skip:
             small = Path(folder) / "spark.parquet"

@@ -32,9 +32,10 @@ from __future__ import annotations
 
 import contextvars
 import os
+import queue
 import threading
 import warnings
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import contextmanager
 from typing import Any, Generic, TypeVar
@@ -202,3 +203,60 @@ def map_in_threads(fn: Callable[[T], R], items: Sequence[T]) -> list[R]:
     contexts = [contextvars.copy_context() for _ in items]
     with ThreadPoolExecutor(max_workers=workers, thread_name_prefix="discaudit") as pool:
         return list(pool.map(lambda pair: pair[0].run(fn, pair[1]), zip(contexts, items, strict=True)))
+
+
+#: Items a :func:`read_ahead` worker may hold ready for its consumer (bounds the extra memory to
+#: this many blocks; two keep the worker busy while one is consumed).
+READ_AHEAD_DEPTH = 2
+#: Seconds a blocked :func:`read_ahead` worker waits between looks at whether its consumer left.
+_READ_AHEAD_POLL = 0.1
+
+
+def read_ahead(items: Iterable[T], depth: int = READ_AHEAD_DEPTH) -> Iterator[T]:
+    """The items of ``items`` in order, produced on a worker thread up to ``depth`` items ahead.
+
+    Reading and converting the next block of rows (an engine's query, a file reader, an Arrow
+    to numpy copy: work that releases the GIL) then overlaps with scoring the current one. The
+    worker runs in a copy of the caller's context (its warnings are the audit's); an exception
+    it meets is raised here, at the item where it occurred; a consumer that stops early stops the
+    worker. On one core the items are produced inline.
+    """
+    if usable_cores() <= 1:
+        yield from items
+        return
+    ready: queue.Queue[tuple[str, Any]] = queue.Queue(maxsize=depth)
+    stop = threading.Event()
+
+    def offer(entry: tuple[str, Any]) -> bool:
+        while not stop.is_set():
+            try:
+                ready.put(entry, timeout=_READ_AHEAD_POLL)
+                return True
+            except queue.Full:
+                continue
+        return False
+
+    def produce() -> None:
+        try:
+            for item in items:
+                if not offer(("item", item)):
+                    return
+        except BaseException as exc:  # handed to the consumer, raised in its thread
+            offer(("error", exc))
+            return
+        offer(("done", None))
+
+    context = contextvars.copy_context()
+    worker = threading.Thread(target=context.run, args=(produce,), name="discaudit-read-ahead", daemon=True)
+    worker.start()
+    try:
+        while True:
+            kind, value = ready.get()
+            if kind == "done":
+                return
+            if kind == "error":
+                raise value
+            yield value
+    finally:
+        stop.set()
+        worker.join()

@@ -42,7 +42,7 @@ def _moments(X: np.ndarray, codes: np.ndarray) -> tuple[np.ndarray, np.ndarray, 
 
 def _estimator(model: str, setting: float | None):
     if model == "lda":
-        return LinearDiscriminantAnalysis(solver="svd")
+        return LinearDiscriminantAnalysis(solver="svd" if setting is None else "lsqr")
     if model == "regularized_lda":
         return LinearDiscriminantAnalysis(solver="lsqr", shrinkage=setting)
     return QuadraticDiscriminantAnalysis(reg_param=setting)
@@ -274,6 +274,28 @@ def test_lda_is_skipped_where_sklearns_svd_solver_reduces_the_rank() -> None:
     svd = LinearDiscriminantAnalysis(solver="svd").fit(X, y).predict_log_proba(X)
     lsqr = LinearDiscriminantAnalysis(solver="lsqr").fit(X, y).predict_log_proba(X)
     assert np.max(np.abs(svd - lsqr)) > 1e-3
+
+
+def test_lda_with_collinear_class_means_is_scored_as_the_lsqr_solver() -> None:
+    # Three invented classes whose means lie on one line (class 2 shifted to m0 + 2 (m1 - m0)), as with
+    # ordered classes: the svd solver keeps one between-class direction, so LDA is scored and handed out
+    # as the lsqr solver, the same full-rank rule.
+    rng = np.random.default_rng(11)
+    X = rng.normal(size=(90, 3))
+    y = np.repeat(np.arange(3), 30).astype(np.intp)
+    m = [X[y == k].mean(axis=0) for k in range(3)]
+    X[y == 2] += m[0] + 2.0 * (m[1] - m[0]) - m[2]
+    counts, means, scatter = _moments(X, y)
+    scorer = LeaveOneOutScorer.from_moments(counts, means, scatter, shrinkage=None, qda_reg_grid=())
+    assert scorer.settings[scorer.names.index("lda")] == 0.0
+    # Source: scikit-learn's svd solver reduces the rank on these data (one discriminant direction).
+    assert LinearDiscriminantAnalysis(solver="svd").fit(X, y).scalings_.shape[1] == 1
+    rows = np.arange(y.size)
+    ours = scorer.score_block(X, y)
+    correct, nll = _brute_force(X, y, rows, "lda", 0.0)  # source: scikit-learn lsqr refits
+    j = scorer.names.index("lda")
+    np.testing.assert_array_equal(ours.correct[:, j], correct)
+    np.testing.assert_allclose(ours.neg_log_prob[:, j], nll, rtol=1e-8, atol=1e-12)
 
 
 def test_lda_is_skipped_when_one_refit_has_a_singular_pooled_covariance() -> None:

@@ -219,3 +219,38 @@ def test_kept_moments_are_summed_directly_when_the_left_out_rows_carry_all_the_s
     assert direct_calls == [1]
     np.testing.assert_allclose(mean, [3.0, 3.0], rtol=1e-15)
     np.testing.assert_allclose(scatter, np.zeros((2, 2)), atol=1e-9)
+
+
+def test_read_ahead_keeps_order_raises_where_the_source_fails_and_stops_with_its_consumer(monkeypatch) -> None:
+    import threading
+
+    from discaudit import _threads
+
+    monkeypatch.setattr(_threads, "usable_cores", lambda: 2)
+    assert list(_threads.read_ahead(iter(range(50)))) == list(range(50))
+
+    def failing():
+        yield from range(3)
+        raise ValueError("the source broke at item 3")
+
+    got = []
+    with pytest.raises(ValueError, match="item 3"):
+        for item in _threads.read_ahead(failing()):
+            got.append(item)
+    assert got == [0, 1, 2]
+
+    produced: list[int] = []
+
+    def endless():
+        i = 0
+        while True:
+            produced.append(i)
+            yield i
+            i += 1
+
+    before = threading.active_count()
+    ahead = _threads.read_ahead(endless(), depth=2)
+    assert [next(ahead) for _ in range(5)] == [0, 1, 2, 3, 4]
+    ahead.close()  # the consumer leaves: the worker stops, at most depth + 2 items past what was taken
+    assert threading.active_count() == before
+    assert len(produced) <= 5 + 2 + 2

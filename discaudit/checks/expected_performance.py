@@ -3,7 +3,8 @@
 The Gaussian candidates (LDA, shrinkage LDA, QDA) are scored by exact leave-one-out from the
 class moments and one pass over the rows (Lachenbruch & Mickey 1968;
 :mod:`discaudit.stats.leave_one_out`), each exactly as the estimator the recommendation would hand
-out: LDA as scikit-learn's svd solver; shrinkage LDA and QDA behind a StandardScaler, over a small
+out: LDA as scikit-learn's svd solver (its lsqr solver when the class means nearly lie in a
+lower-dimensional subspace, where the svd solver would reduce the rank); shrinkage LDA and QDA behind a StandardScaler, over a small
 grid of intensities and ``reg_param`` values, the one with the lowest leave-one-out log-loss kept.
 Logistic regression cannot be scored from the moments; it is scored by stratified
 cross-validation of an L2-penalized fit on a seeded, class-proportional subsample
@@ -262,7 +263,7 @@ def _collect(
         elif model == "qda":
             settings |= {"reg_param": setting}
         else:
-            settings |= {"solver": "svd"}
+            settings |= {"solver": "svd" if setting is None else "lsqr"}
         figures[model] = {
             "accuracy": float(loo.accuracy[i]),
             "accuracy_se": float(loo.accuracy_se[i]),

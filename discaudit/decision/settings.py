@@ -42,9 +42,13 @@ def scored_settings(model: str, scored: dict[str, Any], findings: Findings) -> t
     separated = bool(ANY_COMPLETE_SEPARATION.read(findings) or ANY_QUASI_COMPLETE_SEPARATION.read(findings))
     if model == "lda":
         standardize = _standardize_lda(findings)
-        params: dict[str, Any] = {"solver": "svd", "standardize": standardize}
+        solver = scored.get("solver", "svd")
+        params: dict[str, Any] = {"solver": solver, "standardize": standardize}
         notes = {
-            "solver": "svd: no inverse of the pooled covariance is formed (stable when features are collinear)",
+            "solver": "svd: no inverse of the pooled covariance is formed (stable when features are collinear)"
+            if solver == "svd"
+            else "lsqr without shrinkage: the class means nearly lie in a lower-dimensional subspace, where the svd "
+            "solver would drop a between-class direction; lsqr fits the same full-rank LDA, the model scored",
             "standardize": _STANDARDIZE_NOTE[False]
             + ("; advised anyway because feature scales differ widely (numerical conditioning)" if standardize else ""),
         }

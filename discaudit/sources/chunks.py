@@ -21,6 +21,7 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
+from discaudit._threads import read_ahead
 from discaudit.config import Config
 from discaudit.dataset import AuditData, Coordinates, IntakeRecord, RowBlock, RowPass, SampleInfo
 from discaudit.errors import DataError
@@ -443,8 +444,8 @@ class ChunkRows:
 
     def map_reduce(self, fn: Callable[[RowBlock], T], combine: Callable[[T, T], T]) -> T:
         out: T | None = None
-        for chunk in self.source():
-            part = fn(self.spec.block(chunk))
+        for block in read_ahead(self.spec.block(chunk) for chunk in self.source()):
+            part = fn(block)
             out = part if out is None else combine(out, part)
         if out is None:
             raise DataError("The input had no rows when it was read the second time.")

@@ -49,6 +49,7 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
+from discaudit._threads import read_ahead
 from discaudit.config import Config
 from discaudit.dataset import AuditData, Coordinates, RowBlock, RowPass
 from discaudit.errors import DataError
@@ -284,8 +285,8 @@ class StreamedRows:
 
     def map_reduce(self, fn: Callable[[RowBlock], T], combine: Callable[[T, T], T]) -> T:
         out: T | None = None
-        for batch in self.source():
-            part = fn(block_of(batch, self.features))
+        for block in read_ahead(block_of(batch, self.features) for batch in self.source()):
+            part = fn(block)
             out = part if out is None else combine(out, part)
         if out is None:  # the engine gave no batch at all: score an empty block
             empty = RowBlock(np.empty((0, len(self.features))), np.empty(0, dtype=np.intp), pd.Index([]))

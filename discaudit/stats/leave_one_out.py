@@ -146,7 +146,10 @@ class LeaveOneOutResult:
     models : tuple[str, ...]
         ``"lda"``, ``"regularized_lda"`` or ``"qda"`` for each name.
     settings : tuple[float | None, ...]
-        The setting each was scored at: None for LDA, the shrinkage intensity, or QDA's reg_param.
+        The setting each was scored at: for LDA None (scikit-learn's svd solver) or 0.0 (its lsqr
+        solver without shrinkage, used when the class means nearly lie in a lower-dimensional
+        subspace, where the svd solver's refits could reduce the rank); the shrinkage intensity;
+        or QDA's reg_param.
     accuracy, log_loss : ndarray, shape (M,)
         Mean over the rows used of the leave-one-out correctness (0/1) and of -ln p(class | row).
     accuracy_se, log_loss_se : ndarray, shape (M,)
@@ -420,13 +423,18 @@ class LeaveOneOutScorer:
         sd_safe = np.where(sd > 0.0, sd, 1.0)
         lda_values, lda_vectors = symmetric_eigh(W / np.outer(sd_safe, sd_safe))
         lda_means = ((M - centre) / sd_safe) @ lda_vectors
-        lda_reason = _lda_static_reason(n, sd, lda_values, lda_means, singletons, tol)
+        # When only the between-class rank is in doubt, LDA is scored as the lsqr solver without
+        # shrinkage (setting 0.0): the same full-rank rule, Sigma = W / N, with no rank to reduce.
+        lda_reason = _lda_static_reason(n, sd, lda_values, singletons, tol)
+        lsqr = lda_reason is None and _between_rank_reason(n, lda_values, lda_means, tol) is not None
         if lda_reason is None:
             names.append("lda")
             models.append("lda")
-            settings.append(None)
+            settings.append(0.0 if lsqr else None)
             reasons.append(
-                f"the within-class correlation matrix may have an eigenvalue at or below tol^2 = {tol**2:g}, "
+                "the pooled covariance is singular at scipy.linalg.lstsq's rank cutoff"
+                if lsqr
+                else f"the within-class correlation matrix may have an eigenvalue at or below tol^2 = {tol**2:g}, "
                 "where scikit-learn's svd solver drops a direction"
             )
         else:
@@ -551,13 +559,13 @@ class LeaveOneOutScorer:
 
         shared: tuple[FloatArray, FloatArray, FloatArray] | None = None  # rotation shared by the shrinkage values
         for j, (model, setting) in enumerate(zip(self.models, self.settings, strict=True)):
-            if model == "lda":
+            if model == "lda" and setting is None:  # the svd solver
                 z = ((Xa - self.centre) / self.lda_sd) @ self.lda_vectors
                 w = z - self.lda_means[ca]
                 fail = ~_stays_above(self.lda_values, gamma, w * w, self.tol**2)
                 forms = _linear_forms(z, self.lda_means, ca, self.lda_values, gamma, gamma, fail)
                 record(j, log_prior - 0.5 * (N - 1.0) * forms, fail)
-            elif model == "regularized_lda":
+            elif model in ("regularized_lda", "lda"):  # the lsqr solver (LDA: no shrinkage)
                 a = float(setting or 0.0)
                 p = self.n_features
                 if shared is None:
@@ -706,9 +714,9 @@ def _singleton_reason(singletons: list[int], n: FloatArray) -> str:
 
 
 def _lda_static_reason(
-    n: FloatArray, sd: FloatArray, values: FloatArray, class_rot: FloatArray, singletons: list[int], tol: float
+    n: FloatArray, sd: FloatArray, values: FloatArray, singletons: list[int], tol: float
 ) -> str | None:
-    """Why the svd solver's refits would not all be full LDA, or None."""
+    """Why LDA's refits would not all be full LDA (either solver), or None."""
     if singletons:
         return _singleton_reason(singletons, n)
     if np.any(sd <= 0.0):
@@ -718,6 +726,11 @@ def _lda_static_reason(
             f"the within-class correlation matrix has an eigenvalue {values[-1]:.3g} at or below tol^2 = {tol**2:g}; "
             "scikit-learn's svd solver would drop that direction (reduced-rank LDA)"
         )
+    return None
+
+
+def _between_rank_reason(n: FloatArray, values: FloatArray, class_rot: FloatArray, tol: float) -> str | None:
+    """Why the svd solver's refits might reduce the rank of the between-class directions, or None."""
     # Between-class directions, whitened by W / N: the svd solver keeps those above tol times the largest.
     K, p = class_rot.shape
     weighted = np.sqrt(n)[:, None] * class_rot / np.sqrt(values)
