@@ -197,12 +197,37 @@ def map_in_threads(fn: Callable[[T], R], items: Sequence[T]) -> list[R]:
     Each item runs in a copy of the caller's context, so its warnings (and numpy's error state)
     are those of the audit that asked for it.
     """
-    workers = min(len(items), usable_cores())
-    if workers <= 1:
-        return [fn(x) for x in items]
+    if min(len(items), usable_cores()) <= 1 or getattr(_IN_POOL, "active", False):
+        return [fn(x) for x in items]  # one item, one core, or already on a pool thread (no nesting)
     contexts = [contextvars.copy_context() for _ in items]
-    with ThreadPoolExecutor(max_workers=workers, thread_name_prefix="discaudit") as pool:
-        return list(pool.map(lambda pair: pair[0].run(fn, pair[1]), zip(contexts, items, strict=True)))
+    return list(_pool().map(lambda pair: pair[0].run(_on_pool, fn, pair[1]), zip(contexts, items, strict=True)))
+
+
+#: Marks the threads of the shared pool, so work they start runs inline instead of waiting for the
+#: pool it occupies.
+_IN_POOL = threading.local()
+_POOL: ThreadPoolExecutor | None = None
+_POOL_PID: int | None = None
+
+
+def _pool() -> ThreadPoolExecutor:
+    """The process's pool of ``usable_cores()`` threads, started on first use (and again in a forked
+    child, which inherits no threads): starting threads for every call cost a few milliseconds an
+    audit."""
+    global _POOL, _POOL_PID
+    with _STATE_LOCK:
+        if _POOL is None or os.getpid() != _POOL_PID:
+            _POOL = ThreadPoolExecutor(max_workers=usable_cores(), thread_name_prefix="discaudit")
+            _POOL_PID = os.getpid()
+        return _POOL
+
+
+def _on_pool(fn: Callable[[T], R], item: T) -> R:
+    _IN_POOL.active = True
+    try:
+        return fn(item)
+    finally:
+        _IN_POOL.active = False
 
 
 #: Items a :func:`read_ahead` worker may hold ready for its consumer (bounds the extra memory to

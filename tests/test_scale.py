@@ -254,3 +254,15 @@ def test_read_ahead_keeps_order_raises_where_the_source_fails_and_stops_with_its
     ahead.close()  # the consumer leaves: the worker stops, at most depth + 2 items past what was taken
     assert threading.active_count() == before
     assert len(produced) <= 5 + 2 + 2
+
+
+def test_work_started_on_a_pool_thread_runs_inline_and_keeps_its_order(monkeypatch) -> None:
+    # The shared pool has as many threads as cores; work a pool thread starts must not wait for it.
+    from discaudit import _threads
+
+    monkeypatch.setattr(_threads, "usable_cores", lambda: 2)
+
+    def outer(i: int) -> list[int]:
+        return _threads.map_in_threads(lambda j: 10 * i + j, list(range(4)))
+
+    assert _threads.map_in_threads(outer, list(range(6))) == [[10 * i + j for j in range(4)] for i in range(6)]
