@@ -21,7 +21,9 @@ def build_estimator(model: str, params: dict[str, Any]) -> Any:
     model : str
         ``"lda"``, ``"regularized_lda"``, ``"qda"`` or ``"logistic_regression"``.
     params : dict
-        The recommendation's settings: keyword arguments of the estimator, plus ``standardize``.
+        The recommendation's settings: keyword arguments of the estimator, plus ``standardize``
+        (True: a StandardScaler in front; ``"within_class"``: a :class:`WithinClassScaler`, which
+        divides each feature by its pooled within-class standard deviation; False: nothing).
 
     Raises
     ------
@@ -44,6 +46,11 @@ def build_estimator(model: str, params: dict[str, Any]) -> Any:
     if model not in classes:
         raise ValueError(f"Unknown model {model!r}.")
     step = classes[model](**{k: v for k, v in params.items() if k != "standardize"})
-    if params.get("standardize", False):
+    standardize = params.get("standardize", False)
+    if standardize == "within_class":
+        from discaudit.within_class_scaler import WithinClassScaler
+
+        return make_pipeline(WithinClassScaler(), step)
+    if standardize:
         return make_pipeline(StandardScaler(), step)
     return step

@@ -202,6 +202,52 @@ def test_breast_cancer_with_a_standard_scaler_matches_sklearn_refits() -> None:
     _check_against_brute_force(X, y, rows, scale=scaler.scale_, X_fit=scaler.transform(X), unfit_grid=(0.0,))
 
 
+def _pooled_within_sd(X: np.ndarray, codes: np.ndarray) -> np.ndarray:
+    """sqrt of the diagonal of scikit-learn's LDA ``covariance_`` (lsqr, no shrinkage): the pooled
+    within-class covariance with the class proportions as priors, i.e. divisor N (reference)."""
+    lda = LinearDiscriminantAnalysis(solver="lsqr", store_covariance=True).fit(X, codes)
+    return np.sqrt(np.diag(lda.covariance_))
+
+
+def test_shrinkage_scale_matches_sklearn_refits_on_within_class_scaled_features() -> None:
+    # Reference: the shrinkage candidates of scikit-learn refit on X / scale / within-class SD (both
+    # fixed on all rows); LDA and QDA must not see the extra scale (they are refit on X / scale).
+    X, y = _wine5()
+    scaler = StandardScaler().fit(X)
+    Z = scaler.transform(X)
+    extra = _pooled_within_sd(Z, y)
+    rows = np.sort(np.random.default_rng(21).choice(y.size, 40, replace=False))
+    counts, means, scatter = _moments(X, y)
+    scorer = LeaveOneOutScorer.from_moments(
+        counts, means, scatter, shrinkage=(0.05, 0.5), qda_reg_grid=(0.1,), scale=scaler.scale_, shrinkage_scale=extra
+    )
+    ours = scorer.score_block(X[rows], y[rows])
+    for j, (model, setting) in enumerate(zip(scorer.models, scorer.settings, strict=True)):
+        X_fit = Z / extra if model == "regularized_lda" else Z
+        correct, nll = _brute_force(X_fit, y, rows, model, setting)  # source: scikit-learn refits
+        np.testing.assert_array_equal(ours.correct[:, j], correct)
+        np.testing.assert_allclose(ours.neg_log_prob[:, j], nll, rtol=1e-8, atol=1e-12)
+    with pytest.raises(DataError, match="shrinkage_scale"):
+        LeaveOneOutScorer.from_moments(counts, means, scatter, shrinkage=0.1, shrinkage_scale=np.zeros(5))
+
+
+def test_within_class_scaler_divides_by_sklearns_pooled_within_class_sd() -> None:
+    from discaudit.within_class_scaler import WithinClassScaler
+
+    X, y = _wine5()
+    scaler = WithinClassScaler().fit(X, y)
+    np.testing.assert_allclose(scaler.scale_, _pooled_within_sd(X, y), rtol=1e-10)  # source: scikit-learn's LDA
+    np.testing.assert_allclose(scaler.transform(X), X / scaler.scale_)
+    # Property: shrinkage toward mu I on these units is shrinkage toward the diagonal of the pooled
+    # covariance, so it does not depend on the features' units (unlike shrinkage after a StandardScaler).
+    from sklearn.pipeline import make_pipeline
+
+    units = np.array([1.0, 1e3, 1e-2, 5.0, 1e4])
+    a = make_pipeline(WithinClassScaler(), LinearDiscriminantAnalysis(solver="lsqr", shrinkage=0.3)).fit(X, y)
+    b = make_pipeline(WithinClassScaler(), LinearDiscriminantAnalysis(solver="lsqr", shrinkage=0.3)).fit(X * units, y)
+    np.testing.assert_allclose(a.predict_proba(X), b.predict_proba(X * units), rtol=1e-8, atol=1e-12)
+
+
 def _invented(sizes: tuple[int, ...], p: int, seed: int, shrink_class: int | None = None):
     rng = np.random.default_rng(seed)
     X = np.vstack([rng.normal(loc=k, size=(n, p)) @ rng.normal(size=(p, p)) for k, n in enumerate(sizes)])
@@ -387,3 +433,27 @@ def test_blocks_that_miss_rows_are_refused() -> None:
         leave_one_out(counts, means, scatter, array_blocks(X[:-1], y[:-1]))
     with pytest.raises(DataError, match="class codes"):
         leave_one_out(counts, means, scatter, [(X, y + 1)])
+
+
+def test_the_handed_out_shrinkage_lda_is_the_scored_one() -> None:
+    # The audit scores shrinkage LDA at the Ledoit-Wolf intensity on features of unit pooled
+    # within-class variance; estimator() must build that model. Reference: scikit-learn's
+    # LeaveOneOut cross-validation of the built Pipeline (its scaler refit per fold, which the exact
+    # leave-one-out holds fixed, so at most one row of 178 may differ).
+    from sklearn.model_selection import LeaveOneOut, cross_val_score
+
+    import discaudit
+
+    X, y = load_wine(return_X_y=True)
+    v = discaudit.preflight(X, y, random_state=0)
+    scored = v.findings["expected_performance"].details["candidates"]["regularized_lda"]
+    assert scored["settings"]["standardize"] == "within_class"
+    from discaudit.stats.shrinkage import shrinkage_intensity
+
+    # The intensity: Ledoit-Wolf of the pooled within-class covariance on the within-class scale.
+    assert scored["settings"]["shrinkage"] == pytest.approx(shrinkage_intensity(X, y, standardize=True), abs=5e-5)
+    from discaudit.estimator import build_estimator
+
+    est = build_estimator("regularized_lda", scored["settings"])
+    brute = cross_val_score(est, X, y, cv=LeaveOneOut()).mean()
+    assert abs(brute - scored["accuracy"]) <= 1.0 / y.size + 1e-12

@@ -50,6 +50,24 @@ Added with the second held-out batch (2026-12-03; never scored before):
     pingouin's ``ancova`` (36 students): the teaching method (A, B, C, D) from the score, the
     family income and the BMI.
 
+Added with the third held-out batch (2026-12-03; never scored before):
+
+``grunfeld_firm``
+    statsmodels' ``grunfeld`` (Grunfeld's investment panel, 11 firms x 20 years): the firm from
+    its gross investment, market value and capital stock (the year is left out). Many classes
+    of 20 rows each.
+``randhie_health``
+    statsmodels' ``randhie`` (RAND health insurance experiment, 20,190 person-years): the
+    self-rated health (excellent, good, fair, poor: the three dummies ``hlthg``, ``hlthf``,
+    ``hlthp`` with excellent as their base) from the visits, coinsurance, deductible, income,
+    spending limit, physical limitations and disease count; strongly imbalanced.
+``mixed_anova_group``
+    pingouin's ``mixed_anova`` (60 subjects, memory scores in August, January and June),
+    reshaped to one row per subject: control or meditation group from the three scores.
+``mediation_ybin``
+    pingouin's ``mediation`` (100 rows): the binary outcome ``Ybin`` from ``X``, ``M``, ``W1``
+    and ``W2`` (``Y`` and ``Mbin`` are left out: they are the same quantities in other codings).
+
 Data sets that the installed packages fetch from the network (scikit-learn's ``fetch_*``,
 statsmodels' ``get_rdataset``, seaborn's ``load_dataset``) are not used.
 """
@@ -175,6 +193,37 @@ def ancova_method():
     return df[["Scores", "Income", "BMI"]].astype(float), df["Method"].astype(str).rename("method")
 
 
+def grunfeld_firm():
+    from statsmodels.datasets import grunfeld
+
+    df = grunfeld.load_pandas().data
+    return df[["invest", "value", "capital"]].astype(float), df["firm"].astype(str).rename("firm")
+
+
+def randhie_health():
+    from statsmodels.datasets import randhie
+
+    df = randhie.load_pandas().data
+    health = np.select(
+        [df["hlthp"] == 1, df["hlthf"] == 1, df["hlthg"] == 1], ["poor", "fair", "good"], default="excellent"
+    )
+    X = df[["mdvis", "lncoins", "idp", "lpi", "fmde", "physlm", "disea"]].astype(float)
+    return X, pd.Series(health, index=df.index, name="health")
+
+
+def mixed_anova_group():
+    df = _pingouin("mixed_anova")
+    wide = df.pivot(index="Subject", columns="Time", values="Scores")
+    wide.columns = [f"score_{t.lower()}" for t in wide.columns]
+    group = df.groupby("Subject")["Group"].first().astype(str).rename("group")
+    return wide.astype(float), group.loc[wide.index]
+
+
+def mediation_ybin():
+    df = _pingouin("mediation")
+    return df[["X", "M", "W1", "W2"]].astype(float), df["Ybin"].astype(int).rename("ybin")
+
+
 OPEN_DATA: dict[str, tuple[str, Callable[[], tuple[pd.DataFrame, pd.Series]]]] = {
     "iris": ("scikit-learn", iris),
     "wine": ("scikit-learn", wine),
@@ -190,6 +239,10 @@ OPEN_DATA: dict[str, tuple[str, Callable[[], tuple[pd.DataFrame, pd.Series]]]] =
     "ccard_ownrent": ("statsmodels", ccard_ownrent),
     "tips_time": ("pingouin", tips_time),
     "ancova_method": ("pingouin", ancova_method),
+    "grunfeld_firm": ("statsmodels", grunfeld_firm),
+    "randhie_health": ("statsmodels", randhie_health),
+    "mixed_anova_group": ("pingouin", mixed_anova_group),
+    "mediation_ybin": ("pingouin", mediation_ybin),
 }
 
 

@@ -105,7 +105,10 @@ class Population:
     sqrt(p)) away from its class mean, along its own random direction (``mode="scattered"``)
     or along one shared direction with little spread (``mode="clustered"``); with
     ``mode="cells"`` a ``fraction`` of the single entries of those classes' rows is shifted by
-    ``magnitude`` standard deviations of its column, up or down at random.
+    ``magnitude`` standard deviations of its column, up or down at random; with
+    ``mode="sentinel"`` the first feature of a ``fraction`` of those rows is replaced by one fixed
+    value ``magnitude`` standard deviations above that column's mean (a code such as 999 typed
+    for a missing value).
     """
 
     classes: tuple[tuple[Component, ...], ...]
@@ -189,6 +192,11 @@ class ClassSampler:
 def _contaminate(X, y, rng, fraction, magnitude, mode, classes):
     X = X.copy()
     sd = X.std(axis=0)
+    if mode == "sentinel":  # the first feature of a fraction of the rows set to one fixed far value
+        rows = np.flatnonzero(np.isin(y, classes))
+        bad = rows[rng.random(rows.size) < fraction]
+        X[bad, 0] = X[:, 0].mean() + magnitude * sd[0]
+        return X
     if mode == "cells":  # single entries shifted by magnitude SD of their column, random sign
         rows = np.isin(y, classes)
         hit = (rng.random(X.shape) < fraction) & rows[:, None]
@@ -1729,6 +1737,505 @@ def _banana_classes(rng):
         return means[k] + Z @ L.T
 
     return Design(ClassSampler(draw_class, p), (LI(rng, 150, 600),) * 2)
+
+
+# ========================================================================================
+# Third batch (written 2026-12-03, held out when written: split.THIRD_BATCH)
+#
+# Written after the second batch was retired into tuning and before any tuning run or audit
+# touched these. Two per category, with generators the first two batches lack: AR(1) (Toeplitz)
+# and compound-symmetry covariances, near-singular shared covariances, many noise features at
+# moderate rows per feature, classes of different tail weight, multivariate Laplace classes,
+# discrete features cut from classes with unequal covariances, class-specific count dispersion,
+# class means in groups, cellwise errors at many features and sentinel codes, XOR and surrounding
+# mixtures, heavy-tailed and count features under a logistic model.
+# ========================================================================================
+
+
+def _ar1_cov(p: int, rho: float, sd: np.ndarray | None = None) -> np.ndarray:
+    """AR(1) (Toeplitz) covariance rho^|i-j|, optionally with feature standard deviations ``sd``."""
+    C = chain_correlation(p, rho)
+    return C if sd is None else C * np.outer(sd, sd)
+
+
+def _feature_sd(rng: np.random.Generator, p: int, log_range: float) -> np.ndarray:
+    return np.exp(rng.uniform(-log_range, log_range, p))
+
+
+def _per_feature(rng: np.random.Generator, p: int, low: float, high: float) -> int:
+    """Rows per class: ``low``-``high`` rows per feature."""
+    return int(round(U(rng, low, high) * p))
+
+
+# equal_gaussian -------------------------------------------------------------------------
+
+
+@family(
+    "equal_ar1_moderate",
+    "equal_gaussian",
+    "K 2-3, p 8-30, one AR(1) covariance (rho 0.3-0.9, feature sd ratio up to 4), mean difference along a "
+    "random direction, distance 1.5-3, 3-10 rows per class per feature",
+)
+def _equal_ar1_moderate(rng):
+    K, p = I(rng, 2, 3), I(rng, 8, 30)
+    cov = _ar1_cov(p, U(rng, 0.3, 0.9), _feature_sd(rng, p, 0.7))
+    return _gauss(spread_means(rng, cov, K, U(rng, 1.5, 3.0)), [cov] * K, (_per_feature(rng, p, 3, 10),) * K)
+
+
+@family(
+    "equal_noise_moderate",
+    "equal_gaussian",
+    "K 2-4, p 20-50, 3-8 informative features among weakly correlated noise features (shared covariance), "
+    "distance 2-3.5, 2-6 rows per class per feature",
+)
+def _equal_noise_moderate(rng):
+    K, p = I(rng, 2, 4), I(rng, 20, 50)
+    sd = _feature_sd(rng, p, 0.5)
+    cov = random_correlation(rng, p, U(rng, 0.0, 0.8)) * np.outer(sd, sd)
+    means = means_along(rng, cov, _on_features(rng, p, I(rng, 3, 8)), K, U(rng, 2.0, 3.5))
+    return _gauss(means, [cov] * K, (_per_feature(rng, p, 2, 6),) * K)
+
+
+# quiet_signal ---------------------------------------------------------------------------
+
+
+@family(
+    "quiet_near_singular",
+    "quiet_signal",
+    "K=2, p 8-25, shared covariance of rank p/2-p-2 plus isotropic noise 0.001-0.02 (near-singular), "
+    "difference along a random direction, distance 2-4, 3-8 rows per class per feature",
+)
+def _quiet_near_singular(rng):
+    p = I(rng, 8, 25)
+    r = I(rng, max(2, p // 2), p - 2)
+    B = rng.standard_normal((p, r))
+    cov = B @ B.T / r + LU(rng, 0.001, 0.02) * np.eye(p)
+    return _gauss(spread_means(rng, cov, 2, U(rng, 2.0, 4.0)), [cov, cov], (_per_feature(rng, p, 3, 8),) * 2)
+
+
+@family(
+    "quiet_compound_symmetry",
+    "quiet_signal",
+    "K 2-3, p 10-30, equicorrelated features (rho 0.7-0.95), class means differing by contrasts (sums of "
+    "zero, the low-variance directions), distance 2-3.5, 1.5-4 rows per class per feature",
+)
+def _quiet_compound_symmetry(rng):
+    K, p = I(rng, 2, 3), I(rng, 10, 30)
+    rho = U(rng, 0.7, 0.95)
+    cov = rho + (1.0 - rho) * np.eye(p)
+    dirs = rng.standard_normal((p, 2))
+    dirs -= dirs.mean(axis=0)
+    means = means_along(rng, cov, dirs, K, U(rng, 2.0, 3.5))
+    return _gauss(means, [cov] * K, (_per_feature(rng, p, 1.5, 4),) * K)
+
+
+# small_class_spread ---------------------------------------------------------------------
+
+
+@family(
+    "small_class_sign_flip",
+    "small_class_spread",
+    "K=3, p 4-10, two large classes (300-1500 rows) with one AR(1) covariance (rho 0.5-0.9) and a small class "
+    "(3-6 rows per feature) with rho of opposite sign and 3-10 times the variance, distance 1.5-3",
+)
+def _small_class_sign_flip(rng):
+    p = I(rng, 4, 10)
+    rho = U(rng, 0.5, 0.9)
+    base = _ar1_cov(p, rho)
+    small = LU(rng, 3.0, 10.0) * _ar1_cov(p, -rho)
+    big = LI(rng, 300, 1500)
+    counts = (big, LI(rng, 300, 1500), _per_feature(rng, p, 3, 6))
+    return _gauss(spread_means(rng, base, 3, U(rng, 1.5, 3.0)), [base, base, small], counts)
+
+
+@family(
+    "small_class_inflated_factor",
+    "small_class_spread",
+    "K=2, p 3-10, a large class (300-1500 rows) and a small one (15-60 rows, at least p + 5) whose covariance "
+    "adds a strong rank-1 factor (variance 5-20 along it), distance 1-2.5",
+)
+def _small_class_inflated_factor(rng):
+    p = I(rng, 3, 10)
+    base = random_correlation(rng, p, U(rng, 0.3, 1.5))
+    b = rng.standard_normal(p)
+    b *= np.sqrt(LU(rng, 5.0, 20.0)) / np.linalg.norm(b)
+    counts = (LI(rng, 300, 1500), max(p + 5, LI(rng, 15, 60)))
+    return _gauss(spread_means(rng, base, 2, U(rng, 1.0, 2.5)), [base, base + np.outer(b, b)], counts)
+
+
+# orientation_only -----------------------------------------------------------------------
+
+
+@family(
+    "turned_ar1_pair",
+    "orientation_only",
+    "K=2, p 3-12, AR(1) covariances with rho 0.5-0.9 in one class and -rho in the other (same eigenvalues), "
+    "distance 0.5-2, 80-600 rows per class",
+)
+def _turned_ar1_pair(rng):
+    p = I(rng, 3, 12)
+    rho = U(rng, 0.5, 0.9)
+    base = _ar1_cov(p, rho)
+    return _gauss(spread_means(rng, base, 2, U(rng, 0.5, 2.0)), [base, _ar1_cov(p, -rho)], (LI(rng, 80, 600),) * 2)
+
+
+@family(
+    "turned_axes_swapped",
+    "orientation_only",
+    "K=2, p 2-8, one class's long axes are the other's short axes (eigenvalues reversed along the same "
+    "random axes, condition 3-20), distance 0.5-2, 50-400 rows per class",
+)
+def _turned_axes_swapped(rng):
+    p = I(rng, 2, 8)
+    lam = np.exp(np.linspace(-0.5, 0.5, p) * np.log(LU(rng, 3.0, 20.0)))
+    Q = random_rotation(rng, p)
+    a, b = (Q * lam) @ Q.T, (Q * lam[::-1]) @ Q.T
+    return _gauss(spread_means(rng, (a + b) / 2, 2, U(rng, 0.5, 2.0)), [a, b], (LI(rng, 50, 400),) * 2)
+
+
+# size_only ------------------------------------------------------------------------------
+
+
+@family(
+    "scaled_ar1",
+    "size_only",
+    "K 2-3, p 4-15, AR(1) shape (rho 0.3-0.9) scaled by 1 to 1.5-4 across classes, distance 1-2.5, "
+    "4-12 rows per class per feature",
+)
+def _scaled_ar1(rng):
+    K, p = I(rng, 2, 3), I(rng, 4, 15)
+    base = _ar1_cov(p, U(rng, 0.3, 0.9))
+    top = LU(rng, 1.5, 4.0)
+    factors = np.exp(np.linspace(0.0, np.log(top), K))
+    covs = [f * base for f in factors]
+    return _gauss(spread_means(rng, base, K, U(rng, 1.0, 2.5)), covs, (_per_feature(rng, p, 4, 12),) * K)
+
+
+@family(
+    "scaled_mild_wide",
+    "size_only",
+    "K=2, p 15-40, the second covariance 1.2-1.8 times the first (mild), distance 1.5-3, "
+    "5-15 rows per class per feature",
+)
+def _scaled_mild_wide(rng):
+    p = I(rng, 15, 40)
+    return _scaled(rng, 2, p, _per_feature(rng, p, 5, 15), U(rng, 1.5, 3.0), (1.0, LU(rng, 1.2, 1.8)))
+
+
+# unequal_general ------------------------------------------------------------------------
+
+
+@family(
+    "spread_toeplitz_mixed",
+    "unequal_general",
+    "K 2-3, p 4-12, each class an AR(1) covariance with its own rho (-0.8 to 0.9) and overall scale "
+    "(0.5-2), distance 1-2.5, 100-800 rows per class",
+)
+def _spread_toeplitz_mixed(rng):
+    K, p = I(rng, 2, 3), I(rng, 4, 12)
+    covs = [LU(rng, 0.5, 2.0) * _ar1_cov(p, U(rng, -0.8, 0.9)) for _ in range(K)]
+    return _gauss(spread_means(rng, sum(covs) / K, K, U(rng, 1.0, 2.5)), covs, (LI(rng, 100, 800),) * K)
+
+
+@family(
+    "spread_near_singular_class",
+    "unequal_general",
+    "K=2, p 4-10, one class's covariance of rank p-2 to p-1 plus noise 0.01-0.05, the other's a full random "
+    "correlation, distance 1-2, 100-500 rows per class",
+)
+def _spread_near_singular_class(rng):
+    p = I(rng, 4, 10)
+    full = random_correlation(rng, p, U(rng, 0.3, 1.5))
+    r = I(rng, p - 2, p - 1)
+    B = rng.standard_normal((p, r))
+    flat = B @ B.T / r + LU(rng, 0.01, 0.05) * np.eye(p)
+    return _gauss(spread_means(rng, (full + flat) / 2, 2, U(rng, 1.0, 2.0)), [full, flat], (LI(rng, 100, 500),) * 2)
+
+
+# heavy_tails ----------------------------------------------------------------------------
+
+
+@family(
+    "heavy_tails_laplace",
+    "heavy_tails",
+    "multivariate Laplace classes (Gaussian scale mixture with exponential mixing), one shared scatter, "
+    "K 2-4, p 3-12, distance 1.5-3, 100-800 rows per class",
+)
+def _heavy_tails_laplace(rng):
+    K, p = I(rng, 2, 4), I(rng, 3, 12)
+    cov = random_correlation(rng, p, U(rng, 0.3, 2.0))
+    L = np.linalg.cholesky(cov)
+    means = spread_means(rng, cov, K, U(rng, 1.5, 3.0))
+
+    def draw_class(r, k, m):
+        w = r.exponential(1.0, m)
+        return means[k] + np.sqrt(w)[:, None] * (r.standard_normal((m, p)) @ L.T)
+
+    return Design(ClassSampler(draw_class, p), (LI(rng, 100, 800),) * K)
+
+
+@family(
+    "heavy_tails_unequal_df",
+    "heavy_tails",
+    "K=2, p 3-8, one shared scatter; one class multivariate t with 1.5-3 degrees of freedom, the other with "
+    "20-50, distance 1-2.5, 150-800 rows per class",
+)
+def _heavy_tails_unequal_df(rng):
+    p = I(rng, 3, 8)
+    cov = random_correlation(rng, p, U(rng, 0.3, 2.0))
+    L = np.linalg.cholesky(cov)
+    means = spread_means(rng, cov, 2, U(rng, 1.0, 2.5))
+    classes = ((Component(means[0], L, 1.0, U(rng, 1.5, 3.0)),), (Component(means[1], L, 1.0, U(rng, 20.0, 50.0)),))
+    return Design(Population(classes), (LI(rng, 150, 800),) * 2)
+
+
+# discrete -------------------------------------------------------------------------------
+
+
+@family(
+    "binary_unequal_latent",
+    "discrete",
+    "K=2, p 5-15 binary features cut near the middle from latent Gaussian classes with unequal covariances "
+    "(spread 0.4-0.8, turn 0.5-1.2), distance 1.5-3, 150-600 rows per class",
+)
+def _binary_unequal_latent(rng):
+    p = I(rng, 5, 15)
+    d = _unequal(rng, 2, p, LI(rng, 150, 600), U(rng, 1.5, 3.0), U(rng, 0.4, 0.8), U(rng, 0.5, 1.2))
+    cut = rng.normal(0.0, 0.4, p)
+
+    def to_bits(X, r):
+        return (cut < X).astype(float)
+
+    assert isinstance(d.population, Population)
+    return Design(Population(d.population.classes, transform=to_bits), d.counts)
+
+
+@family(
+    "counts_unequal_dispersion",
+    "discrete",
+    "K 2-3, p 4-10 count features; class 0 Poisson, the others negative binomial (dispersion 0.5-3) with "
+    "log-means shifted 0.2-0.8 on half the features, base means 1-8, 100-500 rows per class",
+)
+def _counts_unequal_dispersion(rng):
+    K, p = I(rng, 2, 3), I(rng, 4, 10)
+    base = np.log(rng.uniform(1.0, 8.0, p))
+    shifts = [np.zeros(p)] + [
+        np.where(rng.random(p) < 0.5, rng.uniform(0.2, 0.8, p) * rng.choice([-1.0, 1.0], p), 0.0) for _ in range(K - 1)
+    ]
+    size = [np.inf] + [U(rng, 0.5, 3.0) for _ in range(K - 1)]
+
+    def draw_class(r, k, m):
+        mu = np.exp(base + shifts[k])
+        if not np.isfinite(size[k]):
+            return r.poisson(mu, (m, p)).astype(float)
+        return r.negative_binomial(size[k], size[k] / (size[k] + mu), (m, p)).astype(float)
+
+    return Design(ClassSampler(draw_class, p), (LI(rng, 100, 500),) * K)
+
+
+# many_classes ---------------------------------------------------------------------------
+
+
+@family(
+    "many_classes_below_p",
+    "many_classes",
+    "K 6-10, p 20-40, one AR(1) covariance (rho 0.3-0.8), fewer rows per class than features (0.6-1.5 per "
+    "feature, at least 10), distance 3-5",
+)
+def _many_classes_below_p(rng):
+    K, p = I(rng, 6, 10), I(rng, 20, 40)
+    cov = _ar1_cov(p, U(rng, 0.3, 0.8))
+    n = max(10, _per_feature(rng, p, 0.6, 1.5))
+    return _gauss(spread_means(rng, cov, K, U(rng, 3.0, 5.0)), [cov] * K, (n,) * K)
+
+
+@family(
+    "many_classes_grouped",
+    "many_classes",
+    "K 6-12 classes whose means fall in 2-3 groups (close within a group), p 4-10, mildly unequal covariances "
+    "(spread 0-0.4), 30-150 rows per class",
+)
+def _many_classes_grouped(rng):
+    K, p, G = I(rng, 6, 12), I(rng, 4, 10), I(rng, 2, 3)
+    base = random_correlation(rng, p, U(rng, 0.3, 1.5))
+    centres = spread_means(rng, base, G, U(rng, 4.0, 6.0))
+    L = np.linalg.cholesky(base)
+    within = U(rng, 0.8, 1.8)
+    means = np.array([centres[k % G] + within * (L @ rng.standard_normal(p)) / np.sqrt(p) for k in range(K)])
+    covs = perturbed_covariances(rng, base, K, U(rng, 0.0, 0.4), U(rng, 0.0, 0.5))
+    return _gauss(means, covs, (LI(rng, 30, 150),) * K)
+
+
+# imbalance ------------------------------------------------------------------------------
+
+
+@family(
+    "rare_class_wide",
+    "imbalance",
+    "K=2, p 10-30, the rare class 2-4 rows per feature, ratio 10:1 to 40:1, one shared covariance, distance 2-3.5",
+)
+def _rare_class_wide(rng):
+    p = I(rng, 10, 30)
+    small = _per_feature(rng, p, 2, 4)
+    return _equal(rng, 2, p, (int(small * LU(rng, 10, 40)), small), U(rng, 2.0, 3.5), U(rng, 0.3, 1.5))
+
+
+@family(
+    "rare_class_tails",
+    "imbalance",
+    "K=3, p 3-8, two common Gaussian classes (300-1500 rows) and a rare multivariate t(3) class (15-50 rows, at "
+    "least p + 5), one shared scatter, distance 2-3.5",
+)
+def _rare_class_tails(rng):
+    p = I(rng, 3, 8)
+    cov = random_correlation(rng, p, U(rng, 0.3, 1.5))
+    L = np.linalg.cholesky(cov)
+    means = spread_means(rng, cov, 3, U(rng, 2.0, 3.5))
+    classes = (
+        (Component(means[0], L),),
+        (Component(means[1], L),),
+        (Component(means[2], L, 1.0, 3.0),),
+    )
+    counts = (LI(rng, 300, 1500), LI(rng, 300, 1500), max(p + 5, LI(rng, 15, 50)))
+    return Design(Population(classes), counts)
+
+
+# outliers -------------------------------------------------------------------------------
+
+
+@family(
+    "contaminated_cells_wide",
+    "outliers",
+    "K 2-3, p 10-30, 0.5-2% of the single training entries shifted 5-20 SD (so 5-45% of the rows hold one), "
+    "one shared covariance, distance 1.5-3, 5-15 rows per class per feature",
+)
+def _contaminated_cells_wide(rng):
+    K, p = I(rng, 2, 3), I(rng, 10, 30)
+    out = (U(rng, 0.005, 0.02), U(rng, 5.0, 20.0), "cells", tuple(range(K)))
+    return _equal(rng, K, p, _per_feature(rng, p, 5, 15), U(rng, 1.5, 3.0), U(rng, 0.3, 2.0), outliers=out)
+
+
+@family(
+    "contaminated_sentinel",
+    "outliers",
+    "K 2-3, p 4-12, in 3-10% of the training rows the first feature holds one fixed code 20-60 SD above its "
+    "mean (a missing-value code), one shared covariance, distance 1.5-3, 100-600 rows per class",
+)
+def _contaminated_sentinel(rng):
+    K = I(rng, 2, 3)
+    out = (U(rng, 0.03, 0.10), U(rng, 20.0, 60.0), "sentinel", tuple(range(K)))
+    return _equal(rng, K, I(rng, 4, 12), LI(rng, 100, 600), U(rng, 1.5, 3.0), U(rng, 0.3, 2.0), outliers=out)
+
+
+# dimension ------------------------------------------------------------------------------
+
+
+@family(
+    "ratio_sweep_ar1",
+    "dimension",
+    "K 2-3, p 10-60 with p/N log-uniform on 0.1-0.9, one AR(1) covariance (rho 0.5-0.95), difference along a "
+    "random direction, distance 2-4",
+)
+def _ratio_sweep_ar1(rng):
+    K, p = I(rng, 2, 3), I(rng, 10, 60)
+    n_k = int(np.clip(round(p / LU(rng, 0.1, 0.9) / K), 8, 1500))
+    cov = _ar1_cov(p, U(rng, 0.5, 0.95))
+    return _gauss(spread_means(rng, cov, K, U(rng, 2.0, 4.0)), [cov] * K, (n_k,) * K)
+
+
+@family(
+    "ratio_sweep_sparse",
+    "dimension",
+    "K=2, p 20-80 with p/N log-uniform on 0.1-0.8, mean difference on 2-6 features, weakly correlated "
+    "shared covariance, distance 2-3.5",
+)
+def _ratio_sweep_sparse(rng):
+    p = I(rng, 20, 80)
+    n_k = int(np.clip(round(p / LU(rng, 0.1, 0.8) / 2), 8, 2000))
+    cov = random_correlation(rng, p, U(rng, 0.0, 1.0))
+    means = means_along(rng, cov, _on_features(rng, p, I(rng, 2, 6)), 2, U(rng, 2.0, 3.5))
+    return _gauss(means, [cov, cov], (n_k, n_k))
+
+
+# logit_only -----------------------------------------------------------------------------
+
+
+@family(
+    "logit_heavy_features",
+    "logit_only",
+    "K 2-3, p 3-8 independent t features (2-5 degrees of freedom), labels from a logistic model "
+    "(linear-predictor sd 3-8), 300-2000 rows",
+)
+def _logit_heavy_features(rng):
+    K, p = I(rng, 2, 3), I(rng, 3, 8)
+    df = rng.uniform(2.0, 5.0, p)
+
+    def features(r, m):
+        return r.standard_t(df, size=(m, p))
+
+    return Design(_logit(rng, features, p, K, U(rng, 3.0, 8.0)), (LI(rng, 300, 2000),))
+
+
+@family(
+    "logit_count_features",
+    "logit_only",
+    "K=2, p 3-8 independent count features (Poisson or negative binomial, means 0.5-10), labels from a "
+    "logistic model (linear-predictor sd 3-8), 300-2000 rows",
+)
+def _logit_count_features(rng):
+    p = I(rng, 3, 8)
+    mu = rng.uniform(0.5, 10.0, p)
+    size = np.where(rng.random(p) < 0.5, np.inf, rng.uniform(0.5, 3.0, p))
+
+    def features(r, m):
+        X = np.empty((m, p))
+        for j in range(p):
+            if np.isfinite(size[j]):
+                X[:, j] = r.negative_binomial(size[j], size[j] / (size[j] + mu[j]), m)
+            else:
+                X[:, j] = r.poisson(mu[j], m)
+        return X
+
+    return Design(_logit(rng, features, p, 2, U(rng, 3.0, 8.0)), (LI(rng, 300, 2000),))
+
+
+# shape_other ----------------------------------------------------------------------------
+
+
+@family(
+    "xor_mixture",
+    "shape_other",
+    "K=2, p 2-8, each class a mixture of two Gaussian clusters at opposite corners of a square in two features "
+    "(an XOR layout, corners 1.5-3 SD from the centre), the other features noise, 150-600 rows per class",
+)
+def _xor_mixture(rng):
+    p = I(rng, 2, 8)
+    a = U(rng, 1.5, 3.0) / np.sqrt(2.0)
+    L = np.linalg.cholesky(random_correlation(rng, p, U(rng, 0.0, 0.5)))
+
+    def corner(s1, s2):
+        m = np.zeros(p)
+        m[:2] = (s1 * a, s2 * a)
+        return Component(m, L, 1.0)
+
+    classes = ((corner(1, 1), corner(-1, -1)), (corner(1, -1), corner(-1, 1)))
+    return Design(Population(classes), (LI(rng, 150, 600),) * 2)
+
+
+@family(
+    "surrounded_class",
+    "shape_other",
+    "K=2, p 2-6, one Gaussian class surrounded by the other, a mixture of 3-6 Gaussian clusters around it "
+    "(2-3.5 SD away along random directions), 150-600 rows per class",
+)
+def _surrounded_class(rng):
+    p = I(rng, 2, 6)
+    L = np.linalg.cholesky(random_correlation(rng, p, U(rng, 0.0, 0.8)))
+    inner = (Component(np.zeros(p), L),)
+    dirs = rng.standard_normal((I(rng, 3, 6), p))
+    dirs /= np.linalg.norm(dirs, axis=1, keepdims=True)
+    outer = tuple(Component(U(rng, 2.0, 3.5) * (L @ d), 0.7 * L) for d in dirs)
+    return Design(Population((inner, outer)), (LI(rng, 150, 600),) * 2)
 
 
 FAMILIES: dict[str, Family] = {f.name: f for f in _LIST}

@@ -32,9 +32,20 @@ case by case. A set that has been read that closely no longer measures generaliz
 ``RESULTS.md``.
 
 *Second batch* (written 2026-12-03, after the retirement and before any tuning run or any
-audit touched it): ``SECOND_BATCH`` families and ``SECOND_BATCH_OPEN`` open data sets, all
+audit touched it): ``SECOND_BATCH`` families and ``SECOND_BATCH_OPEN`` open data sets, held
+out when written. They were not checked even for difficulty; their truth was computed with
+``--truth-only`` (which prints no result) and read first by the held-out look 3.
+
+*Second retirement* (2026-12-03, after look 3): the misses of look 3 were read case by case
+(``SECOND_BATCH_LOOKS``), so the second batch no longer measures generalization either; all 28
+families and 3 open data sets moved to ``tuning``, exactly as the first batch did. Their look
+history stays on record here and in ``RESULTS.md``, their last report in
+``RESULTS_HELD_OUT_SECOND_BATCH.md``.
+
+*Third batch* (written 2026-12-03, after the second retirement and before any tuning run or
+any audit touched it): ``THIRD_BATCH`` families and ``THIRD_BATCH_OPEN`` open data sets, all
 ``held_out``. They were not checked even for difficulty; their truth may be computed with
-``--truth-only`` (which prints no result) but is read only by the held-out look.
+``--truth-only`` but is read only by the held-out look.
 
 The constants below are the record. They are never to be changed after results are read:
 a new family or data set goes to ``held_out`` unless it is added to ``tuning`` before any
@@ -170,19 +181,70 @@ SECOND_BATCH: tuple[str, ...] = (
 #: Open data sets added with the second batch (bundled with installed packages, never scored).
 SECOND_BATCH_OPEN: tuple[str, ...] = ("ccard_ownrent", "tips_time", "ancova_method")
 
+#: The full look at the second batch (copied from RESULTS.md when it was retired into tuning).
+SECOND_BATCH_LOOKS: tuple[str, ...] = (
+    "2026-12-03 11:56: full held-out look 3, the only look at the second batch (discaudit 0.1.0, commit "
+    "c9cbec7): 83.5% acceptable on informative simulated cases, mean regret 0.29 pp (CV pick 0.28), "
+    "max 5.84 pp",
+    "2026-12-03: the second batch's held-out families and open data sets retired into tuning",
+)
+SECOND_BATCH_RETIRED_ON = "2026-12-03"
+
+#: Every retired batch: (name, date retired, file holding its last held-out report, its looks).
+RETIRED_BATCHES: tuple[tuple[str, str, str, tuple[str, ...]], ...] = (
+    ("first", RETIRED_ON, "RESULTS_HELD_OUT_FIRST_BATCH.md", RETIRED_LOOKS),
+    ("second", SECOND_BATCH_RETIRED_ON, "RESULTS_HELD_OUT_SECOND_BATCH.md", SECOND_BATCH_LOOKS),
+)
+
+#: Families written after the second retirement, before any tuning run or audit touched them.
+THIRD_BATCH: tuple[str, ...] = (
+    "equal_ar1_moderate",
+    "equal_noise_moderate",
+    "quiet_near_singular",
+    "quiet_compound_symmetry",
+    "small_class_sign_flip",
+    "small_class_inflated_factor",
+    "turned_ar1_pair",
+    "turned_axes_swapped",
+    "scaled_ar1",
+    "scaled_mild_wide",
+    "spread_toeplitz_mixed",
+    "spread_near_singular_class",
+    "heavy_tails_laplace",
+    "heavy_tails_unequal_df",
+    "binary_unequal_latent",
+    "counts_unequal_dispersion",
+    "many_classes_below_p",
+    "many_classes_grouped",
+    "rare_class_wide",
+    "rare_class_tails",
+    "contaminated_cells_wide",
+    "contaminated_sentinel",
+    "ratio_sweep_ar1",
+    "ratio_sweep_sparse",
+    "logit_heavy_features",
+    "logit_count_features",
+    "xor_mixture",
+    "surrounded_class",
+)
+
+#: Open data sets added with the third batch (bundled with installed packages, never scored).
+THIRD_BATCH_OPEN: tuple[str, ...] = ("grunfeld_firm", "randhie_health", "mixed_anova_group", "mediation_ybin")
+
 #: New families or data sets moved to tuning before any result for them was read (none).
 ADDED_TO_TUNING: tuple[str, ...] = ()
 
 FAMILY_SPLIT: dict[str, tuple[str, ...]] = {
-    "tuning": FIRST_TUNING + RETIRED_FAMILIES + tuple(n for n in ADDED_TO_TUNING if n in SECOND_BATCH),
-    "held_out": tuple(n for n in SECOND_BATCH if n not in ADDED_TO_TUNING),
+    "tuning": FIRST_TUNING + RETIRED_FAMILIES + SECOND_BATCH + tuple(n for n in ADDED_TO_TUNING if n in THIRD_BATCH),
+    "held_out": tuple(n for n in THIRD_BATCH if n not in ADDED_TO_TUNING),
 }
 
 OPEN_SPLIT: dict[str, tuple[str, ...]] = {
     "tuning": ("iris", "wine", "spector_grade", "modechoice_mode")
     + RETIRED_OPEN
-    + tuple(n for n in ADDED_TO_TUNING if n in SECOND_BATCH_OPEN),
-    "held_out": tuple(n for n in SECOND_BATCH_OPEN if n not in ADDED_TO_TUNING),
+    + SECOND_BATCH_OPEN
+    + tuple(n for n in ADDED_TO_TUNING if n in THIRD_BATCH_OPEN),
+    "held_out": tuple(n for n in THIRD_BATCH_OPEN if n not in ADDED_TO_TUNING),
 }
 
 # Open data sets the earlier study had already scored (and printed), hence not new ground.
@@ -217,8 +279,8 @@ def derive_family_split(families) -> dict[str, tuple[str, ...]]:
     """Re-derive the family split from ``Family.kept``, ``Family.category`` and the batches (module doc).
 
     First batch: the kept families and the smallest digest of each category without a kept family
-    are tuning; the rest of the first batch was held out and is now retired into tuning. Any other
-    family is held out, unless it was moved to tuning before its results were read
+    are tuning; the rest of the first batch was held out and is now retired into tuning, and so is
+    the second batch. Any other family is held out, unless it was moved to tuning before its results were read
     (``ADDED_TO_TUNING``)."""
     first = [f for f in families if f.name in FIRST_TUNING or f.name in RETIRED_FAMILIES]
     tuning = [f.name for f in first if f.kept]
@@ -229,6 +291,7 @@ def derive_family_split(families) -> dict[str, tuple[str, ...]]:
     if set(tuning) != set(FIRST_TUNING):
         raise RuntimeError("the first batch's tuning families differ from their derivation")
     tuning += [f.name for f in first if f.name not in tuning]  # retired after two looks
+    tuning += [f.name for f in families if f.name in SECOND_BATCH]  # retired after look 3
     tuning += [f.name for f in families if f.name in ADDED_TO_TUNING and f.name not in tuning]
     return {
         "tuning": tuple(tuning),
@@ -238,10 +301,11 @@ def derive_family_split(families) -> dict[str, tuple[str, ...]]:
 
 def derive_open_split(names, seen_before=OPEN_SEEN_BEFORE) -> dict[str, tuple[str, ...]]:
     """Re-derive the open-data split (module doc): of the data sets scored before, the half with the
-    smallest name digest were tuning from the start; the first batch's held-out ones are retired into
-    tuning; any other data set is held out unless moved to tuning before its results were read."""
+    smallest name digest were tuning from the start; the first and second batches' held-out ones are
+    retired into tuning; any other data set is held out unless moved to tuning before its results were read."""
     seen = sorted((n for n in names if n in seen_before), key=_digest)
-    tuning = set(seen[: len(seen) // 2]) | (set(RETIRED_OPEN) & set(names)) | (set(ADDED_TO_TUNING) & set(names))
+    retired = set(RETIRED_OPEN) | set(SECOND_BATCH_OPEN)
+    tuning = set(seen[: len(seen) // 2]) | (retired & set(names)) | (set(ADDED_TO_TUNING) & set(names))
     return {"tuning": tuple(n for n in names if n in tuning), "held_out": tuple(n for n in names if n not in tuning)}
 
 

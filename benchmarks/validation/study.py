@@ -717,13 +717,14 @@ def looks_section(full: int, partial: int, log: list[str]) -> list[str]:
     ]
     if log:
         L += [LOG_HEAD, "", *log, ""]
-    L += [
-        f"Earlier held-out batch (retired into tuning on {split.RETIRED_ON}, see `split.py`; its last report is "
-        "`RESULTS_HELD_OUT_FIRST_BATCH.md`):",
-        "",
-        *(f"- {line}" for line in split.RETIRED_LOOKS),
-        "",
-    ]
+    for name, retired_on, report_file, retired_looks in split.RETIRED_BATCHES:
+        L += [
+            f"Earlier held-out batch, the {name} (retired into tuning on {retired_on}, see `split.py`; its last "
+            f"report is `{report_file}`):",
+            "",
+            *(f"- {line}" for line in retired_looks),
+            "",
+        ]
     return L
 
 

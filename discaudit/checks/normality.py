@@ -321,6 +321,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
         worst_cls, worst = max(graded, key=lambda t: (_RANK[t[1]["status"]], t[1]["departure_size"], -rank[t[0]]))
         details["worst_class"] = worst_cls
     K = len(data.classes)
+    details["classes_departing"] = {"strongly": len(failing), "moderately": len(warning), "of": K}
     figure = f"{len(failing) + len(warning)}/{K} classes"
     parts = []
     on_continuous = " on the continuous features" if discrete else ""

@@ -33,6 +33,16 @@ _STANDARDIZE_NOTE = {
 }
 
 
+#: The ``standardize`` value that puts ``discaudit.estimator.WithinClassScaler`` in front.
+WITHIN_CLASS = "within_class"
+
+_WITHIN_CLASS_NOTE = (
+    "put discaudit's WithinClassScaler in front of the estimator (each feature divided by its pooled "
+    "within-class standard deviation, learned in fit from X and y); the predicted performance was scored on "
+    "that scale"
+)
+
+
 def _standardize_lda(findings: Findings) -> bool:
     return status(findings, "scale_disparity") == "warn"
 
@@ -53,12 +63,18 @@ def scored_settings(model: str, scored: dict[str, Any], findings: Findings) -> t
             + ("; advised anyway because feature scales differ widely (numerical conditioning)" if standardize else ""),
         }
     elif model == "regularized_lda":
-        params = {"solver": "lsqr", "shrinkage": scored["shrinkage"], "standardize": True}
+        standardize = scored.get("standardize", WITHIN_CLASS)
+        params = {"solver": "lsqr", "shrinkage": scored["shrinkage"], "standardize": standardize}
+        within = standardize == WITHIN_CLASS
         notes = {
             "solver": "lsqr: the solver of scikit-learn's LDA that accepts a shrinkage intensity",
-            "shrinkage": "the intensity with the lowest exact leave-one-out log-loss on the grid scored, on "
-            "standardized features",
-            "standardize": _STANDARDIZE_NOTE[True],
+            "shrinkage": "the Ledoit-Wolf intensity (Ledoit & Wolf 2004) of the pooled within-class covariance of "
+            "features scaled to unit pooled within-class variance: correlations are shrunk toward 0 and the "
+            "within-class variances kept, as scikit-learn's shrinkage='auto' does per class"
+            if within
+            else "the intensity with the lowest exact leave-one-out log-loss on the grid scored, on standardized "
+            "features (a feature does not vary within the classes, so the within-class scale was not used)",
+            "standardize": _WITHIN_CLASS_NOTE if within else _STANDARDIZE_NOTE[True],
         }
     elif model == "qda":
         params = {"solver": "svd", "reg_param": scored["reg_param"], "standardize": True}
@@ -86,14 +102,13 @@ def rule_settings(model: str, findings: Findings, config: Config) -> tuple[dict[
         return scored_settings("lda", {}, findings)
     if model == "regularized_lda":
         intensity = SHRINKAGE_STANDARDIZED.read(findings)
-        params, notes = scored_settings(
-            model, {"shrinkage": round(float(intensity), 4) if intensity is not None else "auto"}, findings
-        )
-        notes["shrinkage"] = (
-            "Ledoit-Wolf intensity of the pooled within-class covariance of standardized features (Ledoit & Wolf 2004)"
-            if intensity is not None
-            else "scikit-learn's Ledoit-Wolf estimate ('auto')"
-        )
+        if intensity is not None:
+            # The collinearity check's intensity is on features of unit pooled within-class variance.
+            return scored_settings(
+                model, {"shrinkage": round(float(intensity), 4), "standardize": WITHIN_CLASS}, findings
+            )
+        params, notes = scored_settings(model, {"shrinkage": "auto", "standardize": True}, findings)
+        notes["shrinkage"] = "scikit-learn's Ledoit-Wolf estimate ('auto')"
         return params, notes
     if model == "qda":
         smallest = SMALLEST_CLASS_ROWS_PER_FEATURE.read(findings) or 1.0

@@ -376,7 +376,9 @@ class LeaveOneOutScorer:
     lda_values: FloatArray
     lda_vectors: FloatArray
     lda_means: FloatArray
-    # Regularized LDA (lsqr solver): eigenbasis of the within-class scatter.
+    # Regularized LDA (lsqr solver): eigenbasis of the within-class scatter, in the units divided
+    # further by ``shrinkage_scale`` (1 when not given).
+    shrinkage_scale: FloatArray
     within_values: FloatArray
     within_vectors: FloatArray
     within_means: FloatArray
@@ -396,6 +398,7 @@ class LeaveOneOutScorer:
         shrinkage: Shrinkage = None,
         qda_reg_grid: Iterable[float] = DEFAULT_QDA_REG_GRID,
         scale: npt.ArrayLike | None = None,
+        shrinkage_scale: npt.ArrayLike | None = None,
         tol: float = SKLEARN_TOL,
     ) -> LeaveOneOutScorer:
         """Factorize the full-data moments once (O(K p^3)).
@@ -404,6 +407,9 @@ class LeaveOneOutScorer:
         """
         n, M, S, sc, shrink_grid, grid = _check_moments(counts, means, scatter, shrinkage, qda_reg_grid, scale, tol)
         K, p = M.shape
+        ss = np.ones(p) if shrinkage_scale is None else np.asarray(shrinkage_scale, dtype=np.float64)
+        if ss.shape != (p,) or not np.all(np.isfinite(ss)) or np.any(ss <= 0.0):
+            raise DataError(f"shrinkage_scale must hold {p} finite positive values; got shape {ss.shape}.")
         if sc is not None:
             M = M / sc
             S = S / np.outer(sc, sc)
@@ -440,9 +446,10 @@ class LeaveOneOutScorer:
         else:
             skipped["lda"] = lda_reason
 
-        # Regularized LDA, lsqr solver: Sigma = (1 - a) W / N + a trace(W) / (N p) I. One eigenbasis of W
-        # serves every shrinkage value.
-        within_values, within_vectors = symmetric_eigh(W)
+        # Regularized LDA, lsqr solver: Sigma = (1 - a) W / N + a trace(W) / (N p) I, W in the units divided
+        # by shrinkage_scale. One eigenbasis of W serves every shrinkage value.
+        W_shrunk = W / np.outer(ss, ss)
+        within_values, within_vectors = symmetric_eigh(W_shrunk)
         for a in shrink_grid:
             name = f"regularized_lda(shrinkage={a:g})" if _is_grid(shrinkage) else "regularized_lda"
             if singletons:
@@ -487,10 +494,11 @@ class LeaveOneOutScorer:
             lda_values=lda_values,
             lda_vectors=lda_vectors,
             lda_means=lda_means,
+            shrinkage_scale=ss,
             within_values=within_values,
             within_vectors=within_vectors,
-            within_means=(M - centre) @ within_vectors,
-            within_trace=float(np.trace(W)),
+            within_means=((M - centre) / ss) @ within_vectors,
+            within_trace=float(np.trace(W_shrunk)),
             class_values=class_values,
             class_vectors=class_vectors,
             class_means=M,
@@ -569,7 +577,7 @@ class LeaveOneOutScorer:
                 a = float(setting or 0.0)
                 p = self.n_features
                 if shared is None:
-                    z = (Xa - self.centre) @ self.within_vectors
+                    z = ((Xa - self.centre) / self.shrinkage_scale) @ self.within_vectors
                     w2 = (z - self.within_means[ca]) ** 2
                     shared = (z, w2, self.within_trace - gamma * w2.sum(axis=1))
                 z, w2, trace = shared
@@ -777,6 +785,7 @@ def leave_one_out(
     shrinkage: Shrinkage = None,
     qda_reg_grid: Iterable[float] = DEFAULT_QDA_REG_GRID,
     scale: npt.ArrayLike | None = None,
+    shrinkage_scale: npt.ArrayLike | None = None,
     tol: float = SKLEARN_TOL,
 ) -> LeaveOneOutResult:
     """Exact leave-one-out accuracy and log-loss of LDA, regularized LDA and QDA, in one pass.
@@ -800,6 +809,11 @@ def leave_one_out(
     scale : array-like, shape (p,), optional
         Positive per-feature scale: the candidates are fitted to X / scale (a StandardScaler's
         ``scale_`` in front of the estimator).
+    shrinkage_scale : array-like, shape (p,), optional
+        Positive per-feature scale for the regularized LDA candidates only, applied after ``scale``:
+        they are fitted to X / scale / shrinkage_scale. LDA and QDA do not see it. Shrinking toward
+        mu I on features divided by their pooled within-class standard deviations (in the units of
+        ``scale``) shrinks the pooled covariance toward its own diagonal.
     tol : float
         scikit-learn's ``tol`` of both estimators.
 
@@ -844,8 +858,8 @@ def leave_one_out(
     log-loss is ln sum_k exp(score_k) - score_c (natural log, no clipping; scikit-learn's LDA adds the
     smallest normal number to a probability that underflows to 0, which changes only such rows).
 
-    ``scale`` is taken as fixed, computed on all rows: the scaler's own change when row i is left out
-    is ignored. Its centring does not matter, all three models being equivariant under translation.
+    ``scale`` and ``shrinkage_scale`` are taken as fixed, computed on all rows: the scaler's own change
+    when row i is left out is ignored. Its centring does not matter, all three models being equivariant under translation.
 
     Standard errors treat the n per-row values as independent, which they are not (every refit shares
     N - 2 rows); no unbiased estimator of the variance of a cross-validation mean exists (Bengio &
@@ -870,7 +884,14 @@ def leave_one_out(
     cross-validation. Journal of Machine Learning Research 5, 1089-1105.
     """
     scorer = LeaveOneOutScorer.from_moments(
-        counts, means, scatter, shrinkage=shrinkage, qda_reg_grid=qda_reg_grid, scale=scale, tol=tol
+        counts,
+        means,
+        scatter,
+        shrinkage=shrinkage,
+        qda_reg_grid=qda_reg_grid,
+        scale=scale,
+        shrinkage_scale=shrinkage_scale,
+        tol=tol,
     )
     tally = scorer.tally(blocks)
     expected = scorer.counts.astype(np.int64)
