@@ -140,6 +140,11 @@ def _fourth_sum(means: np.ndarray, within_sd: np.ndarray, block: RowBlock) -> fl
 
 
 def _shrinkage_form(data: AuditData, scale: np.ndarray) -> _ShrinkageForm:
+    """:func:`_form_of` once per data (``scale`` is the data's own total scale)."""
+    return data.shared((KEY, "shrinkage_form"), lambda: _form_of(data, scale))
+
+
+def _form_of(data: AuditData, scale: np.ndarray) -> _ShrinkageForm:
     """Ledoit-Wolf shrinkage of the pooled within-class covariance toward its own diagonal.
 
     Each feature is divided by its pooled within-class standard deviation (divisor N), so the
