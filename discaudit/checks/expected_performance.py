@@ -6,9 +6,10 @@ class moments and one pass over the rows (Lachenbruch & Mickey 1968;
 out: LDA as scikit-learn's svd solver (its lsqr solver when the class means nearly lie in a
 lower-dimensional subspace, where the svd solver would reduce the rank); shrinkage LDA and QDA behind a StandardScaler, over a small
 grid of intensities and ``reg_param`` values, the one with the lowest leave-one-out log-loss kept.
-Logistic regression cannot be scored from the moments; it is scored by stratified
-cross-validation of an L2-penalized fit on a seeded, class-proportional subsample
-(:mod:`discaudit.stats.logistic`), and compared with the Gaussian candidates row by row on the
+Logistic regression cannot be scored from the moments; it is scored by leave-one-out of an
+L2-penalized fit on a seeded, class-proportional subsample, each row's leave-one-out fit one Newton
+step from the fit on all of them (:mod:`discaudit.stats.logistic_leave_one_out`; stratified k-fold
+cross-validation with ``Config.logistic_scoring="k_fold"``), and compared with the Gaussian candidates row by row on the
 same rows, so every difference has a paired standard error.
 
 The finding states, for every candidate, its predicted accuracy and log-loss with standard
@@ -32,7 +33,8 @@ from discaudit.findings import Finding, fmt, skipped
 from discaudit.jsonable import label
 from discaudit.stats._sampling import resolve_seed
 from discaudit.stats.leave_one_out import LeaveOneOutResult, LeaveOneOutRows, LeaveOneOutScorer, LeaveOneOutTally
-from discaudit.stats.logistic import LogisticEstimate, cross_validated_logistic
+from discaudit.stats.logistic import K_FOLD, LogisticEstimate, cross_validated_logistic
+from discaudit.stats.logistic_leave_one_out import leave_one_out_logistic
 from discaudit.stats.row_keys import keep_share
 from discaudit.stats.seeds import PERFORMANCE_ROWS
 from discaudit.stats.shrinkage import class_centred_fourth_sums, ledoit_wolf_intensity
@@ -66,7 +68,7 @@ MATERIAL_GAP = 0.01
 #: Standard errors by which the best candidate must beat always predicting the largest class before
 #: differences between candidates are taken as signal (about a one-sided 2.5% test; design choice).
 NO_SIGNAL_SE = 2.0
-#: Inverse penalties scored for logistic regression; the lowest cross-validated log-loss wins.
+#: Inverse penalties scored for logistic regression; the lowest held-out log-loss wins.
 LOGISTIC_C_GRID = (0.01, 0.1, 1.0, 10.0, 100.0)
 #: What each candidate assumes about the classes. LDA and shrinkage LDA are two estimates of one
 #: model (Gaussian classes with a shared covariance): at few rows per feature plain LDA's plug-in
@@ -87,7 +89,10 @@ _METHOD = {
     "regularized_lda": "exact leave-one-out from the class moments, every row, at the Ledoit-Wolf intensity of the "
     "pooled within-class covariance of features scaled to unit pooled within-class variance",
     "qda": "exact leave-one-out from the class moments, every row; reg_param chosen by leave-one-out log-loss",
-    "logistic_regression": "stratified cross-validation of L2-penalized logistic regression on a seeded, "
+    "logistic_regression": "leave-one-out of L2-penalized logistic regression on a seeded, class-proportional "
+    "subsample: one fit per C, each row's leave-one-out fit one Newton step from it (Pregibon 1981), the rows "
+    "that step moves far refitted exactly; C chosen by leave-one-out log-loss",
+    K_FOLD: "stratified cross-validation of L2-penalized logistic regression on a seeded, "
     "class-proportional subsample; C chosen by cross-validated log-loss",
 }
 
@@ -273,7 +278,7 @@ def gaussian_accuracy(
 
     ``model`` is ``"lda"``, ``"regularized_lda"`` or ``"qda"``, scored at the setting :func:`run` would
     choose on ``data`` (the grid point with the lowest leave-one-out log-loss), without the
-    cross-validated logistic regression that costs most of the check. ``{"accuracy", "accuracy_se"}``,
+    logistic regression's fits. ``{"accuracy", "accuracy_se"}``,
     or None when the model cannot be scored (or is not Gaussian).
 
     References
@@ -295,7 +300,7 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     """Predict the held-out accuracy and log-loss of LDA, shrinkage LDA, QDA and logistic regression.
 
     Gaussian candidates by exact leave-one-out on every row (one blocked pass, O(n p^2)); logistic
-    regression by cross-validation on at most ``Config.logistic_max_rows`` rows. Passes when the
+    regression by (approximate) leave-one-out on at most ``Config.logistic_max_rows`` rows. Passes when the
     most efficient candidate within noise of the best is also the best or clearly close to it;
     warns when a less efficient candidate leads by more than one but fewer than
     ``performance_switch_se`` paired standard errors (too close to call); skips when nothing can
@@ -305,21 +310,32 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     form = _shrinkage_form(data, scale)
     scorer, loo = _gaussian(data, scale, config, random_state, form=form)
     chosen = {model: _setting_of(loo, model) for model in CANDIDATES[:3]}
-    logit = cross_validated_logistic(
-        data.values,
-        data.codes,
-        len(data.classes),
-        LOGISTIC_C_GRID,
-        folds=config.logistic_folds,
-        max_rows=config.logistic_max_rows,
-        random_state=random_state,
-        scale=scale,
-        key_origin=_origin(data),
-    )
+    logit = _logistic(data, config, random_state, scale)
     rows = logit.rows
     per_row = scorer.score_block(data.values[rows], data.codes[rows])
     scores = _collect(loo, chosen, per_row, logit, rows.size, form.standardize)
     return _judge(scores, loo, logit, config, data)
+
+
+def _logistic(data: AuditData, config: Config, random_state: int | None, scale: np.ndarray) -> LogisticEstimate:
+    """Logistic regression's held-out figures on its subsample, as ``Config.logistic_scoring`` says."""
+    X, codes, K, origin = data.values, data.codes, len(data.classes), _origin(data)
+    cap = config.logistic_max_rows
+    if config.logistic_scoring == "k_fold":
+        return cross_validated_logistic(
+            X,
+            codes,
+            K,
+            LOGISTIC_C_GRID,
+            folds=config.logistic_folds,
+            max_rows=cap,
+            random_state=random_state,
+            scale=scale,
+            key_origin=origin,
+        )
+    return leave_one_out_logistic(
+        X, codes, K, LOGISTIC_C_GRID, max_rows=cap, random_state=random_state, scale=scale, key_origin=origin
+    )
 
 
 def _collect(
@@ -368,9 +384,12 @@ def _collect(
             "log_loss_se": float(logit.log_loss_se or 0.0),
             "settings": {"C": float(logit.C or 1.0), "standardize": True},
             "n_scored": int(logit.n_used),
-            "folds": int(logit.folds),
-            "method": _METHOD["logistic_regression"],
+            "method": _METHOD[K_FOLD if logit.method == K_FOLD else "logistic_regression"],
         }
+        if logit.method == K_FOLD:
+            figures["logistic_regression"]["folds"] = int(logit.folds)
+        else:
+            figures["logistic_regression"]["approximated_rows"] = int(logit.approximated_rows)
         correct["logistic_regression"] = logit.correct.astype(float)
         loss["logistic_regression"] = logit.neg_log_prob
     return _Scores(figures, correct, loss, n_sub)

@@ -9,7 +9,7 @@ that fails the model's gate, or ``None`` when the finding is shown but never fai
 
 The models are the estimators the audit scores and hands out (``Recommendation.estimator()``):
 shrinkage LDA with its intensity, QDA with its ``reg_param`` chosen by leave-one-out log-loss,
-logistic regression with the L2 penalty chosen by cross-validation. Their settings answer some
+logistic regression with the L2 penalty chosen by held-out log-loss. Their settings answer some
 findings (shrinkage answers collinearity and few rows per feature; the penalty answers
 separation), so those findings do not fail their gates. A team that fits logistic regression by
 plain maximum likelihood gates on ``unpenalized_logistic_regression``, whose estimate does not

@@ -88,7 +88,7 @@ def scored_settings(model: str, scored: dict[str, Any], findings: Findings) -> t
     else:
         params = {"C": scored["C"], "max_iter": LOGISTIC_MAX_ITER, "standardize": True}
         notes = {
-            "C": "inverse L2 penalty with the lowest cross-validated log-loss on the grid scored"
+            "C": "inverse L2 penalty with the lowest held-out log-loss on the grid scored"
             + ("; the penalty also keeps the fit finite where the classes separate" if separated else ""),
             "max_iter": "enough lbfgs iterations to converge on standardized features",
             "standardize": _STANDARDIZE_NOTE[True],

@@ -828,6 +828,26 @@ def _quotas(counts: npt.NDArray[np.int64], max_rows: int, folds: int, first_key:
         fixed[low] = True
 
 
+def subsample(
+    Xa: FloatArray, ca: IntArray, K: int, cap: int, floor: int, seed: int, key_origin: npt.ArrayLike | None
+) -> tuple[IntArray, IntArray, npt.NDArray[np.int64]]:
+    """The seeded stratified subsample (see the Notes of :func:`cross_validated_logistic`).
+
+    Returns the positions of the rows taken (ascending), each one's place (from 0) in its class's key
+    order, and the rows taken per class (at least min(n_k, ``floor``), ``cap`` in all).
+    """
+    keys = row_keys(Xa, seed, LOGISTIC_CV, origin=key_origin)
+    counts = np.bincount(ca, minlength=K).astype(np.int64)
+    by_class = [np.flatnonzero(ca == k) for k in range(K)]
+    ordered = [idx[np.lexsort((idx, keys[idx]))] for idx in by_class]
+    first_key = np.array([keys[o[0]] if o.size else np.iinfo(np.uint64).max for o in ordered], dtype=np.uint64)
+    quota = _quotas(counts, cap, floor, first_key)
+    taken = np.concatenate([o[: quota[k]] for k, o in enumerate(ordered)])
+    place = np.concatenate([np.arange(quota[k]) for k in range(K)])
+    order = np.argsort(taken)
+    return taken[order], place[order], quota
+
+
 # ---------------------------------------------------------------------------------------------------
 # Cross-validation
 
@@ -875,6 +895,12 @@ class LogisticEstimate:
         Whether every fit met the solver's tolerances.
     skipped : str or None
         Why nothing was estimated (then the figures are None and the arrays empty), or None.
+    method : str
+        ``"k_fold"`` (:func:`cross_validated_logistic`) or ``"leave_one_out"``
+        (:func:`discaudit.stats.logistic_leave_one_out.leave_one_out_logistic`).
+    approximated_rows : int
+        Rows whose held-out figures come from the one-step approximation of their leave-one-out fit
+        rather than from a refit (0 for k-fold).
     """
 
     C: float | None
@@ -898,6 +924,53 @@ class LogisticEstimate:
     fit: LogisticFit | None
     all_converged: bool
     skipped: str | None
+    method: str
+    approximated_rows: int
+
+
+#: ``LogisticEstimate.method`` of a stratified k-fold cross-validation.
+K_FOLD = "k_fold"
+#: ``LogisticEstimate.method`` of a leave-one-out estimate.
+LEAVE_ONE_OUT = "leave_one_out"
+
+
+def skipped_estimate(
+    grid: tuple[float, ...],
+    folds_requested: int,
+    n_rows: int,
+    quota: npt.NDArray[np.int64],
+    seed: int,
+    reason: str,
+    *,
+    method: str,
+) -> LogisticEstimate:
+    """An estimate with nothing estimated, for ``reason``: figures None, arrays empty."""
+    empty = np.empty(0)
+    return LogisticEstimate(
+        C=None,
+        C_grid=grid,
+        cv_log_loss=_readonly(empty),
+        cv_accuracy=_readonly(empty),
+        rows=_readonly(empty, np.intp),
+        fold=_readonly(empty, np.intp),
+        correct=_readonly(empty, np.bool_),
+        neg_log_prob=_readonly(empty),
+        accuracy=None,
+        accuracy_se=None,
+        log_loss=None,
+        log_loss_se=None,
+        folds=0,
+        folds_requested=folds_requested,
+        n_used=0,
+        n_rows=n_rows,
+        class_rows=_readonly(quota, np.int64),
+        seed=seed,
+        fit=None,
+        all_converged=True,
+        skipped=reason,
+        method=method,
+        approximated_rows=0,
+    )
 
 
 def _check_grid(C_grid: Iterable[float]) -> tuple[float, ...]:
@@ -1029,51 +1102,17 @@ def cross_validated_logistic(
     seed = resolve_seed(random_state)
     n = Xa.shape[0]
 
-    keys = row_keys(Xa, seed, LOGISTIC_CV, origin=key_origin)
-    counts = np.bincount(ca, minlength=K).astype(np.int64)
-    by_class = [np.flatnonzero(ca == k) for k in range(K)]
-    ordered = [idx[np.lexsort((idx, keys[idx]))] for idx in by_class]
-    first_key = np.array([keys[o[0]] if o.size else np.iinfo(np.uint64).max for o in ordered], dtype=np.uint64)
-    quota = _quotas(counts, cap, F_req, first_key)
+    rows, place, quota = subsample(Xa, ca, K, cap, F_req, seed, key_origin)
     F = int(min(F_req, int(quota.min())))
-
-    def skipped(reason: str) -> LogisticEstimate:
-        empty = np.empty(0)
-        return LogisticEstimate(
-            C=None,
-            C_grid=grid,
-            cv_log_loss=_readonly(empty),
-            cv_accuracy=_readonly(empty),
-            rows=_readonly(empty, np.intp),
-            fold=_readonly(empty, np.intp),
-            correct=_readonly(empty, np.bool_),
-            neg_log_prob=_readonly(empty),
-            accuracy=None,
-            accuracy_se=None,
-            log_loss=None,
-            log_loss_se=None,
-            folds=0,
-            folds_requested=F_req,
-            n_used=0,
-            n_rows=n,
-            class_rows=_readonly(quota, np.int64),
-            seed=seed,
-            fit=None,
-            all_converged=True,
-            skipped=reason,
-        )
-
     if F < MIN_FOLDS:
         k = int(np.argmin(quota))
-        return skipped(
+        reason = (
             f"class code {k} has {int(quota[k])} row{'s' if quota[k] != 1 else ''}; cross-validation needs at "
             f"least {MIN_FOLDS} rows in every class"
         )
+        return skipped_estimate(grid, F_req, n, quota, seed, reason, method=K_FOLD)
 
-    chosen_rows = np.concatenate([o[: quota[k]] for k, o in enumerate(ordered)])
-    chosen_fold = np.concatenate([np.arange(quota[k]) % F for k in range(K)])
-    order = np.argsort(chosen_rows)
-    rows, fold = chosen_rows[order], chosen_fold[order]
+    fold = place % F
     Xs, cs = Xa[rows], ca[rows]
     c, s = _affine(Xs, scale, None)
     basis = _Basis.of(Xs, c, s)
@@ -1133,4 +1172,6 @@ def cross_validated_logistic(
         fit=fit,
         all_converged=converged and ok,
         skipped=None,
+        method=K_FOLD,
+        approximated_rows=0,
     )
