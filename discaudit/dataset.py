@@ -27,6 +27,7 @@ import pandas as pd
 
 from discaudit.stats.blocks import ROW_BLOCK
 from discaudit.stats.moments import ClassMoments
+from discaudit.stats.row_keys import RowHashes
 
 FloatArray = npt.NDArray[np.float64]
 T = TypeVar("T")
@@ -185,7 +186,8 @@ class AuditData:
         the audit (``values`` and ``moments`` are in those coordinates); None means none.
     memo : dict
         Intermediate results that more than one check computes from these data (the per-class
-        robust fits), filled by :meth:`shared` on first use; never part of any output.
+        robust fits, the rows' content hashes), filled by :meth:`shared` on first use; never part
+        of any output.
     changes : tuple of dict
         What-if changes applied to the source's data (:mod:`discaudit.sources.what_if`), in the
         order applied, as plain values; empty for data as the source read them.
@@ -212,6 +214,24 @@ class AuditData:
     @property
     def p(self) -> int:
         return int(self.values.shape[1])
+
+    def key_origin(self) -> FloatArray:
+        """Each column's smallest value over every row, from the moments' ranges (zeros when they carry
+        none): what row keys subtract, so an exact shift of a column changes no key. Taken over every
+        row, not the rows held, so keys of the same rows agree however a sample was drawn."""
+        m = self.moments
+        if m.minimum is None or not m.n_total:
+            return np.zeros(self.p)
+        return np.asarray(m.minimum.min(axis=0), dtype=np.float64)
+
+    def row_hashes(self) -> RowHashes:
+        """The content hashes of the rows held about :meth:`key_origin`, computed once for these data.
+
+        Every keyed step (the canonical row order, a what-if's sample of rows, the rows leave-one-out
+        scores, the logistic subsample) derives its keys from them in O(1) per row
+        (:mod:`discaudit.stats.row_keys`), so the values are hashed once per data set.
+        """
+        return self.shared("row_hashes", lambda: RowHashes.of(self.values, self.key_origin()))
 
     def class_rows(self, k: int) -> npt.NDArray[np.intp]:
         """Positions of the rows of class code ``k``."""

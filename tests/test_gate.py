@@ -116,11 +116,10 @@ def test_a_default_gate_passes_where_some_candidate_is_safe(open_verdicts) -> No
         assert gate.fit_for == safe, name
         assert gate.passed == bool(safe), name
     passed = {name for name, v in open_verdicts.items() if _gate(v).passed}
-    # spector (32 rows) and the drug trial (36 rows): no candidate beats always choosing the largest class.
-    assert passed == {"iris", "wine", "breast_cancer", "anes96", "penguins", "heart"}
-    assert (
-        "no candidate predicts better than always choosing the largest class" in _gate(open_verdicts["spector"]).outcome
-    )
+    # The drug trial (36 rows): no candidate beats always choosing the largest class. spector (32 rows) is at
+    # the edge: with its seeded row keys, logistic regression's five folds put it 2 SE above that rule.
+    assert passed == {"iris", "wine", "breast_cancer", "anes96", "penguins", "heart", "spector"}
+    assert _gate(open_verdicts["spector"]).fit_for == ["logistic_regression"]
 
 
 def test_findings_that_do_not_bear_on_a_model_do_not_fail_it(open_verdicts) -> None:

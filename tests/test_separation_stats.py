@@ -242,6 +242,45 @@ class TestBadInput:
         res = detect_separation(np.ones((10, 2)), [0, 1] * 5)
         assert res.comparisons[0].kind == "none"
 
+    def test_moments_of_other_rows(self):
+        from discaudit.stats.moments import ClassMoments
+
+        X = np.arange(20.0).reshape(10, 2)
+        other = ClassMoments.from_arrays(X[:8], np.array([0, 1] * 4), (0, 1))
+        with pytest.raises(DataError, match=r"moments count \[4, 4\] rows per class over 2 features"):
+            detect_separation(X, [0, 1] * 5, moments=other)
+
+
+class TestGivenMoments:
+    """Moments passed in (an audit's) give the answer computed from the rows themselves, and the total
+    mean and standard deviation they give (W + B) are numpy's over all rows."""
+
+    def test_standardization_is_numpys(self):
+        import discaudit.stats.separation as separation
+        from discaudit.stats.moments import ClassMoments
+
+        rng = np.random.default_rng(12)
+        X = rng.normal(size=(1000, 3)) * [1.0, 1e3, 1e-3] + [5.0, -2e4, 0.0]
+        y = rng.integers(0, 3, 1000)
+        space = separation._FeatureSpace(X, ["a", "b", "c"], ClassMoments.from_arrays(X, y, (0, 1, 2)))
+        np.testing.assert_allclose(space.mean, X.mean(axis=0), rtol=1e-13)
+        np.testing.assert_allclose(space.sd, X.std(axis=0), rtol=1e-12)
+
+    @pytest.mark.parametrize("shift", [0.5, 3.0, 12.0])
+    def test_same_answer_as_without(self, shift):
+        from discaudit.stats.moments import ClassMoments
+
+        rng = np.random.default_rng(11)
+        X = np.vstack([rng.normal(size=(300, 4)), rng.normal(size=(200, 4)) + [shift, 0, 0, 0]])
+        X[:, 3] = 2.0  # a constant feature, screened from the ranges of the moments
+        y = np.repeat([0, 1], [300, 200])
+        given = detect_separation(X, y, moments=ClassMoments.from_arrays(X, y, (0, 1)), random_state=0)
+        own = detect_separation(X, y, random_state=0)
+        assert [(c.kind, c.separating_features, c.n_used) for c in given.comparisons] == [
+            (c.kind, c.separating_features, c.n_used) for c in own.comparisons
+        ]
+        assert given.notes == own.notes == ("constant features ignored: x3",)
+
 
 class TestSubsampleSoundness:
     def test_rare_indicator_missing_from_the_subsample(self):
@@ -391,8 +430,12 @@ class TestBlocks:
 def _signed_design(X: np.ndarray, y: np.ndarray, positive_class) -> np.ndarray:
     """Rows a_i = s_i (z_i, 1) of the module, for all rows of one comparison."""
     import discaudit.stats.separation as separation
+    from discaudit.stats.moments import ClassMoments
 
-    space = separation._FeatureSpace(np.asarray(X, dtype=float), [f"x{j}" for j in range(X.shape[1])])
+    values = np.asarray(X, dtype=float)
+    side = (np.asarray(y) == positive_class).astype(np.intp)
+    moments = ClassMoments.from_arrays(values, side, (0, 1))
+    space = separation._FeatureSpace(values, [f"x{j}" for j in range(X.shape[1])], moments)
     sign = np.where(y == positive_class, 1.0, -1.0)
     return separation._SignedRows(space, sign).take(np.arange(len(y)))
 

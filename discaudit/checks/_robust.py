@@ -117,8 +117,8 @@ def canonical_layout(data: AuditData) -> tuple[list[IntArray], list[int]]:
     """Per class, the canonical order of its held rows, and the classes' canonical ranks (memoized)."""
 
     def compute() -> tuple[list[IntArray], list[int]]:
-        origin = data.values.min(axis=0) if data.n else None  # exact shifts of a column change no key
-        keys = [row_keys(data.values, data.class_rows(k), origin) for k in range(len(data.classes))]
+        hashes = data.row_hashes().hashes  # about each column's minimum: exact shifts of a column change no key
+        keys = [row_keys(hashes[data.class_rows(k)]) for k in range(len(data.classes))]
         counts = [int(k.size) for k in keys]
         return [canonical_order(k) for k in keys], canonical_ranks(counts, [content_digest(k) for k in keys])
 

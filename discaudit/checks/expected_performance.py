@@ -35,7 +35,7 @@ from discaudit.stats._sampling import resolve_seed
 from discaudit.stats.leave_one_out import LeaveOneOutResult, LeaveOneOutRows, LeaveOneOutScorer, LeaveOneOutTally
 from discaudit.stats.logistic import K_FOLD, LogisticEstimate, cross_validated_logistic
 from discaudit.stats.logistic_leave_one_out import leave_one_out_logistic
-from discaudit.stats.row_keys import keep_share
+from discaudit.stats.row_keys import RowHashes, keep_share
 from discaudit.stats.seeds import PERFORMANCE_ROWS
 from discaudit.stats.shrinkage import class_centred_fourth_sums, ledoit_wolf_intensity
 
@@ -107,18 +107,17 @@ class _Scores:
     n_common: int
 
 
-def _tally(scorer: LeaveOneOutScorer, share: float, seed: int, origin: np.ndarray, block: RowBlock) -> LeaveOneOutTally:
-    """Leave-one-out sums of the block's rows, or of its rows whose key falls in the sampled share."""
+def _tally(scorer: LeaveOneOutScorer, share: float, seed: int, origin: RowHashes, block: RowBlock) -> LeaveOneOutTally:
+    """Leave-one-out sums of the block's rows, or of its rows whose key falls in the sampled share (the keys
+    from ``origin``'s hashes when the block holds rows of the data held, else from the block's values)."""
     keep = keep_share(block.values, share, seed, PERFORMANCE_ROWS, origin)
     return scorer.tally([(block.values[keep], block.codes[keep])])
 
 
-def _origin(data: AuditData) -> np.ndarray:
-    """Each column's smallest value (from the moments), the origin of the row keys."""
-    m = data.moments
-    if m.minimum is None:
-        return np.zeros(data.p)
-    return np.asarray(m.minimum.min(axis=0), dtype=np.float64)
+def _origin(data: AuditData) -> RowHashes:
+    """The origin of the row keys, each column's smallest value, with the content hashes of the rows held
+    (:meth:`AuditData.row_hashes`, computed once), so keyed steps on those rows hash nothing again."""
+    return data.row_hashes()
 
 
 def _total_scale(data: AuditData) -> np.ndarray:

@@ -23,6 +23,7 @@ import numpy as np
 import pandas as pd
 from scipy import stats as sps
 
+from discaudit._threads import map_in_threads
 from discaudit.checks._robust import ClassFit, RobustFits, canonical_layout, fits_key, robust_fits, robust_min_rows
 from discaudit.dataset import AuditData, RowBlock, RowPass, RowTask
 from discaudit.findings import Finding, fmt, fmt_p, names
@@ -162,7 +163,9 @@ def _score_held(data: AuditData, rf: RobustFits) -> tuple[list[ClassOutcome], di
     }
     outcomes = []
     m = data.moments
-    for fit, d, beyond, flagged in zip(rf.fits, rf.distances, rf.beyond_cutoff, rf.flagged, strict=True):
+
+    def classical_distances(fit: ClassFit) -> tuple[np.ndarray, np.ndarray]:
+        """The class's rows and their classical squared distances (NaN where there are none)."""
         rows = data.class_rows(fit.code)
         classical = _classical(m, fit)
         d_classical = np.full(rows.size, np.nan)
@@ -170,6 +173,13 @@ def _score_held(data: AuditData, rf: RobustFits) -> tuple[list[ClassOutcome], di
             values = data.values if fit.columns.size == data.p else data.values[:, fit.columns]
             got = mahalanobis_sq(values, classical[0], classical[1], rows)
             d_classical = got if got is not None else d_classical
+        return rows, d_classical
+
+    # One class per core: every class's rows are read once more here, O(n p^2) in all.
+    scored = map_in_threads(classical_distances, rf.fits)
+    for fit, d, beyond, flagged, (rows, d_classical) in zip(
+        rf.fits, rf.distances, rf.beyond_cutoff, rf.flagged, scored, strict=True
+    ):
         arrays["squared_distance"][rows] = d
         arrays["classical_squared_distance"][rows] = d_classical
         arrays["cutoff"][rows] = fit.cutoff

@@ -29,7 +29,11 @@ def run(data: AuditData, config: Config, random_state: int | None = None) -> Fin
     non-separability of the whole.
     """
     X = pd.DataFrame(data.values, columns=list(data.features), copy=False)
-    result = detect_separation(X, data.codes, max_rows=config.separation_max_rows, random_state=random_state)
+    # The moments cover exactly the rows held unless those are a sample of a larger input.
+    moments = data.moments if data.sample is None else None
+    result = detect_separation(
+        X, data.codes, max_rows=config.separation_max_rows, random_state=random_state, moments=moments
+    )
     comparisons = []
     for c in result.comparisons:
         boundary = [label(data.row_labels[i]) for i in c.boundary_rows[:_MAX_LISTED_ROWS]]

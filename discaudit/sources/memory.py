@@ -34,7 +34,6 @@ from discaudit.sources.screening import (
     screen_missing,
     split,
 )
-from discaudit.stats.blocks import ROW_BLOCK, block_starts
 from discaudit.stats.moments import ClassMoments
 
 FloatArray = npt.NDArray[np.float64]
@@ -52,8 +51,9 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
     """
     X, y, conversions = unwrap_arrays(X, y)
     plain = _plain_array(X, y, target)
+    ranges = None
     if plain is not None:
-        values, labels, coordinates = plain
+        values, labels, coordinates, ranges = plain
         columns: list[Any] = [f"x{j}" for j in range(values.shape[1])]
         n_rows_input, n_features_input = values.shape
         non_numeric: list[str] = []
@@ -72,7 +72,8 @@ def load(X: Any, y: Any = None, *, target: str | None = None, config: Config) ->
             raise
         columns = list(frame.columns)
     codes, classes = encode(labels)
-    col_min, col_max = column_range(values)  # reductions only: no temporary copy of the data
+    # reductions only, no temporary copy of the data (or those the plain-array check already made)
+    col_min, col_max = column_range(values) if ranges is None else ranges
     screen = screen_columns(col_min, col_max, identical_columns(values), [str(c) for c in columns])
     if not screen.keep.all():
         values = np.ascontiguousarray(values[:, screen.keep])
@@ -162,14 +163,19 @@ def _structured_frame(X: np.ndarray, mask: Any) -> pd.DataFrame:
     return frame
 
 
-def _plain_array(X: Any, y: Any, target: str | None) -> tuple[FloatArray, pd.Series, Coordinates] | None:
+def _plain_array(
+    X: Any, y: Any, target: str | None
+) -> tuple[FloatArray, pd.Series, Coordinates, tuple[FloatArray, FloatArray] | None] | None:
     """A finite numeric 2-D ndarray X with labels y, taken as is (no copy if float64, C order).
 
     The common case of ``preflight(X, y)``: no DataFrame is built and the array is audited in
     place, through a read-only view. Anything else (missing values or labels, other types)
     returns None and takes the general path, which reports problems by column and row. A
     column that needs other coordinates (offset-dominated, integers beyond 2**53, tiny
-    magnitudes) is audited from a converted copy.
+    magnitudes) is audited from a converted copy. Returns the values, the labels, the
+    coordinates and, when the values are the input's floats as they are, their column minima and
+    maxima (else None). Finiteness is read from those two reductions: a NaN propagates into the
+    minimum and an infinity is the minimum or the maximum, so no n x p mask is made.
     """
     if target is not None or y is None or not isinstance(X, np.ndarray) or X.ndim != 2:
         return None
@@ -180,23 +186,37 @@ def _plain_array(X: Any, y: Any, target: str | None) -> tuple[FloatArray, pd.Ser
         coordinates = choose_coordinates([(int(a), int(b)) for a, b in zip(low, high, strict=True)])
     else:
         values = np.asarray(X, dtype=np.float64, order="C")
-        if not all(np.isfinite(values[a : a + ROW_BLOCK]).all() for a in block_starts(values.shape[0])):
-            return None
         low, high = column_range(values)
+        if not (np.isfinite(low).all() and np.isfinite(high).all()):
+            return None
         coordinates = choose_coordinates([(float(a), float(b)) for a, b in zip(low, high, strict=True)])
+    ranges = (low, high) if X.dtype.kind == "f" and coordinates.trivial else None
     if coordinates.trivial:
         values = np.asarray(X, dtype=np.float64, order="C")
     else:
         values = audit_values([X[:, j] for j in range(X.shape[1])], coordinates)
     view = values.view()
     view.flags.writeable = False
+    labels = _plain_labels(y, values.shape[0])
+    if labels is None or labels.isna().any():
+        return None
+    return view, labels, coordinates, ranges
+
+
+def _plain_labels(y: Any, n: int) -> pd.Series | None:
+    """The labels of a plain array as a Series on positions; None when they need the general path.
+
+    Integer and boolean arrays keep their dtype (they cannot hold a missing label, and their codes
+    and classes come out as from objects, Python numbers in sorted order); anything else becomes an
+    object Series.
+    """
+    index = pd.RangeIndex(n)
+    if isinstance(y, np.ndarray) and y.ndim == 1 and y.dtype.kind in "iub" and y.shape[0] == n:
+        return pd.Series(y, index=index, copy=False)
     try:
-        labels = as_labels(y, pd.RangeIndex(values.shape[0]))
+        return as_labels(y, index)
     except DataError:
         return None
-    if labels.isna().any():
-        return None
-    return view, labels, coordinates
 
 
 def _handle_missing(

@@ -51,7 +51,7 @@ from discaudit.jsonable import label
 from discaudit.sources.screening import check_magnitude, choose_coordinates, column_range, distinct_values
 from discaudit.stats._inputs import ordered_unique
 from discaudit.stats.moments import ClassMoments
-from discaudit.stats.row_keys import row_keys
+from discaudit.stats.row_keys import derive_keys, smallest_keys
 from discaudit.stats.seeds import WHAT_IF_SAMPLE
 from discaudit.stats.yeo_johnson import yeo_johnson, yeo_johnson_lambda
 
@@ -902,10 +902,10 @@ def apply(
         Naming the column, class or row that cannot be changed, and one fix.
     """
     records: list[dict[str, Any]] = []
+    if rows_per_class is not None:  # the rows kept follow from the data as given (and the hashes they hold)
+        data = _cap_rows(data, rows_per_class, random_state)
     # Changed data are new data: nothing a check shared on the old (robust fits, say) may carry over.
     data = dataclasses.replace(data, memo={})
-    if rows_per_class is not None:
-        data = _cap_rows(data, rows_per_class, random_state)
     if change.drop_rows:
         data = _drop_rows(data, change.drop_rows, few_distinct_values)
         records.append({"drop_rows": [label(r) for r in change.drop_rows]})
@@ -931,21 +931,10 @@ def apply(
 
 def _cap_rows(data: AuditData, rows_per_class: int, random_state: int | None) -> AuditData:
     """Hold at most ``rows_per_class`` rows per class (seeded, in row order); moments and row pass unchanged."""
-    positions = []
-    capped = False
     seed = 0 if random_state is None else int(random_state)
-    origin = data.values.min(axis=0) if data.n else None
-    for k in range(len(data.classes)):
-        rows = data.class_rows(k)
-        if rows.size > rows_per_class:
-            # The rows with the smallest seeded content keys: the same rows whatever their order or class names.
-            keys = row_keys(np.take(data.values, rows, axis=0), seed, WHAT_IF_SAMPLE, origin)
-            rows = np.sort(rows[np.argsort(keys, kind="stable")[:rows_per_class]])
-            capped = True
-        positions.append(rows)
-    if not capped:
+    idx = data.shared(("capped_rows", rows_per_class, seed), lambda: _capped_positions(data, rows_per_class, seed))
+    if idx is None:
         return data
-    idx = np.sort(np.concatenate(positions))
     codes = data.codes[idx]
     data = dataclasses.replace(data, memo={})
     per_class = {c: int((codes == k).sum()) for k, c in enumerate(data.classes)}
@@ -965,6 +954,22 @@ def _cap_rows(data: AuditData, rows_per_class: int, random_state: int | None) ->
         sample=sample,
         all_rows=rows_pass,
     )
+
+
+def _capped_positions(data: AuditData, rows_per_class: int, seed: int) -> npt.NDArray[np.intp] | None:
+    """Positions of the rows a cap keeps, in row order: per class, the rows with the smallest seeded keys
+    (derived from the rows' content hashes), so the same rows whatever their order or class names; None
+    when no class holds more."""
+    hashes = data.row_hashes().hashes
+    positions = []
+    capped = False
+    for k in range(len(data.classes)):
+        rows = data.class_rows(k)
+        if rows.size > rows_per_class:
+            rows = rows[smallest_keys(derive_keys(hashes[rows], seed, WHAT_IF_SAMPLE), rows_per_class)]
+            capped = True
+        positions.append(rows)
+    return np.sort(np.concatenate(positions)) if capped else None
 
 
 def cap_rows(data: AuditData, rows_per_class: int, random_state: int | None) -> AuditData:

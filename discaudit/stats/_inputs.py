@@ -77,14 +77,16 @@ def as_matrix(X: Any, *, min_rows: int = 2, name: str = "X") -> tuple[FloatMatri
         raise DataError(f"{name} has no columns; pass at least one numeric feature.")
     if n < min_rows:
         raise DataError(f"{name} has {n} rows; this statistic needs at least {min_rows}.")
-    finite = np.isfinite(values)
-    if not finite.all():
-        counts = (~finite).sum(axis=0)
+    # Two reductions screen for non-finite values (a NaN propagates into the minimum, an infinity is
+    # the minimum or the maximum) without an n x p mask; the mask is made only to name the columns.
+    low, high = values.min(axis=0), values.max(axis=0)
+    if not (np.isfinite(low).all() and np.isfinite(high).all()):
+        counts = (~np.isfinite(values)).sum(axis=0)
         cols = [f"{names[j]} ({int(counts[j])})" for j in np.flatnonzero(counts)]
         raise DataError(
             f"{name} has NaN or infinite values in columns {_short(cols)}; drop or impute those rows first."
         )
-    check_magnitude(np.maximum(-values.min(axis=0), values.max(axis=0)), names, f"{name} columns")
+    check_magnitude(np.maximum(-low, high), names, f"{name} columns")
     return np.ascontiguousarray(values), names
 
 
@@ -110,9 +112,15 @@ def as_labels(y: Any, n: int, *, name: str = "y") -> tuple[npt.NDArray[np.intp],
     DataError
         If ``y`` is not one-dimensional, its length differs from ``n``, or a label is missing.
     """
-    labels = pd.Series(np.asarray(y, dtype=object) if not isinstance(y, pd.Series) else y.to_numpy(dtype=object))
     if np.ndim(y) != 1 and not isinstance(y, pd.Series):
         raise DataError(f"{name} must be one-dimensional; got shape {np.shape(y)}.")
+    native = y.to_numpy() if isinstance(y, pd.Series) else np.asarray(y)
+    if native.dtype.kind in "iub" and native.shape == (n,):
+        # Integers and booleans cannot be missing and are comparable: sorted codes straight from their
+        # values, the same codes and (Python) labels as the general path below, without object arrays.
+        codes, uniques = pd.factorize(native, sort=True)
+        return np.asarray(codes, dtype=np.intp), uniques.tolist()
+    labels = pd.Series(np.asarray(y, dtype=object) if not isinstance(y, pd.Series) else y.to_numpy(dtype=object))
     if len(labels) != n:
         raise DataError(f"{name} has {len(labels)} labels but X has {n} rows; they must match.")
     missing = labels.isna().to_numpy()

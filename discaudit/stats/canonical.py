@@ -5,10 +5,10 @@ each class its own seed. For the result not to change when the rows are shuffled
 renamed, the positions are taken in a *canonical* order of a class's rows, and each class's seed
 comes from its place in a canonical order of the classes:
 
-* :func:`row_keys`: a 64-bit content key of each row, :func:`discaudit.stats.row_keys.row_keys`
-  with the seed fixed at 0 and the salt ``CANONICAL`` (so the order is the same whatever the
-  audit's seed is; the seed enters through :func:`discaudit.stats.seeds.class_seeds`); equal rows
-  get equal keys;
+* :func:`row_keys`: a 64-bit content key of each row, derived from the row's content hash
+  (:mod:`discaudit.stats.row_keys`) with the seed fixed at 0 and the salt ``CANONICAL`` (so the
+  order is the same whatever the audit's seed is; the seed enters through
+  :func:`discaudit.stats.seeds.class_seeds`); equal rows get equal keys;
 * :func:`canonical_order`: the rows sorted by key (stable), so identical rows stay together and
   any shuffle of the input gives the same sequence of row *values*;
 * :func:`content_digest`: the wrapped sum of the keys of a class's rows: exact and independent of
@@ -25,8 +25,7 @@ from __future__ import annotations
 import numpy as np
 import numpy.typing as npt
 
-from discaudit.stats import row_keys as _keys
-from discaudit.stats.blocks import ROW_BLOCK
+from discaudit.stats.row_keys import derive_keys
 from discaudit.stats.seeds import CANONICAL
 
 __all__ = ["canonical_order", "canonical_ranks", "content_digest", "row_keys"]
@@ -34,20 +33,13 @@ __all__ = ["canonical_order", "canonical_ranks", "content_digest", "row_keys"]
 U64 = npt.NDArray[np.uint64]
 
 
-def row_keys(
-    X: npt.NDArray[np.float64], rows: npt.NDArray[np.intp] | None = None, origin: npt.ArrayLike | None = None
-) -> U64:
-    """The content key of each row of ``X[rows]`` (all rows if None), a block of rows at a time.
+def row_keys(hashes: U64) -> U64:
+    """The canonical key of each row from its content hash (:func:`discaudit.stats.row_keys.content_hashes`).
 
-    ``origin`` (one value per column, e.g. each column's minimum over all rows) is subtracted first,
-    so that an exact shift of a column leaves the keys, and hence the order, unchanged.
+    Hashes taken about each column's minimum make the keys, and hence the order, unchanged by an
+    exact shift of a column.
     """
-    if rows is None:
-        return _keys.row_keys(X, 0, CANONICAL, origin)
-    out = np.empty(rows.size, dtype=np.uint64)
-    for a in range(0, rows.size, ROW_BLOCK):
-        out[a : a + ROW_BLOCK] = _keys.row_keys(np.take(X, rows[a : a + ROW_BLOCK], axis=0), 0, CANONICAL, origin)
-    return out
+    return derive_keys(hashes, 0, CANONICAL)
 
 
 def canonical_order(keys: U64) -> npt.NDArray[np.intp]:

@@ -18,6 +18,7 @@ salt                value  stream
 ``ENGINE_SAMPLE``    10   the hash seed of a per-class sample drawn inside an engine (no key)
 ``CANONICAL``        11   content keys of the canonical row and class order (seed fixed at 0)
 ``WHAT_IF_SAMPLE``    12  row keys of the rows a what-if keeps per class when it caps them (no key)
+``ROW_CONTENT``       13  column constants of the seed-free row content hash (seed fixed at 0)
 ==================  ====  ========================================================
 
 ``PARTITION_MERGE`` and ``OUTLIERS`` share a value but never a stream: the first always carries
@@ -42,6 +43,7 @@ PERFORMANCE_ROWS = 9
 ENGINE_SAMPLE = 10
 CANONICAL = 11
 WHAT_IF_SAMPLE = 12
+ROW_CONTENT = 13
 
 
 def _entropy(random_state: int | None, salt: int, key: tuple[int, ...]) -> list[int] | None:

@@ -148,7 +148,13 @@ class SeparationResult:
 
 
 def detect_separation(
-    X: Any, y: Any, *, max_rows: int = 2000, random_state: int | None = None, certify_overlap: bool = True
+    X: Any,
+    y: Any,
+    *,
+    max_rows: int = 2000,
+    random_state: int | None = None,
+    certify_overlap: bool = True,
+    moments: ClassMoments | None = None,
 ) -> SeparationResult:
     """Detect complete and quasi-complete separation of the classes by linear programming.
 
@@ -172,6 +178,10 @@ def detect_separation(
         Try the overlap certificate (Notes) before the first linear program of each comparison.
         It only ever skips a program whose answer it has proven, so the result is the same
         either way; False runs the programs always (for checking and timing).
+    moments : ClassMoments, optional
+        Per-class moments of exactly these rows, one class per class of ``y`` in code order (e.g.
+        the ones an audit computed once): the standardization and the constant-feature screen then
+        come from them, without a pass over the rows. Computed here by default.
 
     Returns
     -------
@@ -186,7 +196,8 @@ def detect_separation(
     ------
     DataError
         If ``X`` is not finite numeric data, ``y`` does not match it or has fewer than two
-        classes, or ``max_rows`` is not an integer of at least 2; also if the LP solver fails.
+        classes, ``max_rows`` is not an integer of at least 2, or ``moments`` do not count the
+        rows of each class; also if the LP solver fails.
 
     See Also
     --------
@@ -326,8 +337,19 @@ def detect_separation(
     if isinstance(max_rows, bool) or not isinstance(max_rows, (int, np.integer)) or max_rows < 2:
         raise DataError(f"max_rows must be an integer of at least 2; got {max_rows!r}.")
 
-    space = _FeatureSpace(values, names)
     counts = np.bincount(codes, minlength=len(classes))
+    if moments is None:
+        moments = ClassMoments.from_arrays(values, codes, tuple(classes))
+    elif (
+        moments.counts.shape != counts.shape
+        or not np.array_equal(moments.counts, counts)
+        or moments.n_features != values.shape[1]
+    ):
+        raise DataError(
+            f"moments count {moments.counts.tolist()} rows per class over {moments.n_features} features, but the "
+            f"data hold {counts.tolist()} over {values.shape[1]}; pass the moments of these rows (or none)."
+        )
+    space = _FeatureSpace(values, names, moments)
     seed = resolve_seed(random_state) if n > max_rows else None
     rng = np.random.default_rng(seed) if seed is not None else None
 
@@ -386,16 +408,19 @@ class _FeatureSpace:
     (a working set, or one block of at most ROW_BLOCK rows in a pass over all rows).
     """
 
-    def __init__(self, values: FloatMatrix, names: list[str]) -> None:
+    def __init__(self, values: FloatMatrix, names: list[str], moments: ClassMoments) -> None:
         n = values.shape[0]
         self.values = values
         self.names = names
-        # One class holding every row: its mean and centred cross-products, in row blocks.
-        moments = ClassMoments.from_arrays(values, np.zeros(n, dtype=np.intp), (None,))
-        self.mean = moments.means[0]
-        cross = moments.scatter[0]
+        # The total mean and centred cross-products, from the per-class moments: W + B.
+        self.mean = moments.grand_mean
+        cross = moments.within_scatter + moments.between_scatter
         self.sd = np.sqrt(np.diag(cross) / n)
-        keep = (np.ptp(values, axis=0) > 0) & (self.sd > 0)  # constant = min == max, exactly
+        if moments.minimum is not None and moments.maximum is not None:
+            spread = moments.maximum.max(axis=0) - moments.minimum.min(axis=0)
+        else:
+            spread = np.ptp(values, axis=0)
+        keep = (spread > 0) & (self.sd > 0)  # constant = min == max, exactly
         self.keep = np.flatnonzero(keep)
         self.dropped = [names[j] for j in np.flatnonzero(~keep)]
         independent = _independent_columns(self, cross)
@@ -439,14 +464,16 @@ def _independent_columns(space: _FeatureSpace, cross: FloatMatrix, tol: float = 
     the pivots and the diagonal of a pivoted QR depend on Z only through Z'Z = R'R. The first
     pivot is column 0, since all standardized columns tie in length (sqrt(n)).
 
-    Before that, a screen: if the eigenvalues of the cross-product matrix G = Z'Z (from sums
-    made with the standardization) have ratio above c = _GRAM_SCREEN max(1, q / 100), all
-    columns are kept without a QR. That is the QR's answer: each pivot of a QR of Z is at least
-    sigma_min(Z) and the first at most sigma_max(Z), so all pivots exceed about sqrt(c) >= 1e-4,
-    far above ``tol``, times the first. Rounding moves an eigenvalue of G by at most q times the
-    error bound of an entry, (b + n / b) 1.1e-16 lambda_max with b = 65,536 the rows per block
-    of :meth:`ClassMoments.from_arrays`, i.e. below c / 10 lambda_max for n <= 1e8, so the
-    screen cannot pass a G whose true ratio is below 0.9 c; closer cases go to the QR.
+    Before that, a screen: if the eigenvalues of the cross-product matrix G = Z'Z (from the
+    total scatter W + B of the class moments that give the standardization) have ratio above
+    c = _GRAM_SCREEN max(1, q / 100), all columns are kept without a QR. That is the QR's
+    answer: each pivot of a QR of Z is at least sigma_min(Z) and the first at most
+    sigma_max(Z), so all pivots exceed about sqrt(c) >= 1e-4, far above ``tol``, times the
+    first. Rounding moves an eigenvalue of G by at most q times the error bound of an entry,
+    (b + n / b + K + 3) 1.1e-16 lambda_max with b = 8,192 the rows per block of
+    :meth:`ClassMoments.from_arrays` (the K + 3 for adding the K class scatters and the
+    between-class part), i.e. below c / 10 lambda_max for n <= 1e8, so the screen cannot pass
+    a G whose true ratio is below 0.9 c; closer cases go to the QR.
 
     References
     ----------
