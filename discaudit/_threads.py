@@ -40,7 +40,7 @@ from concurrent.futures import ThreadPoolExecutor
 from contextlib import contextmanager
 from typing import Any, Generic, TypeVar
 
-from threadpoolctl import threadpool_limits
+from threadpoolctl import ThreadpoolController
 
 T = TypeVar("T")
 R = TypeVar("R")
@@ -83,8 +83,26 @@ class _Shared(Generic[S]):
             self._restore(saved)
 
 
+class _BlasPools:
+    """The thread pools of the loaded libraries, found once per process (on first use).
+
+    Finding them reads the list of every loaded shared library (about 2 ms with numpy, scipy and
+    pandas loaded, twice per audit before); numpy's and scipy's BLAS, the ones the audit calls,
+    are loaded with ``discaudit``, so a pool loaded after the first audit (another library's) is
+    the only one a later audit leaves unlimited. Used under ``_STATE_LOCK`` only.
+    """
+
+    controller: ThreadpoolController | None = None
+
+    @classmethod
+    def limit(cls) -> Any:
+        if cls.controller is None:
+            cls.controller = ThreadpoolController()
+        return cls.controller.limit(limits=1, user_api="blas")
+
+
 def _limit_blas() -> Any:
-    return threadpool_limits(limits=1, user_api="blas")
+    return _BlasPools.limit()
 
 
 def _restore_blas(limiter: Any) -> None:

@@ -34,6 +34,10 @@ def plain(value: Any) -> Any:
     if isinstance(value, pd.DataFrame):
         return [plain(r) for r in value.to_dict(orient="records")]
     if isinstance(value, np.ndarray):
+        if value.ndim and value.dtype.kind in "biu":
+            return value.tolist()  # already plain Python ints and bools, nested as the array
+        if value.ndim and value.dtype.kind == "f" and np.isfinite(value).all():
+            return value.tolist()  # plain Python floats, none of them to replace
         return [plain(v) for v in value.tolist()]
     if isinstance(value, (list, tuple, set, frozenset)):
         return [plain(v) for v in value]

@@ -20,7 +20,7 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from discaudit.errors import DataError
+from discaudit.errors import DataError, DegenerateDataWarning
 from discaudit.stats._detmcd import START_NAMES, TAU_C1, TAU_C2, detmcd_starts, tau_consistency, tau_scale
 from discaudit.stats.mcd import mcd
 
@@ -190,3 +190,71 @@ class TestDefaultSearch:
         assert not fast.support[:100].any()
         assert auto.raw_log_determinant == pytest.approx(fast.raw_log_determinant, abs=0.01)
         assert auto.outliers[:100].all()
+
+
+def _kind(kind: str, n: int, p: int, seed: int) -> np.ndarray:
+    """Seeded cases of the kinds the DetMCD-alone rule was measured on (benchmarks/bench_detmcd_rule.py)."""
+    rng = np.random.default_rng(seed)
+    A = rng.standard_normal((p, p)) / math.sqrt(p) + np.eye(p)
+    X = (rng.standard_t(3, size=(n, p)) if kind == "t3" else rng.standard_normal((n, p))) @ A
+    k = n // 5
+    if kind == "shift":
+        d = rng.standard_normal(p)
+        X[:k] += 10.0 * p**0.25 * d / np.linalg.norm(d) + rng.standard_normal((k, p))
+    elif kind == "cluster":
+        w, V = np.linalg.eigh(A.T @ A)
+        X[:k] = 4.0 * math.sqrt(w[0] * stats.chi2.ppf(0.975, p)) * V[:, 0] + 0.05 * rng.standard_normal((k, p))
+    return X
+
+
+class TestDetMCDAloneRule:
+    """method="auto": DetMCD alone for p <= 4 and n >= 800, the combined search elsewhere."""
+
+    @pytest.mark.parametrize(
+        ("kind", "n", "p"), [("clean", 800, 2), ("shift", 900, 3), ("cluster", 1000, 4), ("t3", 1200, 3)]
+    )
+    def test_inside_the_rule_detmcd_alone_reaches_the_combined_objective(self, kind: str, n: int, p: int) -> None:
+        X = _kind(kind, n, p, 3)
+        auto = mcd(X, random_state=0, finite_sample_correction=True)
+        det = mcd(X, random_state=0, finite_sample_correction=True, method="deterministic")
+        combined = mcd(X, random_state=0, finite_sample_correction=True, method="combined")
+        assert (auto.n_starts, det.n_starts, combined.n_starts) == (0, 0, 50)
+        np.testing.assert_array_equal(auto.support, det.support)
+        assert auto.raw_log_determinant == det.raw_log_determinant
+        # The measured bound of the rule (see _DETMCD_ALONE_MAX_FEATURES): at most 0.012 above.
+        assert auto.raw_log_determinant <= combined.raw_log_determinant + 0.012
+        assert np.count_nonzero(auto.outliers != combined.outliers) <= 8
+
+    @pytest.mark.parametrize(("n", "p"), [(700, 3), (900, 5), (300, 2)])
+    def test_outside_the_rule_the_combined_search_runs(self, n: int, p: int) -> None:
+        X = _kind("cluster", n, p, 4)
+        auto = mcd(X, random_state=2)
+        combined = mcd(X, random_state=2, method="combined")
+        assert auto.n_starts == combined.n_starts == 50
+        np.testing.assert_array_equal(auto.support, combined.support)
+        assert auto.raw_log_determinant == combined.raw_log_determinant
+
+    def test_constant_columns_do_not_count_as_features(self) -> None:
+        # Five columns, one constant: the search runs on four, so DetMCD alone.
+        X = np.column_stack([_kind("shift", 900, 4, 5), np.full(900, 2.0)])
+        with pytest.warns(DegenerateDataWarning, match="constant"):
+            res = mcd(X, random_state=0)
+        assert res.n_starts == 0 and res.best_start in START_NAMES
+
+    def test_an_explicit_number_of_starts_runs_the_combined_search(self) -> None:
+        X = _kind("clean", 900, 3, 6)
+        res = mcd(X, random_state=0, n_starts=20)
+        assert res.n_starts == 20 and res.method == "auto"
+
+    @pytest.mark.parametrize("n", [1000, 2500])
+    def test_row_order_and_seed_do_not_change_the_detmcd_alone_fit(self, n: int) -> None:
+        # n = 1000: every step is deterministic; n = 2500: the working subsample is seeded.
+        X = _kind("shift", n, 3, 7)
+        perm = np.random.default_rng(8).permutation(n)
+        r1, r2 = mcd(X, random_state=1), mcd(X[perm], random_state=1)
+        assert r1.n_starts == r2.n_starts == 0
+        np.testing.assert_array_equal(r1.support[perm], r2.support)
+        np.testing.assert_array_equal(r1.outliers[perm], r2.outliers)
+        assert r1.raw_log_determinant == r2.raw_log_determinant
+        again = mcd(X, random_state=1)
+        np.testing.assert_array_equal(again.support, r1.support)

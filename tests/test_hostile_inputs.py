@@ -378,6 +378,22 @@ def test_eight_concurrent_audits_equal_sequential_ones_and_leave_process_state_a
         assert threadpoolctl.threadpool_info() == pools
 
 
+def test_every_audit_limits_blas_to_one_thread_with_the_pools_found_once() -> None:
+    # The pools are found on the first audit and reused (discaudit._threads._BlasPools): each later
+    # audit still runs on one BLAS thread and restores what it found.
+    from discaudit._threads import one_blas_thread
+
+    before = threadpoolctl.threadpool_info()
+    with threadpoolctl.threadpool_limits(limits=2, user_api="blas"):
+        for _ in range(2):
+            with one_blas_thread():
+                inside = [i["num_threads"] for i in threadpoolctl.threadpool_info() if i["user_api"] == "blas"]
+                assert inside and set(inside) == {1}
+            outside = [i["num_threads"] for i in threadpoolctl.threadpool_info() if i["user_api"] == "blas"]
+            assert set(outside) == {2}
+    assert threadpoolctl.threadpool_info() == before
+
+
 def test_process_state_is_restored_when_an_audit_raises(monkeypatch: pytest.MonkeyPatch) -> None:
     from discaudit import checks
 

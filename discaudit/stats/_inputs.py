@@ -56,7 +56,7 @@ def as_matrix(X: Any, *, min_rows: int = 2, name: str = "X") -> tuple[FloatMatri
         if X.columns.duplicated().any():
             dup = sorted({str(c) for c in X.columns[X.columns.duplicated()]})
             raise DataError(f"{name} has duplicated column names {_short(dup)}; rename them so results can name them.")
-        bad = [str(c) for c in X.columns if not _is_numeric_dtype(X[c])]
+        bad = [str(c) for c, dtype in zip(X.columns, X.dtypes, strict=True) if not _is_numeric_dtype(dtype)]
         if bad:
             raise DataError(
                 f"{name} has non-numeric columns {_short(bad)}; pass numeric columns only (encode or drop the others)."
@@ -152,8 +152,8 @@ def ordered_unique(values: Sequence[Any]) -> list[Any]:
         return sorted(seen, key=lambda v: (type(v).__name__, str(v)))
 
 
-def _is_numeric_dtype(column: pd.Series) -> bool:
-    return bool(pd.api.types.is_numeric_dtype(column.dtype) or pd.api.types.is_bool_dtype(column.dtype))
+def _is_numeric_dtype(dtype: Any) -> bool:
+    return bool(pd.api.types.is_numeric_dtype(dtype) or pd.api.types.is_bool_dtype(dtype))
 
 
 def _short(items: Sequence[Any], limit: int = 6) -> str:

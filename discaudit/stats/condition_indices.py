@@ -45,14 +45,27 @@ class ConditionIndicesResult:
     scaling: str = "centred, unit-variance columns (correlation matrix)"
 
 
-def condition_indices_from_covariance(S: FloatArray, names: list[str]) -> ConditionIndicesResult:
-    """Diagnostics from a covariance matrix with a positive diagonal; see :func:`condition_indices`."""
+def _spectrum(S: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray]:
+    """Eigenvalues (descending), eigenvectors, eigenvalues with rounding-level ones set to 0, and the
+    condition indices sqrt(l_max / l_k) of the correlation matrix of the covariance S."""
     R = correlation_from_covariance(S)
     values, vectors = symmetric_eigh(R)
     floor = np.finfo(np.float64).eps * R.shape[0] * values[0]
     clipped = np.where(values > floor, values, 0.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         indices = np.sqrt(values[0] / clipped)
+    return values, vectors, clipped, indices
+
+
+def condition_number_from_covariance(S: FloatArray) -> float:
+    """The largest condition index of the correlation matrix of S (inf when it is singular)."""
+    return float(_spectrum(S)[3][-1])
+
+
+def condition_indices_from_covariance(S: FloatArray, names: list[str]) -> ConditionIndicesResult:
+    """Diagnostics from a covariance matrix with a positive diagonal; see :func:`condition_indices`."""
+    values, vectors, clipped, indices = _spectrum(S)
+    with np.errstate(divide="ignore", invalid="ignore"):
         squares = vectors**2
         phi = np.where(squares > 0, squares / clipped[None, :], 0.0)
     # A zero eigenvalue carries all of the (unbounded) variance of every coefficient it touches.

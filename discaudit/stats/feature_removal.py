@@ -23,7 +23,7 @@ import numpy.typing as npt
 from scipy import linalg
 
 from discaudit.stats._linalg import correlation_from_covariance
-from discaudit.stats.condition_indices import condition_indices_from_covariance
+from discaudit.stats.condition_indices import condition_number_from_covariance
 from discaudit.stats.vif import vif_from_covariance
 
 FloatArray = npt.NDArray[np.float64]
@@ -119,10 +119,10 @@ def _max_vif(S: FloatArray) -> float:
     return float(np.max(vif_from_covariance(S)))
 
 
-def _condition_number(S: FloatArray, names: list[str]) -> float:
+def _condition_number(S: FloatArray) -> float:
     if S.shape[0] < 2:
         return 1.0
-    return float(condition_indices_from_covariance(S, names).condition_number)
+    return condition_number_from_covariance(S)
 
 
 def backward_elimination(
@@ -162,7 +162,7 @@ def backward_elimination(
     keep = list(range(len(names)))
     pool = [names.index(c) for c in candidates if c in names]
     sub = S[np.ix_(keep, keep)]
-    vif0, cond0 = _max_vif(sub), _condition_number(sub, names)
+    vif0, cond0 = _max_vif(sub), _condition_number(sub)
     removed: list[str] = []
     vifs: list[float] = []
     conds: list[float] = []
@@ -176,7 +176,7 @@ def backward_elimination(
         pool.remove(chosen)
         removed.append(names[chosen])
         sub = S[np.ix_(keep, keep)]
-        current_vif, current_cond = _max_vif(sub), _condition_number(sub, [names[i] for i in keep])
+        current_vif, current_cond = _max_vif(sub), _condition_number(sub)
         vifs.append(current_vif)
         conds.append(current_cond)
     reached = current_vif <= vif_limit and current_cond <= condition_limit

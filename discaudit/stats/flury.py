@@ -54,6 +54,7 @@ _MAX_ROTATIONS = 20_000
 #: Grid of angles and safeguarded Newton steps of each 2 x 2 problem.
 _GRID = 64
 _NEWTON_STEPS = 40
+_GRID_ANGLES = np.linspace(0.0, np.pi, _GRID, endpoint=False)
 #: Iterations of the proportional fit (times 10).
 _MAX_INNER = 100
 
@@ -110,24 +111,30 @@ def _pair_angles(T: FloatArray, weights: FloatArray) -> FloatArray:
     neighbouring cells (a bisection step where Newton would leave them).
     """
     a, b, c = T[..., 0, 0], T[..., 0, 1], T[..., 1, 1]
+    half = (a - c) / 2.0
     m2 = ((a + c) / 2.0) ** 2
-    r2 = ((a - c) / 2.0) ** 2 + b**2
-    alpha = np.arctan2(b, (a - c) / 2.0)
-    grid = np.linspace(0.0, np.pi, _GRID, endpoint=False)
-    u = 2.0 * (grid[None, None, :] - alpha[:, :, None])
+    r2 = half**2 + b**2
+    alpha = np.arctan2(b, half)
+    u = 2.0 * (_GRID_ANGLES[None, None, :] - alpha[:, :, None])
     D = np.maximum(m2[:, :, None] - r2[:, :, None] * (1.0 + np.cos(u)) / 2.0, 1e-300)
-    phi = grid[np.argmin(np.einsum("k,pkg->pg", weights, np.log(D)), axis=1)]
+    phi = _GRID_ANGLES[np.argmin(np.einsum("k,pkg->pg", weights, np.log(D)), axis=1)]
     lo, hi = phi - np.pi / _GRID, phi + np.pi / _GRID
+    twice_r2 = 2.0 * r2
     for _ in range(_NEWTON_STEPS):
         u = 2.0 * (phi[:, None] - alpha)
-        D = np.maximum(m2 - r2 * (1.0 + np.cos(u)) / 2.0, 1e-300)
-        g = np.einsum("k,pk->p", weights, r2 * np.sin(u) / D)
-        h = np.einsum("k,pk->p", weights, (2.0 * r2 * np.cos(u) * D - (r2 * np.sin(u)) ** 2) / D**2)
-        lo, hi = np.where(g > 0, lo, phi), np.where(g > 0, phi, hi)  # the minimum lies where f' changes sign
-        step = np.where(h > 0, phi - g / np.where(h > 0, h, 1.0), (lo + hi) / 2.0)
+        cos = np.cos(u)
+        D = np.maximum(m2 - r2 * (1.0 + cos) / 2.0, 1e-300)
+        rs = r2 * np.sin(u)
+        g = np.einsum("k,pk->p", weights, rs / D)
+        h = np.einsum("k,pk->p", weights, (twice_r2 * cos * D - rs**2) / D**2)
+        rising = g > 0
+        lo, hi = np.where(rising, lo, phi), np.where(rising, phi, hi)  # the minimum lies where f' changes sign
+        middle = (lo + hi) / 2.0
+        convex = h > 0
+        step = np.where(convex, phi - g / np.where(convex, h, 1.0), middle)
         # A Newton step onto an end of the bracket is kept: once phi is the root to rounding, the bracket
         # ends at phi and the step returns to it (a strict test bisected some 40 times towards it instead).
-        new = np.where((step >= lo) & (step <= hi), step, (lo + hi) / 2.0)
+        new = np.where((step >= lo) & (step <= hi), step, middle)
         if np.max(np.abs(new - phi)) < 1e-14:
             return np.asarray(new / 2.0, dtype=np.float64)
         phi = new
@@ -195,24 +202,27 @@ def cpc_axes(S: FloatArray, weights: FloatArray) -> tuple[FloatArray, int, bool]
     mean = np.einsum("k,kij->ij", w / w.sum(), S)
     _, B = np.linalg.eigh((mean + mean.T) / 2.0)
     B = B[:, ::-1].copy()
-    rounds = [pairs for pairs in _rounds(p) if pairs]  # none for a single feature: its axis is fixed
+    # The pairs of each round as index arrays (none for a single feature: its axis is fixed).
+    rounds = [
+        (np.array([x for x, _ in pairs], dtype=np.intp), np.array([y for _, y in pairs], dtype=np.intp))
+        for pairs in _rounds(p)
+        if pairs
+    ]
     previous = _cpc_objective(B, S, w)
     sweeps, converged = 0, p < 2
     limit = max(1, min(_MAX_SWEEPS, _MAX_ROTATIONS // max(1, p * (p - 1) // 2)))
     for sweeps in range(1, limit + 1 if rounds else 1):  # noqa: B007 (the count is returned)
         largest_turn = 0.0
-        for pairs in rounds:
-            j = np.array([x for x, _ in pairs], dtype=np.intp)
-            m = np.array([y for _, y in pairs], dtype=np.intp)
-            cols = np.stack([B[:, j], B[:, m]], axis=-1)  # (p, P, 2)
+        for j, m in rounds:
+            Bj, Bm = B[:, j], B[:, m]  # (p, P) copies: the pairs' columns before this round's turns
             C = B.T @ S @ B  # (K, p, p): the matrices in the current axes; the pairs' 2 x 2 blocks are in it
-            T = np.empty((len(pairs), K, 2, 2))
+            T = np.empty((j.size, K, 2, 2))
             T[:, :, 0, 0], T[:, :, 1, 1] = C[:, j, j].T, C[:, m, m].T
             T[:, :, 0, 1] = T[:, :, 1, 0] = C[:, j, m].T
             theta = _pair_angles(T, w)
             cos, sin = np.cos(theta), np.sin(theta)
             largest_turn = max(largest_turn, float(np.max(np.abs(sin))))
-            B[:, j], B[:, m] = cols[..., 0] * cos + cols[..., 1] * sin, cols[..., 1] * cos - cols[..., 0] * sin
+            B[:, j], B[:, m] = Bj * cos + Bm * sin, Bm * cos - Bj * sin
         current = _cpc_objective(B, S, w)
         gain = previous - current
         if largest_turn < _ANGLE_TOL or gain <= _TOL * max(1.0, abs(current)) or gain < _ABS_TOL:

@@ -8,8 +8,13 @@ local minimum (Rousseeuw & Van Driessen 1999); the searches differ in their star
 on nested random subsets first. DetMCD (Hubert, Rousseeuw & Verdonck 2012) uses six
 deterministic robust starts (:mod:`discaudit.stats._detmcd`), which costs far less.
 
-**The default (method="auto") and why.** DetMCD's six starts run next to 50 random starts and
-the lowest raw objective (log det of the raw h-subset covariance) wins. Measured with
+**The default (method="auto") and why.** DetMCD alone where it was measured to reach the
+objective of the combined search, the combined search elsewhere: with at most
+``_DETMCD_ALONE_MAX_FEATURES`` non-constant features and at least ``_DETMCD_ALONE_MIN_ROWS`` rows
+DetMCD's six starts run alone, otherwise next to 50 random starts (``method="combined"``), and the
+lowest raw objective (log det of the raw h-subset covariance) wins. The comment of those
+constants gives the measurement (``python benchmarks/bench_detmcd_rule.py``). The combined
+search against FAST-MCD with 500 random starts, measured with
 ``python benchmarks/bench_mcd.py --compare``: 300 seeded cases (clean Gaussian; 5 % and 20 %
 of the rows shifted; multivariate t(3); 10 % and 20 % of the rows in a tight cluster along the
 direction of least variance; n = 100, 300, 1,000, 3,000, 10,000; p = 2, 5, 10, 20, 30; two
@@ -22,17 +27,17 @@ search                  same  below  above  above by >1e-3  above by
 ======================  ====  =====  =====  ==============  ===========
 FAST-MCD, another seed    39    136    125              40           13
 DetMCD alone              14     89    197              53           23
-default (auto)            28     94    178              35            7
+combined                  28     94    178              35            7
 ======================  ====  =====  =====  ==============  ===========
 
 "Same" is rare for any pair, FAST-MCD against itself included: the objective has many nearly
 equal local minima, and which one a search stops at is partly chance. All differences above
-1e-3 relative occur at n <= 1,000 for FAST-MCD and the default (DetMCD alone: one each at
+1e-3 relative occur at n <= 1,000 for FAST-MCD and the combined search (DetMCD alone: one each at
 n = 3,000 and 10,000). DetMCD alone is above FAST-MCD more often, and on the tight clusters all
 six of its starts, which work in standardized coordinates, can end on subsets that hold the
 cluster: log det up to 0.6 higher and, at n = 10,000, 2,581 rows flagged differently. A cheap
 diagnostic cannot catch that: in those cases the six starts agree (within 3e-4 in log det) on
-the wrong subset. Next to 50 random starts the default is as close to FAST-MCD as FAST-MCD
+the wrong subset. Next to 50 random starts (the combined search) DetMCD is as close to FAST-MCD as FAST-MCD
 with another seed is, or closer (flagged rows: at most 104 differ, in 67 cases more than 1 %
 of n, against 145 and 73 between the two FAST-MCD seeds), at a fraction of the cost
 (``--speed``, one BLAS thread, best of 7: 8.1 against 46.9 ms at n = 500, p = 8; 14.0 against
@@ -40,11 +45,12 @@ of n, against 145 and 73 between the two FAST-MCD seeds), at a fraction of the c
 subsample (n > 1,500) only the best 3 pooled candidates are iterated to convergence
 (``_POOL_KEEP``); on all rows every one is, which on n <= 1,000 lowered the two right-hand
 counts from 43 and 10 (best 3 everywhere) to 35 and 7, for 9.5 instead of 8.3 ms at n = 500,
-p = 8 (at n = 2,000 converging every one would cost 21.7 instead of 14.3 ms). The constants of this rule
-are ``_AUTO_RANDOM_STARTS``, ``_COMBINED_KEEP``, ``_GROUP_KEEP``, ``_POOL_KEEP``,
+p = 8 (at n = 2,000 converging every one would cost 21.7 instead of 14.3 ms). The constants of the combined
+search are ``_AUTO_RANDOM_STARTS``, ``_COMBINED_KEEP``, ``_GROUP_KEEP``, ``_POOL_KEEP``,
 ``_COMBINED_ROWS``, ``_DET_FIT_ROWS`` and ``_COMBINED_FULL`` below; the search itself is
 :meth:`_Search.run_combined`. ``method="random"`` keeps FAST-MCD alone (the default before
-DetMCD), ``method="deterministic"`` DetMCD alone.
+DetMCD), ``method="deterministic"`` DetMCD alone, ``method="combined"`` the combined search
+everywhere (the default before the rule above).
 
 This module needs only numpy and scipy.
 """
@@ -84,12 +90,31 @@ _MAX_GROUPS = 5
 #: Size of the merged set of the nested scheme (1500 in the paper).
 _MERGED_ROWS = _GROUP_ROWS * _MAX_GROUPS
 #: The searches mcd() offers: DetMCD next to a few random starts, DetMCD alone, FAST-MCD alone.
-_METHODS = ("auto", "deterministic", "random")
+_METHODS = ("auto", "combined", "deterministic", "random")
 #: Above this many working rows the six DetMCD estimates are computed on a random part of
 #: this size (their h0-subsets are still taken among all working rows).
 _DET_FIT_ROWS = 600
-#: Random starts that method="auto" runs next to the six DetMCD starts (see mcd Notes).
+#: Random starts that method="combined" (and "auto" outside the rule below) runs next to the six
+#: DetMCD starts (see mcd Notes).
 _AUTO_RANDOM_STARTS = 50
+#: method="auto" runs DetMCD alone, without random starts, on at most this many (non-constant)
+#: features and at least this many rows; elsewhere DetMCD next to 50 random starts. Design choice
+#: on this evidence (``python benchmarks/bench_detmcd_rule.py``, with ``--sizes`` and
+#: ``--features`` for the finer grid): seeded cases of seven kinds (clean Gaussian, 5 % and 20 %
+#: shifted rows, 5 %, 10 % and 20 % tight clusters, multivariate t(3)), DetMCD alone against
+#: DetMCD + 50 random starts with the same seed, raw log det (divisor h). For p = 2, 3, 4 and
+#: n = 800, 1,000, 1,500, 2,500, 5,000, 10,000 (756 cases, six seeds) DetMCD alone ends above by
+#: more than 0.01 in 2 cases (n = 1,000, p = 2), by at most 0.012 (a determinant 1.2 % larger),
+#: and flags at most 8 rows differently; the combined search with another seed ends above
+#: itself by up to 0.003 and flags up to 11 rows differently. There DetMCD alone costs about
+#: half (4.6 against 8.8 ms at n = 800, p = 3; 7.5 against 16.1 ms at n = 1,500, p = 4). Not
+#: elsewhere: at n = 600, p = 3 it is above by up to 0.025 (3 of 42 cases above 0.01); with
+#: p >= 5 the 20 % tight clusters capture all six starts (log det up to 0.66 higher, up to 406
+#: rows flagged differently at n = 1,500, p = 6, 1,309 at n = 10,000, p = 13); and with
+#: n <= 450 it is above by more than 0.01 in 5 % to 80 % of the cases of a cell, clean Gaussian
+#: data included (up to 0.31 at n = 40, p = 2), where the random starts find lower minima.
+_DETMCD_ALONE_MAX_FEATURES = 4
+_DETMCD_ALONE_MIN_ROWS = 800
 #: Rows of the working set of method="auto" (a random subsample when n is larger).
 _COMBINED_ROWS = _MERGED_ROWS
 #: Random candidates kept after their first two C-steps (on up to 600 rows; per group of
@@ -204,7 +229,8 @@ class MCDResult:
     n_reweighted : int
         Rows kept by the reweighting step.
     n_starts : int
-        Random (p+1)-subsets drawn as starts (0 with ``method="deterministic"``).
+        Random (p+1)-subsets drawn as starts (0 with ``method="deterministic"``, and with
+        ``method="auto"`` where it runs DetMCD alone).
     search : str
         Where the C-steps ran: ``"all rows"``; for ``method="random"`` with n > 600
         ``"nested subsets"``; for the other methods with n > 1500 ``"subsample, then all
@@ -226,7 +252,8 @@ class MCDResult:
         Column names (DataFrame columns, else ``x0 .. x{p-1}``), in the order of the
         location vectors and covariance matrices.
     method : str
-        The search that was asked for: ``"auto"``, ``"deterministic"`` or ``"random"``.
+        The search that was asked for: ``"auto"``, ``"combined"``, ``"deterministic"`` or
+        ``"random"``.
     best_start : str
         The start whose C-steps reached the raw subset: one of the six DetMCD starts
         (``"tanh correlation"``, ``"Spearman correlation"``, ``"normal scores correlation"``,
@@ -315,13 +342,17 @@ def mcd(
     cutoff_quantile : float in (0, 1), default 0.975
         Rows with ``distances > chi2_p(cutoff_quantile)`` are flagged in ``outliers``.
     n_starts : int or None, default None
-        Random (p+1)-subsets drawn as starts. None gives 50 for ``method="auto"``, 500 for
-        ``method="random"`` (as Rousseeuw & Van Driessen 1999) and 0 for
-        ``method="deterministic"``.
-    method : {"auto", "deterministic", "random"}, default "auto"
+        Random (p+1)-subsets drawn as starts. None gives, for ``method="auto"``, 0 with at
+        most 4 non-constant features and at least 800 rows and 50 otherwise; 50 for
+        ``method="combined"``, 500 for ``method="random"`` (as Rousseeuw & Van Driessen 1999)
+        and 0 for ``method="deterministic"``. A number given with ``method="auto"`` runs the
+        combined search with that many random starts.
+    method : {"auto", "combined", "deterministic", "random"}, default "auto"
         The search (see Notes): the six deterministic starts of DetMCD next to ``n_starts``
-        random starts, the lowest objective winning (``"auto"``); DetMCD alone
-        (``"deterministic"``); FAST-MCD alone (``"random"``, the default before DetMCD).
+        random starts, the lowest objective winning (``"combined"``); DetMCD alone
+        (``"deterministic"``); FAST-MCD alone (``"random"``, the default before DetMCD);
+        ``"auto"`` is DetMCD alone where it was measured to reach the combined search's
+        objective (p <= 4, n >= 800) and the combined search elsewhere.
 
     Returns
     -------
@@ -348,7 +379,13 @@ def mcd(
 
     Notes
     -----
-    **Default search (method="auto").** The rows are first put in lexicographic order of
+    **Default search (method="auto").** DetMCD alone (below) with at most 4 non-constant
+    features and at least 800 rows, where on seeded clean, shifted, clustered and
+    heavy-tailed data it reached the combined search's raw objective as closely as that
+    search with another seed reaches its own; the combined search otherwise. The module
+    docstring and the comment of ``_DETMCD_ALONE_MAX_FEATURES`` give the measurement.
+
+    **Combined search (method="combined").** The rows are first put in lexicographic order of
     their values (first column first), and every step below runs on that order, so the result
     does not depend on the order of the input rows. The work runs on a working set of
     m = min(n, 1500) rows (all rows, or a random subsample). DetMCD (Hubert, Rousseeuw &
@@ -367,7 +404,7 @@ def mcd(
     1e-6) when m < n; candidates that meet on one subset share one path. If m < n, the best 2 get two C-steps on
     all rows and the better is iterated to convergence there (for n >= 40,000 after a stage on
     min(20,000, n // 3) rows, as below). The lowest log det wins; ``best_start`` says which
-    start reached it. The module docstring gives the measurements behind this rule: DetMCD
+    start reached it. The module docstring gives the measurements behind this search: DetMCD
     alone stops above FAST-MCD's objective more often, and is fooled by tight clusters of
     outliers that its coordinate-wise starts cannot see; 50 random starts put that right.
 
@@ -544,6 +581,8 @@ def mcd(
     power = _binary_exponents(sub)
     if power.any():
         sub = np.ldexp(sub, -power)  # exact: powers of two only change exponents
+    if starts is None:  # method="auto" with the default number of starts: the measured rule
+        starts = _auto_random_starts(n, sub.shape[1])
     order = _canonical_order(sub)
     # The small-sample factors are functions of the nominal fraction: 0.5 for the default h.
     alpha = (0.5 if support_fraction is None else float(support_fraction)) if finite_sample_correction else None
@@ -648,14 +687,26 @@ def _check_method(method: str) -> str:
     return method
 
 
-def _check_starts(n_starts: int | None, method: str) -> int:
+def _check_starts(n_starts: int | None, method: str) -> int | None:
+    """The number of random starts asked for; None for method="auto" without ``n_starts`` (see
+    :func:`_auto_random_starts`)."""
     if n_starts is None:
-        return {"auto": _AUTO_RANDOM_STARTS, "random": _N_STARTS, "deterministic": 0}[method]
+        return {"auto": None, "combined": _AUTO_RANDOM_STARTS, "random": _N_STARTS, "deterministic": 0}[method]
     if isinstance(n_starts, bool) or not isinstance(n_starts, (int, np.integer)) or n_starts < 0:
         raise DataError(f"n_starts must be a non-negative integer or None; got {n_starts!r}.")
     if n_starts == 0 and method == "random":
         raise DataError("n_starts must be positive with method='random' (500 is usual).")
     return int(n_starts)
+
+
+def _auto_random_starts(n: int, p: int) -> int:
+    """Random starts of method="auto": none (DetMCD alone) for p <= 4 and n >= 800, else 50.
+
+    ``p`` counts the non-constant columns the search runs on. See the module notes for the
+    measurement behind the rule.
+    """
+    alone = p <= _DETMCD_ALONE_MAX_FEATURES and n >= _DETMCD_ALONE_MIN_ROWS
+    return 0 if alone else _AUTO_RANDOM_STARTS
 
 
 def _resolve_seed(random_state: int | None) -> int:

@@ -6,7 +6,9 @@ Run from the repository root::
     Rscript tests/reference/make_mcd_reference.R
 
 Data sets: Fisher's iris per species and the UCI wine data per cultivar (both shipped by
-scikit-learn), and one invented, seeded data set with heavy tails and a cluster of outliers.
+scikit-learn), one invented, seeded data set with heavy tails and a cluster of outliers, and one
+larger invented data set with shifted rows in the size range where the default search is
+DetMCD alone.
 Each CSV has a header row with the column names and full float64 precision (repr).
 """
 
@@ -31,6 +33,19 @@ def invented() -> np.ndarray:
     return X
 
 
+def invented_large() -> np.ndarray:
+    """1,000 rows, p = 3: correlated Gaussian rows with 10 % of them shifted and scattered.
+
+    Size and dimension where ``mcd(method="auto")`` runs DetMCD alone (p <= 4, n >= 800).
+    """
+    rng = np.random.default_rng(20120619)
+    p = 3
+    A = rng.standard_normal((p, p)) / np.sqrt(p) + np.eye(p)
+    X = rng.standard_normal((1000, p)) @ A
+    X[:100] += np.array([5.0, -4.0, 3.0]) + rng.standard_normal((100, p))
+    return X
+
+
 def datasets() -> dict[str, tuple[np.ndarray, list[str]]]:
     iris, wine = load_iris(), load_wine()
     out: dict[str, tuple[np.ndarray, list[str]]] = {}
@@ -39,6 +54,7 @@ def datasets() -> dict[str, tuple[np.ndarray, list[str]]]:
     for k in range(3):
         out[f"wine_class{k}"] = (wine.data[wine.target == k], list(wine.feature_names))
     out["invented_t3_cluster"] = (invented(), [f"x{j}" for j in range(5)])
+    out["invented_p3_shifted"] = (invented_large(), [f"x{j}" for j in range(3)])
     return out
 
 
