@@ -116,10 +116,13 @@ def test_a_default_gate_passes_where_some_candidate_is_safe(open_verdicts) -> No
         assert gate.fit_for == safe, name
         assert gate.passed == bool(safe), name
     passed = {name for name, v in open_verdicts.items() if _gate(v).passed}
-    # The drug trial (36 rows): no candidate beats always choosing the largest class. spector (32 rows) is at
-    # the edge: with its seeded row keys, logistic regression's five folds put it 2 SE above that rule.
-    assert passed == {"iris", "wine", "breast_cancer", "anes96", "penguins", "heart", "spector"}
-    assert _gate(open_verdicts["spector"]).fit_for == ["logistic_regression"]
+    # The drug trial (36 rows) and spector (32 rows): no candidate predicts better than always choosing the
+    # largest class by two standard errors. On spector every candidate is scored by leave-one-out (no fold
+    # luck); the best, LDA at 78.1% against 65.6%, is under two standard errors above that rule.
+    assert passed == {"iris", "wine", "breast_cancer", "anes96", "penguins", "heart"}
+    spector = open_verdicts["spector"].findings["expected_performance"].details
+    assert spector["beats_majority_rule"] is False
+    assert {c["n_scored"] for c in spector["candidates"].values()} == {32}
 
 
 def test_findings_that_do_not_bear_on_a_model_do_not_fail_it(open_verdicts) -> None:
