@@ -457,3 +457,17 @@ def test_the_handed_out_shrinkage_lda_is_the_scored_one() -> None:
     est = build_estimator("regularized_lda", scored["settings"])
     brute = cross_val_score(est, X, y, cv=LeaveOneOut()).mean()
     assert abs(brute - scored["accuracy"]) <= 1.0 / y.size + 1e-12
+
+
+def test_row_log_sum_exp_matches_scipy_including_infinite_rows() -> None:
+    # Reference: scipy.special.logsumexp(axis=1), which the leave-one-out log-loss used before.
+    from scipy.special import logsumexp
+
+    from discaudit.stats._linalg import row_log_sum_exp
+
+    rng = np.random.default_rng(11)
+    scores = rng.normal(scale=400.0, size=(500, 4))  # spreads of hundreds: exp would overflow unshifted
+    scores[3] = -np.inf
+    scores[4, 1] = np.inf
+    scores[5, :2] = -np.inf
+    np.testing.assert_allclose(row_log_sum_exp(scores), logsumexp(scores, axis=1), rtol=1e-14, atol=0)

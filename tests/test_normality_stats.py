@@ -107,16 +107,25 @@ class TestMardiaFormulas:
         assert (res.n_used, res.n_total, res.n_features, res.random_state) == (80, 80, 3, None)
         assert res.covariance_divisor == "n" and not res.subsampled
 
-    def test_iris_setosa_worked_example_from_memory(self):
-        # FROM MEMORY (not re-checked against the source): the documentation of the R package MVN
-        # (Korkmaz, Goksuluk & Zararsiz 2014, The R Journal 6(2):151-162) reports Mardia's test on
-        # the iris setosa measurements as skewness statistic 25.66 (p = 0.177) and kurtosis
-        # statistic 1.295 (p = 0.195). Tolerances reflect the digits remembered.
-        res = mardia(_iris_species()[0])
-        assert res.skew_statistic == pytest.approx(25.66, abs=0.01)
-        assert res.skew_p_value == pytest.approx(0.177, abs=0.001)
-        assert res.kurt_statistic == pytest.approx(1.295, abs=0.001)
-        assert res.kurt_p_value == pytest.approx(0.195, abs=0.001)
+    # Stored reference: R 4.x, psych 2.2.9 (Debian's r-cran-psych), on R's own iris data:
+    #   m <- psych::mardia(iris[iris$Species == s, 1:4], plot = FALSE); c(m$b1p, m$b2p)
+    # psych estimates the covariance with divisor n - 1 and Mardia (1970) with divisor n, so with
+    # r = n / (n - 1): b1,p (divisor n) = r^3 b1,p (psych) and b2,p (divisor n) = r^2 b2,p (psych).
+    # At setosa these give the skewness statistic 25.66 and kurtosis statistic 1.295 that the
+    # documentation of the R package MVN (Korkmaz, Goksuluk & Zararsiz 2014) reports.
+    PSYCH_IRIS = {0: (2.8986090897, 25.4867649774), 1: (2.8444717653, 21.9733521108), 2: (2.9670812205, 23.3368186483)}
+
+    @pytest.mark.parametrize("species", [0, 1, 2])
+    def test_iris_species_match_r_psych(self, species):
+        b1_psych, b2_psych = self.PSYCH_IRIS[species]
+        X = _iris_species()[species]
+        r = X.shape[0] / (X.shape[0] - 1.0)
+        res = mardia(X)
+        assert res.skewness == pytest.approx(r**3 * b1_psych, rel=1e-9)
+        assert res.kurtosis == pytest.approx(r**2 * b2_psych, rel=1e-9)
+        if species == 0:
+            assert res.skew_statistic == pytest.approx(25.66, abs=0.01)
+            assert res.kurt_statistic == pytest.approx(1.295, abs=0.001)
 
 
 class TestHenzeZirklerReference:
@@ -280,3 +289,35 @@ class TestDegenerateInput:
         X = _skewed_sample(50, 2, seed=46)
         with pytest.raises(DataError, match="random_state"):
             func(X, max_rows=10, random_state="abc")
+
+
+class TestOnePassOverThePairs:
+    """mardia_and_henze_zirkler shares one whitening and one pass over the pairs; it must equal the two
+    functions it replaces in an audit (and so inherit their checks against pingouin and the definitions)."""
+
+    @pytest.mark.parametrize("case", ["iris_setosa", "wine", "subsampled", "many_blocks"])
+    def test_equals_mardia_and_henze_zirkler_called_apart(self, case, monkeypatch):
+        from discaudit.stats.normality_tests import mardia_and_henze_zirkler
+
+        kwargs: dict = {}
+        if case == "iris_setosa":
+            X = _iris_species()[0]
+        elif case == "wine":
+            X = load_wine().data[:, :8]
+        elif case == "subsampled":
+            X, kwargs = _skewed_sample(900, 4, seed=41), {"max_rows": 300, "random_state": 3}
+        else:
+            monkeypatch.setattr(sampling_module, "_BLOCK_ELEMENTS", 400)
+            X = _skewed_sample(160, 3, seed=42)
+            assert len(sampling_module.row_blocks(160)) > 20
+        m, hz = mardia_and_henze_zirkler(X, **kwargs)
+        assert m == mardia(X, **kwargs)
+        assert hz == henze_zirkler(X, **kwargs)
+
+    def test_errors_name_both_statistics(self):
+        from discaudit.stats.normality_tests import mardia_and_henze_zirkler
+
+        X = _skewed_sample(50, 3, seed=43)
+        X[:, 1] = 2.0
+        with pytest.raises(DataError, match="Mardia's and the Henze-Zirkler statistics.*constant"):
+            mardia_and_henze_zirkler(X)

@@ -25,8 +25,7 @@ from discaudit.findings import Finding, fmt, fmt_p, names, sentence
 from discaudit.jsonable import label
 from discaudit.stats._linalg import mahalanobis_sq
 from discaudit.stats._sampling import subsample_rows
-from discaudit.stats.henze_zirkler import henze_zirkler
-from discaudit.stats.mardia import mardia
+from discaudit.stats.normality_tests import mardia_and_henze_zirkler
 from discaudit.stats.seeds import NORMALITY, class_seeds
 
 if TYPE_CHECKING:
@@ -139,8 +138,7 @@ def _class_shape(
         "strongest_excess_kurtosis": _top(kurt, features, absolute=False),
     }
     named = pd.DataFrame(pair_rows, columns=list(features), copy=False)  # errors then name the features
-    m = mardia(named, max_rows=pair_rows.shape[0])
-    hz = henze_zirkler(named, max_rows=pair_rows.shape[0])
+    m, hz = mardia_and_henze_zirkler(named, max_rows=pair_rows.shape[0])
     p = pair_rows.shape[1]
     out.update(
         {
@@ -392,35 +390,40 @@ def _qq_arrays(
     seeds: list[int],
     max_rows: int,
 ) -> dict[str, Any]:
-    """Per row: classical squared distance from its class mean and covariance on the tested features.
+    """For the Q-Q plot: classical squared distances from the class mean and covariance on the tested features.
 
-    For the Q-Q plot: a class with more than ``max_rows`` rows gets distances for a seeded subsample
-    of that many (drawn in the canonical order, NaN elsewhere), which is plenty for a Q-Q plot.
+    One entry per plotted row (``row_label``, ``class``, ``classical_squared_distance``,
+    ``flagged``): every row of a class of at most ``max_rows`` rows, a seeded subsample of that
+    many (drawn in the canonical order) of a larger one, which is plenty for a Q-Q plot and keeps
+    the verdict's memory independent of n. A class too small or with a singular covariance has
+    no entries.
     """
-    n = data.n
-    d = np.full(n, np.nan)
-    flagged = np.zeros(n, dtype=bool)
     idx = np.asarray(continuous, dtype=np.intp)
     m = data.moments
+    plotted: list[np.ndarray] = []
+    distances: list[np.ndarray] = []
+    marks: list[np.ndarray] = []
     for k in range(len(data.classes)):
         rows = data.class_rows(k)
-        flagged[rows] = flags[k]
         if idx.size == 0 or rows.size <= idx.size:
             continue
-        chosen = rows
-        if rows.size > max_rows:
-            canon = rows[orders[k]]
-            chosen = np.sort(canon[np.random.default_rng(seeds[k]).choice(canon.size, max_rows, replace=False)])
         cov = m.class_covariances()[k][np.ix_(idx, idx)]
         if not np.all(np.isfinite(cov)):
             continue
-        got = mahalanobis_sq(np.take(data.values, chosen, axis=0)[:, idx], m.means[k][idx], cov)
+        chosen = np.arange(rows.size)
+        if rows.size > max_rows:
+            canon = orders[k]
+            chosen = np.sort(canon[np.random.default_rng(seeds[k]).choice(canon.size, max_rows, replace=False)])
+        got = mahalanobis_sq(np.take(data.values, rows[chosen], axis=0)[:, idx], m.means[k][idx], cov)
         if got is not None:
-            d[chosen] = got
+            plotted.append(rows[chosen])
+            distances.append(got)
+            marks.append(flags[k][chosen])
+    at = np.concatenate(plotted) if plotted else np.zeros(0, dtype=np.intp)
     return {
-        "row_label": data.row_labels,
-        "class": np.asarray(data.classes, dtype=object)[data.codes],
-        "classical_squared_distance": d,
-        "flagged": flagged,
+        "row_label": data.row_labels[at],
+        "class": np.asarray(data.classes, dtype=object)[data.codes[at]],
+        "classical_squared_distance": np.concatenate(distances) if distances else np.zeros(0),
+        "flagged": np.concatenate(marks) if marks else np.zeros(0, dtype=bool),
         "df": int(idx.size),
     }

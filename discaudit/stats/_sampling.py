@@ -23,6 +23,35 @@ def row_blocks(n: int) -> list[tuple[int, int]]:
     return [(start, min(start + size, n)) for start in range(0, n, size)]
 
 
+def pair_sums(Z: FloatMatrix, *, cubes: bool, kernel_b2: float | None) -> tuple[float, float]:
+    """Sums over all ordered pairs (i, j) of rows of whitened data, from one pass over the Gram blocks.
+
+    ``cubes``: sum (z_i' z_j)^3 (Mardia's skewness times n^2). ``kernel_b2``: with b2 given,
+    sum exp(-b2/2 ||z_i - z_j||^2) (the pair term of the Henze-Zirkler statistic). Each block of
+    the upper triangle of Z Z' is formed once and serves both; off-diagonal blocks count twice.
+    A sum not asked for is NaN.
+    """
+    n = Z.shape[0]
+    sq_norm = np.einsum("ij,ij->i", Z, Z)
+    cubed, kernel = 0.0, 0.0
+    for start, stop in row_blocks(n):
+        G = Z[start:stop] @ Z[start:].T
+        width = stop - start
+        if cubes:
+            C = G * G
+            C *= G
+            cubed += float(C[:, :width].sum()) + 2.0 * float(C[:, width:].sum())
+        if kernel_b2 is not None:
+            G *= -2.0
+            G += sq_norm[start:stop, None]
+            G += sq_norm[None, start:]
+            np.maximum(G, 0.0, out=G)
+            G *= -0.5 * kernel_b2
+            np.exp(G, out=G)
+            kernel += float(G[:, :width].sum()) + 2.0 * float(G[:, width:].sum())
+    return (cubed if cubes else float("nan"), kernel if kernel_b2 is not None else float("nan"))
+
+
 def subsample_rows(
     n: int, max_rows: int, random_state: int | None, *, min_rows: int
 ) -> tuple[npt.NDArray[np.intp] | None, int | None]:

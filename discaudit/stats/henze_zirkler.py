@@ -9,7 +9,7 @@ import numpy as np
 from scipy import stats as sp_stats
 
 from discaudit.stats._inputs import FloatMatrix, as_matrix
-from discaudit.stats._sampling import row_blocks, subsample_rows, whiten
+from discaudit.stats._sampling import pair_sums, subsample_rows, whiten
 
 __all__ = ["HenzeZirklerResult", "henze_zirkler"]
 
@@ -157,11 +157,28 @@ def henze_zirkler(X: Any, *, max_rows: int = 5000, random_state: int | None = No
     data = values if rows is None else values[rows]
     n = data.shape[0]
     Z = whiten(data, names, statistic="The Henze-Zirkler statistic", subsampled=rows is not None)
+    _, pair_sum = pair_sums(Z, cubes=False, kernel_b2=smoothing(n, p) ** 2)
+    return henze_zirkler_from_whitened(Z, pair_sum, n_total=n_total, random_state=seed, max_rows=max_rows)
 
-    beta = (1.0 / np.sqrt(2.0)) * ((2.0 * p + 1.0) * n / 4.0) ** (1.0 / (p + 4.0))
+
+def smoothing(n: int, p: int) -> float:
+    """Henze and Zirkler's smoothing parameter beta = (1 / sqrt 2) ((2p + 1) n / 4)^(1 / (p + 4))."""
+    return float((1.0 / np.sqrt(2.0)) * ((2.0 * p + 1.0) * n / 4.0) ** (1.0 / (p + 4.0)))
+
+
+def henze_zirkler_from_whitened(
+    Z: FloatMatrix, pair_sum: float, *, n_total: int, random_state: int | None, max_rows: int
+) -> HenzeZirklerResult:
+    """The Henze-Zirkler test from whitened rows ``Z`` and the pair term of its statistic.
+
+    ``Z`` as :func:`discaudit.stats._sampling.whiten` returns it; ``pair_sum`` is
+    sum_{i,j} exp(-beta^2 ||z_i - z_j||^2 / 2) with beta = :func:`smoothing` (n, p), from
+    :func:`discaudit.stats._sampling.pair_sums`. The rest describe the rows ``Z`` came from.
+    """
+    n, p = Z.shape
+    beta = smoothing(n, p)
     b2 = beta * beta
     sq_dist = np.einsum("ij,ij->i", Z, Z)
-    pair_sum = _sum_pair_kernel(Z, sq_dist, b2)
     centre_sum = float(np.sum(np.exp(-b2 / (2.0 * (1.0 + b2)) * sq_dist)))
     statistic = pair_sum / n - 2.0 * (1.0 + b2) ** (-p / 2.0) * centre_sum + n * (1.0 + 2.0 * b2) ** (-p / 2.0)
 
@@ -192,23 +209,7 @@ def henze_zirkler(X: Any, *, max_rows: int = 5000, random_state: int | None = No
         n_used=int(n),
         n_total=int(n_total),
         n_features=int(p),
-        random_state=seed,
+        random_state=random_state,
         max_rows=int(max_rows),
     )
 
-
-def _sum_pair_kernel(Z: FloatMatrix, sq_norm: np.ndarray, b2: float) -> float:
-    """sum_{i,j} exp(-b2/2 ||z_i - z_j||^2) over all ordered pairs, in blocks (upper triangle x 2)."""
-    n = Z.shape[0]
-    total = 0.0
-    for start, stop in row_blocks(n):
-        K = Z[start:stop] @ Z[start:].T
-        K *= -2.0
-        K += sq_norm[start:stop, None]
-        K += sq_norm[None, start:]
-        np.maximum(K, 0.0, out=K)
-        K *= -0.5 * b2
-        np.exp(K, out=K)
-        width = stop - start
-        total += float(K[:, :width].sum()) + 2.0 * float(K[:, width:].sum())
-    return total

@@ -16,10 +16,9 @@ from typing import Literal
 
 import numpy as np
 import numpy.typing as npt
-from scipy.special import logsumexp
 
 from discaudit.errors import DataError
-from discaudit.stats._linalg import symmetric_eigh
+from discaudit.stats._linalg import row_log_sum_exp, symmetric_eigh
 from discaudit.stats.blocks import ROW_BLOCK
 
 FloatArray = npt.NDArray[np.float64]
@@ -563,7 +562,7 @@ class LeaveOneOutScorer:
         def record(j: int, scores: FloatArray, fail: BoolArray) -> None:
             fails[:, j] = fail
             correct[:, j] = (np.argmax(scores, axis=1) == ca) & ~fail
-            nll[:, j] = np.where(fail, 0.0, logsumexp(scores, axis=1) - scores[rows, ca])
+            nll[:, j] = np.where(fail, 0.0, row_log_sum_exp(scores) - scores[rows, ca])
 
         shared: tuple[FloatArray, FloatArray, FloatArray] | None = None  # rotation shared by the shrinkage values
         for j, (model, setting) in enumerate(zip(self.models, self.settings, strict=True)):

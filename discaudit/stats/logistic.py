@@ -23,6 +23,7 @@ from scipy.optimize import minimize
 from scipy.special import expit
 
 from discaudit.errors import DataError
+from discaudit.stats._linalg import row_log_sum_exp
 from discaudit.stats._sampling import resolve_seed
 from discaudit.stats.row_keys import row_keys
 from discaudit.stats.seeds import LOGISTIC_CV
@@ -150,9 +151,7 @@ class LogisticFit:
 def _log_proba(scores: FloatArray, n_classes: int) -> FloatArray:
     if n_classes == 2:
         return np.column_stack([-np.logaddexp(0.0, scores), -np.logaddexp(0.0, -scores)])
-    top = scores.max(axis=1, keepdims=True)
-    shifted = scores - top
-    return np.asarray(shifted - np.log(np.exp(shifted).sum(axis=1, keepdims=True)), dtype=np.float64)
+    return np.asarray(scores - row_log_sum_exp(scores)[:, None], dtype=np.float64)
 
 
 def _predict(scores: FloatArray, n_classes: int) -> IntArray:

@@ -1,8 +1,8 @@
 """Mardia's multivariate skewness and kurtosis.
 
-Also holds the private helpers shared by the pairwise normality statistics (seed handling,
-the seeded row subsample and the whitening of the data), so that Mardia's and
-Henze-Zirkler's statistics see the same rows and the same definition of the covariance.
+The seeded row subsample, the whitening and the pass over the pairs of rows are shared with the
+Henze-Zirkler statistic (:mod:`discaudit.stats._sampling`), so both see the same rows and the same
+definition of the covariance.
 """
 
 from __future__ import annotations
@@ -14,15 +14,9 @@ import numpy as np
 from scipy import stats as sp_stats
 
 from discaudit.stats._inputs import FloatMatrix, as_matrix
-from discaudit.stats._sampling import row_blocks, subsample_rows, whiten
+from discaudit.stats._sampling import pair_sums, subsample_rows, whiten
 
 __all__ = ["MardiaResult", "mardia"]
-
-#: Elements of one block of pairwise products (8 MiB of float64); blocks never grow to n x n.
-
-#: Smallest ratio of the smallest to the largest singular value of the standardized, centred
-#: data that is still treated as full rank. Below it the whitening would lose more than about
-#: six significant digits, so the covariance is reported as singular instead.
 
 
 @dataclass(frozen=True)
@@ -172,9 +166,22 @@ def mardia(X: Any, *, max_rows: int = 5000, random_state: int | None = None) -> 
     data = values if rows is None else values[rows]
     n = data.shape[0]
     Z = whiten(data, names, statistic="Mardia's statistics", subsampled=rows is not None)
+    cubed, _ = pair_sums(Z, cubes=True, kernel_b2=None)
+    return mardia_from_whitened(Z, cubed, n_total=n_total, random_state=seed, max_rows=max_rows)
 
+
+def mardia_from_whitened(
+    Z: FloatMatrix, cubed_sum: float, *, n_total: int, random_state: int | None, max_rows: int
+) -> MardiaResult:
+    """Mardia's statistics from whitened rows ``Z`` and sum_{i,j} (z_i' z_j)^3 over their pairs.
+
+    ``Z`` as :func:`discaudit.stats._sampling.whiten` returns it (mean 0, Z'Z / n = I);
+    ``cubed_sum`` from :func:`discaudit.stats._sampling.pair_sums`. The rest describe the rows
+    ``Z`` came from (as :func:`mardia` records them).
+    """
+    n, p = Z.shape
     sq_dist = np.einsum("ij,ij->i", Z, Z)
-    skewness = _sum_cubed_inner_products(Z) / n**2
+    skewness = cubed_sum / n**2
     kurtosis = float(np.mean(sq_dist**2))
 
     skew_df = p * (p + 1) * (p + 2) // 6
@@ -193,19 +200,6 @@ def mardia(X: Any, *, max_rows: int = 5000, random_state: int | None = None) -> 
         n_used=int(n),
         n_total=int(n_total),
         n_features=int(p),
-        random_state=seed,
+        random_state=random_state,
         max_rows=int(max_rows),
     )
-
-
-def _sum_cubed_inner_products(Z: FloatMatrix) -> float:
-    """sum_{i,j} (z_i' z_j)^3 over all ordered pairs, in blocks of rows (upper triangle x 2)."""
-    n = Z.shape[0]
-    total = 0.0
-    for start, stop in row_blocks(n):
-        G = Z[start:stop] @ Z[start:].T
-        cube = G * G
-        cube *= G
-        width = stop - start
-        total += float(cube[:, :width].sum()) + 2.0 * float(cube[:, width:].sum())
-    return total
