@@ -383,13 +383,14 @@ class Verdict:
         if not arrays:
             return pd.DataFrame(columns=columns)
         mask = arrays["flagged"]
+        code = arrays["code"][mask]
         frame = pd.DataFrame(
             {
-                "class": arrays["class"][mask],
+                "class": arrays["classes"][code],
                 "squared_distance": arrays["squared_distance"][mask],
                 "classical_squared_distance": arrays["classical_squared_distance"][mask],
-                "cutoff": arrays["cutoff"][mask],
-                "far_out_fence": arrays["fence"][mask],
+                "cutoff": arrays["class_cutoff"][code],
+                "far_out_fence": arrays["class_fence"][code],
             },
             index=arrays["row_label"][mask],
         )

@@ -158,7 +158,7 @@ def test_outlier_qq_positions_match_statsmodels(demo, outlier_figure):
     for k, name in enumerate(demo.meta["classes"]):
         (points,) = _gids(ax, f"qq:{k}")
         xy = points.get_offsets()
-        d = arrays["squared_distance"][np.asarray(arrays["class"] == name)]
+        d = arrays["squared_distance"][arrays["classes"][arrays["code"]] == name]
         assert len(demo.findings["outliers"].details["per_class"][name]["features_used"]) == p
         # statsmodels' plotting positions (i - a) / (n + 1 - 2a) with a = 0.5 are (i - 0.5) / n
         reference = ProbPlot(d, dist=sps.chi2, distargs=(p,), a=0.5, fit=False).theoretical_quantiles

@@ -15,7 +15,7 @@ from __future__ import annotations
 import dataclasses
 import functools
 import operator
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
@@ -147,19 +147,32 @@ def _without(data: AuditData, k: int, out: np.ndarray) -> tuple[np.ndarray | Non
     return _kept_from_out(data.moments, k, out.size, total_out, cross_out, direct)
 
 
+def _per_class_lines(classes: Any, fits: Sequence[ClassFit]) -> dict[str, Any]:
+    """The per-class entries of the outlier arrays: class labels, cut-offs, far-out fences and df.
+
+    Indexed by the class code each row carries (``code``), so the per-row arrays hold only what
+    differs from row to row. A class without a fit keeps an infinite cut-off and fence and df 0.
+    """
+    K = len(classes)
+    cutoff, fence, df = np.full(K, np.inf), np.full(K, np.inf), np.zeros(K, dtype=np.int64)
+    for fit in fits:
+        cutoff[fit.code] = fit.cutoff
+        fence[fit.code] = fit.fence.fence if fit.fence is not None else np.inf
+        df[fit.code] = fit.df
+    return {"classes": np.asarray(classes, dtype=object), "class_cutoff": cutoff, "class_fence": fence, "class_df": df}
+
+
 def _score_held(data: AuditData, rf: RobustFits) -> tuple[list[ClassOutcome], dict[str, Any]]:
     """Outcomes and per-row arrays for the rows held in ``data``."""
     n = data.n
     arrays: dict[str, Any] = {
         "row_label": data.row_labels,
-        "class": np.asarray(data.classes, dtype=object)[data.codes],
+        "code": data.codes,
         "squared_distance": np.zeros(n),
         "classical_squared_distance": np.full(n, np.nan),
-        "cutoff": np.full(n, np.inf),
-        "fence": np.full(n, np.inf),
-        "df": np.zeros(n, dtype=np.int64),
         "beyond_cutoff": np.zeros(n, dtype=bool),
         "flagged": np.zeros(n, dtype=bool),
+        **_per_class_lines(data.classes, rf.fits),
     }
     outcomes = []
     m = data.moments
@@ -182,9 +195,6 @@ def _score_held(data: AuditData, rf: RobustFits) -> tuple[list[ClassOutcome], di
     ):
         arrays["squared_distance"][rows] = d
         arrays["classical_squared_distance"][rows] = d_classical
-        arrays["cutoff"][rows] = fit.cutoff
-        arrays["fence"][rows] = fit.fence.fence if fit.fence is not None else np.inf
-        arrays["df"][rows] = fit.df
         arrays["beyond_cutoff"][rows] = beyond
         arrays["flagged"][rows] = flagged
         kept_mean = kept_scatter = None
@@ -241,7 +251,7 @@ class OutlierTally:
         )
 
 
-_FLAGGED_COLUMNS = ["row_label", "class", "squared_distance", "classical_squared_distance", "cutoff", "fence", "df"]
+_FLAGGED_COLUMNS = ["row_label", "code", "squared_distance", "classical_squared_distance"]
 
 
 @dataclass(frozen=True)
@@ -304,12 +314,9 @@ def _tally_block(scoring: _Scoring, block: RowBlock) -> OutlierTally:
             pd.DataFrame(
                 {
                     "row_label": block.row_labels[rows][flags],
-                    "class": moments.classes[fit.code],
+                    "code": fit.code,
                     "squared_distance": d[flags],
                     "classical_squared_distance": d_classical[flags],
-                    "cutoff": fit.cutoff,
-                    "fence": fit.fence.fence if fit.fence is not None else np.inf,
-                    "df": fit.df,
                 }
             )
         )
@@ -374,14 +381,12 @@ def _score_tally(
     n = len(rows)
     arrays = {
         "row_label": pd.Index(rows["row_label"]),
-        "class": rows["class"].to_numpy(dtype=object),
+        "code": rows["code"].to_numpy(dtype=np.intp),
         "squared_distance": rows["squared_distance"].to_numpy(dtype=float),
         "classical_squared_distance": rows["classical_squared_distance"].to_numpy(dtype=float),
-        "cutoff": rows["cutoff"].to_numpy(dtype=float),
-        "fence": rows["fence"].to_numpy(dtype=float),
-        "df": rows["df"].to_numpy(dtype=np.int64),
         "beyond_cutoff": np.ones(n, dtype=bool),
         "flagged": np.ones(n, dtype=bool),
+        **_per_class_lines(m.classes, scoring.fits),
         "fits": scoring.fits,
     }
     return outcomes, arrays

@@ -321,12 +321,13 @@ def _flagged_rows(finding: Finding) -> dict[str, list[tuple[Any, float]]]:
     """
     a = finding.arrays or {}
     d = a.get("distance", a.get("squared_distance"))
-    if d is not None and "flagged" in a and "row_label" in a and "cutoff" in a and "class" in a:
+    if d is not None and all(k in a for k in ("flagged", "row_label", "code", "classes", "class_cutoff")):
         flagged = np.flatnonzero(np.asarray(a["flagged"], dtype=bool))
+        code = np.asarray(a["code"])[flagged]
         out: dict[str, list[tuple[Any, float]]] = {}
-        ratio = np.asarray(d, dtype=float)[flagged] / np.asarray(a["cutoff"], dtype=float)[flagged]
-        for i, r in zip(flagged, ratio, strict=True):
-            out.setdefault(str(label(a["class"][i])), []).append((label(a["row_label"][i]), float(r)))
+        ratio = np.asarray(d, dtype=float)[flagged] / np.asarray(a["class_cutoff"], dtype=float)[code]
+        for i, k, r in zip(flagged, code, ratio, strict=True):
+            out.setdefault(str(label(a["classes"][k])), []).append((label(a["row_label"][i]), float(r)))
         return out
     out = {}
     for cls, info in (finding.details.get("per_class") or {}).items():

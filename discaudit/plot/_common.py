@@ -114,6 +114,19 @@ def class_groups(verdict: Any, classes: Any) -> list[tuple[int, str, np.ndarray]
     return sorted(out, key=lambda t: t[0])
 
 
+def code_groups(verdict: Any, codes: Any, classes: Any) -> list[tuple[int, str, np.ndarray]]:
+    """As :func:`class_groups`, for rows that carry class codes into ``classes`` (no per-row labels)."""
+    codes = np.asarray(codes, dtype=np.intp)
+    meta_classes = [str(c) for c in verdict.meta.get("classes", [])]
+    out = []
+    present = np.flatnonzero(np.bincount(codes, minlength=len(classes))) if codes.size else np.zeros(0, dtype=np.intp)
+    for j in present:
+        name = str(label(classes[j]))
+        k = meta_classes.index(name) if name in meta_classes else len(meta_classes) + int(j)
+        out.append((k, name, np.flatnonzero(codes == j)))
+    return sorted(out, key=lambda t: t[0])
+
+
 def use_log(values: np.ndarray, reference: float, factor: float = 30.0) -> bool:
     """Log axes when the largest value dwarfs the reference (e.g. the cut-off)."""
     finite = values[np.isfinite(values) & (values > 0)]

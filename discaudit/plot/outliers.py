@@ -2,10 +2,10 @@
 
 Reads the per-row arrays of the ``outliers`` finding: ``squared_distance`` (squared robust
 Mahalanobis distance from the class's MCD estimate, or classical for classes too small for a
-robust fit), ``classical_squared_distance``, ``cutoff`` and ``fence`` (the class's Gaussian
-cut-off and far-out fence, per row), ``df`` (the number of features the class's distances use),
-``flagged``, ``class`` and ``row_label``; and, per class, ``method`` and ``usable`` facts from
-the details.
+robust fit), ``classical_squared_distance``, ``flagged``, ``row_label`` and ``code`` (the row's
+class, a position in ``classes``); per class, ``class_cutoff`` and ``class_fence`` (the Gaussian
+cut-off and far-out fence) and ``class_df`` (the number of features its distances use); and the
+``method`` and ``usable`` facts of the details.
 
 Layout rules: every class panel uses the same axis scale (so spreads compare across classes);
 legends sit outside the axes, below the figure; the numbers that used to sit in boxes inside the
@@ -52,8 +52,21 @@ def _per_class(verdict: Any, name: str) -> dict[str, Any]:
     return verdict.findings[KEY].details.get("per_class", {}).get(name, {})  # type: ignore[no-any-return]
 
 
+#: Figures the outlier arrays hold once per class (``class_cutoff`` ...), indexed by each row's ``code``.
+_PER_CLASS = ("cutoff", "fence", "df")
+
+
 def _column(verdict: Any, key: str) -> np.ndarray:
-    return np.asarray(_arrays(verdict)[key], dtype=float)
+    """A per-row figure of the outlier arrays; a per-class one is spread over the rows by their code."""
+    a = _arrays(verdict)
+    if key in _PER_CLASS:
+        return np.asarray(a[f"class_{key}"], dtype=float)[np.asarray(a["code"], dtype=np.intp)]
+    return np.asarray(a[key], dtype=float)
+
+
+def _groups(verdict: Any) -> list[tuple[int, str, np.ndarray]]:
+    a = _arrays(verdict)
+    return c.code_groups(verdict, a["code"], a["classes"])
 
 
 def _robust(verdict: Any, name: str) -> bool:
@@ -211,7 +224,7 @@ def draw(verdict: Any, ax: Axes, legend: bool = True) -> None:
 
     ``legend=False`` leaves the legend to the caller (one legend under a whole figure).
     """
-    groups = c.class_groups(verdict, _arrays(verdict)["class"])
+    groups = _groups(verdict)
     every = np.arange(len(_arrays(verdict)["squared_distance"]))
     log = _log_for(verdict, every)
     requests = []
@@ -239,10 +252,9 @@ def draw_qq(
 
     Classes without usable distances (an exact fit, or no continuous feature) are left out.
     """
-    a = _arrays(verdict)
-    groups = c.class_groups(verdict, a["class"])
+    groups = _groups(verdict)
     distance = _column(verdict, "squared_distance")
-    df = np.asarray(a.get("df", np.full(distance.size, int(verdict.meta.get("n_features", 1)))), dtype=int)
+    df = _column(verdict, "df").astype(int)
     top = 0.0
     left_out = []
     for k, name, rows in groups:
@@ -305,7 +317,7 @@ def _panel_title(verdict: Any, name: str, rows: np.ndarray, n_labelled: int) -> 
 
 def draw_figure(verdict: Any) -> Figure:
     """One panel per class (robust vs classical distance, one scale for all) and a Q-Q panel."""
-    groups = c.class_groups(verdict, _arrays(verdict)["class"])
+    groups = _groups(verdict)
     if len(groups) > MAX_CLASS_PANELS:
         fig, axes = c.new_figure(2)
         draw_qq(verdict, axes[1], legend=False)

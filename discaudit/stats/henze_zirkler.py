@@ -212,4 +212,3 @@ def henze_zirkler_from_whitened(
         random_state=random_state,
         max_rows=int(max_rows),
     )
-

@@ -164,7 +164,6 @@ def mardia(X: Any, *, max_rows: int = 5000, random_state: int | None = None) -> 
     n_total, p = values.shape
     rows, seed = subsample_rows(n_total, max_rows, random_state, min_rows=p + 1)
     data = values if rows is None else values[rows]
-    n = data.shape[0]
     Z = whiten(data, names, statistic="Mardia's statistics", subsampled=rows is not None)
     cubed, _ = pair_sums(Z, cubes=True, kernel_b2=None)
     return mardia_from_whitened(Z, cubed, n_total=n_total, random_state=seed, max_rows=max_rows)
