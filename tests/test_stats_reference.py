@@ -28,6 +28,7 @@ from sklearn.covariance import LedoitWolf, ledoit_wolf_shrinkage
 from sklearn.datasets import load_diabetes, load_digits, load_iris, load_wine
 from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
 from statsmodels.multivariate.manova import MANOVA
+from statsmodels.regression.linear_model import OLS
 from statsmodels.stats.multivariate import test_cov_oneway as sm_test_cov_oneway
 from statsmodels.stats.outliers_influence import variance_inflation_factor
 
@@ -210,10 +211,16 @@ def standardized_svd(X: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
 def bkw_by_hand(X: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Condition indices and variance-decomposition proportions from the SVD route.
 
-    Belsley, Kuh & Welsch (1980), Regression Diagnostics, Wiley, ch. 3 (from memory):
-    with Z = U D V' the SVD of the column-scaled data, eta_k = d_max / d_k, and
-    phi_jk = v_jk^2 / d_k^2; the proportion of var(b_j) due to dimension k is
-    pi_kj = phi_jk / sum_k phi_jk. Returns (indices, proportions [dimension x feature], phi).
+    Belsley, Kuh & Welsch (1980), Regression Diagnostics, Wiley, ch. 3: with Z = U D V' the
+    SVD of the column-scaled data, eta_k = d_max / d_k, and phi_jk = v_jk^2 / d_k^2; the
+    proportion of var(b_j) due to dimension k is pi_kj = phi_jk / sum_k phi_jk. Here the columns
+    are centred (the correlation-matrix variant that discaudit documents; Belsley, Kuh & Welsch
+    scale uncentred columns with the intercept). No library available here computes the
+    proportions (R's perturb, mctest and olsrr are not packaged in Debian 12; statsmodels,
+    scikit-learn and pingouin have none), so the route is checked against what it decomposes:
+    sum_k phi_jk sigma^2 is the variance of b_j that statsmodels' OLS reports for a regression
+    on Z (test_svd_route_decomposes_statsmodels_ols_variances), and sum_k phi_jk is statsmodels'
+    VIF. Returns (indices, proportions [dimension x feature], phi).
     """
     s, V = standardized_svd(X)
     phi = V**2 / s**2  # (feature j, dimension k)
@@ -228,7 +235,7 @@ def class_centred(X: pd.DataFrame, y: pd.Series) -> np.ndarray:
 
 
 def ledoit_wolf_by_hand(Xc: np.ndarray) -> float:
-    """Ledoit-Wolf (2004) intensity written from the paper's lemmas (from memory).
+    """Ledoit-Wolf (2004) intensity written from the paper's lemmas.
 
     Ledoit, O. & Wolf, M. (2004), "A well-conditioned estimator for large-dimensional
     covariance matrices", J. Multivariate Analysis 88:365-411, with the scaled Frobenius
@@ -236,6 +243,8 @@ def ledoit_wolf_by_hand(Xc: np.ndarray) -> float:
         m = tr(S)/p,  d^2 = ||S - m I||^2,  bbar^2 = n^-2 sum_i ||x_i x_i' - S||^2,
         b^2 = min(bbar^2, d^2),  intensity = b^2 / d^2.
     Uses ||x x' - S||^2 = (|x|^4 - 2 x'Sx + ||S||_F^2)/p, so no n x n or n x p x p object.
+    Confirmed by scikit-learn 1.9.1 ``ledoit_wolf_shrinkage`` on the same data
+    (``test_matches_ledoit_wolf_lemmas``).
     """
     n, p = Xc.shape
     S = Xc.T @ Xc / n
@@ -602,8 +611,11 @@ class TestShrinkageIntensityReference:
     @pytest.mark.parametrize("data", SHRINK_DATA)
     def test_matches_ledoit_wolf_lemmas(self, data):
         X, y = data()
-        # Ledoit & Wolf (2004) written out in this file (divisor n, as scikit-learn), from memory.
-        ref = ledoit_wolf_by_hand(class_centred(X, y))
+        # Ledoit & Wolf (2004) written out in this file (divisor n, as scikit-learn); the
+        # formula is itself confirmed by scikit-learn 1.9.1 ledoit_wolf_shrinkage on the data.
+        Xc = class_centred(X, y)
+        ref = ledoit_wolf_by_hand(Xc)
+        assert ref == pytest.approx(ledoit_wolf_shrinkage(Xc), rel=RTOL)
         assert float(shrinkage_intensity(X, y)) == pytest.approx(ref, rel=RTOL)
 
     def test_one_feature_is_zero_like_sklearn(self):
@@ -654,6 +666,23 @@ class TestConditionIndicesReference:
         X = data()
         _, _, phi = bkw_by_hand(X)
         np.testing.assert_allclose(phi.sum(axis=1), vif_statsmodels(X, with_constant=True).to_numpy(), rtol=RTOL)
+
+    @pytest.mark.parametrize(
+        "data", [pytest.param(lambda: iris()[0], id="iris"), pytest.param(diabetes, id="diabetes")]
+    )
+    def test_svd_route_decomposes_statsmodels_ols_variances(self, data):
+        # Check of the reference route itself: regress any response on Z (centred, unit-variance
+        # columns, so no constant is needed) with statsmodels 0.15 OLS; its coefficient variances
+        # sigma^2 [(Z'Z)^-1]_jj are the sums that the proportions split, sigma^2 sum_k phi_jk.
+        X = data()
+        s, V = standardized_svd(X)
+        Z = X.to_numpy(dtype=float)
+        Z = (Z - Z.mean(axis=0)) / (Z.std(axis=0, ddof=1) * np.sqrt(len(Z) - 1))
+        response = np.random.default_rng(3).standard_normal(len(Z))
+        fit = OLS(response - response.mean(), Z).fit()
+        _, _, phi = bkw_by_hand(X)
+        np.testing.assert_allclose(fit.bse**2, fit.scale * phi.sum(axis=1), rtol=RTOL)
+        np.testing.assert_allclose(fit.normalized_cov_params, (V / s**2) @ V.T, rtol=RTOL, atol=1e-12)
 
     def test_planted_near_dependency_is_named(self):
         # Constructed (seeded) design: f5 = f1 - f3 + small noise; the others independent.
