@@ -125,22 +125,39 @@ class TestExactOptimum:
 
 class TestLiteratureData:
     def test_stackloss_flags_known_leverage_points(self) -> None:
-        # Stack-loss data shipped by statsmodels (Brownlee 1965). Rousseeuw & Leroy (1987,
-        # Robust Regression and Outlier Detection) and Rousseeuw & van Zomeren (1990, JASA 85)
+        # Stack-loss data shipped by statsmodels (Brownlee 1965); R ships the same 21 rows as
+        # `stackloss` (column sums 1269, 443, 1812 in both). Rousseeuw & Leroy (1987, Robust
+        # Regression and Outlier Detection) and Rousseeuw & van Zomeren (1990, JASA 85)
         # report observations 1, 2, 3 and 21 (1-based) as outlying in the space of the three
-        # explanatory variables (high air flow) -- cited from memory. Our reweighted MCD at
-        # h = 12 flags them, and also the tight group 15-19 (air flow 50, low water
-        # temperature) just beyond the chi-square(3) 0.975 cut-off, a known effect of the
-        # chi-square cut-off at n = 21.
+        # explanatory variables; confirmed by R's robustbase 0.95.0 (R 4.2.2), where these are
+        # the four largest robust distances:
+        #   set.seed(1); m <- robustbase::covMcd(stackloss[, 1:3], alpha = 0.5, nsamp = 500,
+        #                                        use.correction = FALSE)
+        #   which(m$mcd.wt == 0); sort(m$best); sprintf("%.10g", m$mah)
+        # robustbase also flags the tight group 15-19 (air flow 50, low water temperature) just
+        # beyond the chi-square(3) 0.975 cut-off, and so do we: the flags are equal.
+        # robustbase's reweighted covariance has divisor sum(w) - 1 = 11 (ours 12), so with the
+        # same kept rows our distances are robustbase's times 12 / 11.
         sm_data = pytest.importorskip("statsmodels.datasets.stackloss")
         data = sm_data.load_pandas().data
-        res = mcd(data[["AIRFLOW", "WATERTEMP", "ACIDCONC"]], random_state=0)
+        features = ["AIRFLOW", "WATERTEMP", "ACIDCONC"]
+        np.testing.assert_array_equal(data[features].sum().to_numpy(), [1269, 443, 1812])
+        res = mcd(data[features], random_state=0)
         flagged = set((np.flatnonzero(res.outliers) + 1).tolist())
-        assert {1, 2, 3, 21} <= flagged
+        assert flagged == {1, 2, 3, 15, 16, 17, 18, 19, 21}  # robustbase which(m$mcd.wt == 0)
+        assert set((np.flatnonzero(res.support) + 1).tolist()) == {4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 20}
         assert res.feature_names == ("AIRFLOW", "WATERTEMP", "ACIDCONC")
         # The four literature outliers are the most outlying rows.
         top4 = set((np.argsort(res.distances)[-4:] + 1).tolist())
         assert top4 == {1, 2, 3, 21}
+        robustbase_mah = [
+            68.59445409, 69.52616189, 39.72554553, 0.9090292791, 0.9333891933, 0.7717074939,
+            0.9871866818, 0.9871866818, 2.081551005, 1.515970359, 0.8590239672, 1.286982881,
+            0.9290613985, 1.829831892, 15.97601112, 14.54803167, 17.41264616, 15.35973957,
+            17.5430799, 2.184303994, 26.89670847,
+        ]  # fmt: skip
+        assert res.n_reweighted == 12
+        np.testing.assert_allclose(res.distances, np.array(robustbase_mah) * 12 / 11, rtol=1e-8)
 
 
 class TestEquivariance:
@@ -409,9 +426,13 @@ class TestFiniteSampleCorrection:
         np.testing.assert_allclose(small.raw_covariance, plain.raw_covariance * small.raw_correction_factor)
 
     def test_simulated_scale_moves_towards_one(self) -> None:
-        # Simulation (the constants are from memory): for standard normal samples the raw MCD
-        # with the consistency factor underestimates the scale at small n in the geometric-mean
-        # sense (det^(1/p) < 1); the finite-sample factor must bring det^(1/p) closer to 1.
+        # Simulation: for standard normal samples the raw MCD with the consistency factor
+        # underestimates the scale at small n in the geometric-mean sense (det^(1/p) < 1); the
+        # finite-sample factor must bring det^(1/p) closer to 1. The factors themselves
+        # (Pison, Van Aelst & Willems 2002) are checked against R's
+        # robustbase 0.95.0 .MCDcnp2 / .MCDcnp2.rew in
+        # tests/test_mcd_robustbase.py::test_small_sample_factors_match_robustbase; this test
+        # checks only the direction of their effect.
         rng = np.random.default_rng(8)
         n, p = 60, 2
         plain, corrected = [], []

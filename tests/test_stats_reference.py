@@ -4,7 +4,8 @@ Every number our functions return is compared with something outside the project
 
 * a reference library (pingouin, statsmodels, scikit-learn, SciPy), called here at test time;
 * or a second, independent formula written out in this file from a published source (cited
-  beside it, from memory where said so);
+  beside it); each such formula is itself checked here against a reference library on data, or,
+  where no library has it, against a simulation of the distribution it approximates;
 
 on open data sets that scikit-learn ships (iris, wine, diabetes, digits). One constructed design
 (the planted near-dependency) is invented by a seeded generator; its expected answer follows
@@ -27,6 +28,8 @@ from sklearn.covariance import LedoitWolf, ledoit_wolf_shrinkage
 from sklearn.datasets import load_diabetes, load_digits, load_iris, load_wine
 from sklearn.discriminant_analysis import LinearDiscriminantAnalysis
 from statsmodels.multivariate.manova import MANOVA
+from statsmodels.regression.linear_model import OLS
+from statsmodels.stats.multivariate import test_cov_oneway as sm_test_cov_oneway
 from statsmodels.stats.outliers_influence import variance_inflation_factor
 
 from discaudit.stats import (
@@ -100,12 +103,30 @@ def _logdet_pd(S: np.ndarray) -> float:
     return float(logdet)
 
 
+def box_constants(v: np.ndarray, p: int) -> tuple[float, float, float]:
+    """c1, c2 and a1 of Box (1949) for degrees of freedom v_k = n_k - 1 and p features."""
+    K = len(v)
+    c1 = (np.sum(1 / v) - 1 / v.sum()) * (2 * p**2 + 3 * p - 1) / (6 * (p + 1) * (K - 1))
+    c2 = (np.sum(1 / v**2) - 1 / v.sum() ** 2) * (p - 1) * (p + 2) / (6 * (K - 1))
+    return float(c1), float(c2), (K - 1) * p * (p + 1) / 2
+
+
+def box_f_by_hand(M, c1: float, c2: float, a1: float):
+    """Box's F for M (a number or an array): (F on the design's branch, F on the other, a2)."""
+    a2 = (a1 + 2) / abs(c2 - c1**2)
+    f_upper = M * (1 - c1 - a1 / a2) / a1  # the c2 > c1^2 formula
+    b = a2 / (1 - c1 + 2 / a2)
+    f_lower = a2 * M / (a1 * (b - M))  # the c2 < c1^2 formula
+    F, F_other = (f_upper, f_lower) if c2 > c1**2 else (f_lower, f_upper)
+    return F, F_other, a2
+
+
 def box_m_by_hand(X: pd.DataFrame, y: pd.Series) -> dict[str, float]:
     """Box's M with the chi-square and F approximations, written from the textbook formulas.
 
-    Source (from memory): Box, G. E. P. (1949), "A general distribution theory for a class of
-    likelihood criteria", Biometrika 36:317-346; as printed in Rencher, A. C. (2002), Methods of
-    Multivariate Analysis, 2nd ed., Wiley, Sec. 7.3.2:
+    Box, G. E. P. (1949), "A general distribution theory for a class of likelihood criteria",
+    Biometrika 36:317-346, in the form Rencher, A. C. (2002), Methods of Multivariate Analysis,
+    2nd ed., Wiley, gives it:
 
         M  = sum(v_k) ln|S_pooled| - sum v_k ln|S_k|,   v_k = n_k - 1, unbiased S_k
         c1 = [sum 1/v_k - 1/sum v_k] (2p^2 + 3p - 1) / (6 (p + 1) (K - 1))
@@ -114,24 +135,23 @@ def box_m_by_hand(X: pd.DataFrame, y: pd.Series) -> dict[str, float]:
         chi-square: (1 - c1) M on a1 df
         c2 > c1^2:  F = M / b,  b = a1 / (1 - c1 - a1/a2),            on (a1, a2) df
         c2 < c1^2:  F = a2 M / (a1 (b - M)),  b = a2 / (1 - c1 + 2/a2), on (a1, a2) df
+
+    Checked against statsmodels 0.15.0 ``statsmodels.stats.multivariate.test_cov_oneway``
+    (M, chi-square, a1, a2 and the c2 > c1^2 F agree: ``TestBoxMReference``). On the c2 < c1^2
+    branch statsmodels computes F = a2 M / (a1 (b + M)); the simulated null distribution of M
+    (``test_lower_branch_matches_null_distribution``) supports b - M and rejects b + M.
     """
     values = X.to_numpy(dtype=float)
     labels = np.asarray(y)
     classes = pd.unique(labels)
-    p, K = values.shape[1], len(classes)
+    p = values.shape[1]
     groups = [values[labels == c] for c in classes]
     v = np.array([len(g) - 1 for g in groups], dtype=float)
     covs = [np.cov(g, rowvar=False, ddof=1).reshape(p, p) for g in groups]
     pooled = sum(vk * Sk for vk, Sk in zip(v, covs)) / v.sum()
     M = v.sum() * _logdet_pd(pooled) - sum(vk * _logdet_pd(Sk) for vk, Sk in zip(v, covs))
-    c1 = (np.sum(1 / v) - 1 / v.sum()) * (2 * p**2 + 3 * p - 1) / (6 * (p + 1) * (K - 1))
-    c2 = (np.sum(1 / v**2) - 1 / v.sum() ** 2) * (p - 1) * (p + 2) / (6 * (K - 1))
-    a1 = (K - 1) * p * (p + 1) / 2
-    a2 = (a1 + 2) / abs(c2 - c1**2)
-    f_upper = M * (1 - c1 - a1 / a2) / a1  # the c2 > c1^2 formula
-    b = a2 / (1 - c1 + 2 / a2)
-    f_lower = a2 * M / (a1 * (b - M))  # the c2 < c1^2 formula
-    F, F_other = (f_upper, f_lower) if c2 > c1**2 else (f_lower, f_upper)
+    c1, c2, a1 = box_constants(v, p)
+    F, F_other, a2 = box_f_by_hand(M, c1, c2, a1)
     chi2 = (1 - c1) * M
     return {
         "M": M,
@@ -146,6 +166,15 @@ def box_m_by_hand(X: pd.DataFrame, y: pd.Series) -> dict[str, float]:
         "p_F": stats.f.sf(F, a1, a2),
         "F_other_branch": F_other,
     }
+
+
+def box_m_statsmodels(X: pd.DataFrame, y: pd.Series):
+    """statsmodels 0.15 ``test_cov_oneway`` (Box's M) on the classes' unbiased covariances."""
+    values = X.to_numpy(dtype=float)
+    labels = np.asarray(y)
+    groups = [values[labels == c] for c in pd.unique(labels)]
+    covs = [np.cov(g, rowvar=False, ddof=1).reshape(values.shape[1], -1) for g in groups]
+    return sm_test_cov_oneway(covs, [len(g) for g in groups])
 
 
 # statsmodels 0.15 added ``standardize=True`` (centring the columns by default); every earlier
@@ -182,10 +211,16 @@ def standardized_svd(X: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
 def bkw_by_hand(X: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Condition indices and variance-decomposition proportions from the SVD route.
 
-    Belsley, Kuh & Welsch (1980), Regression Diagnostics, Wiley, ch. 3 (from memory):
-    with Z = U D V' the SVD of the column-scaled data, eta_k = d_max / d_k, and
-    phi_jk = v_jk^2 / d_k^2; the proportion of var(b_j) due to dimension k is
-    pi_kj = phi_jk / sum_k phi_jk. Returns (indices, proportions [dimension x feature], phi).
+    Belsley, Kuh & Welsch (1980), Regression Diagnostics, Wiley, ch. 3: with Z = U D V' the
+    SVD of the column-scaled data, eta_k = d_max / d_k, and phi_jk = v_jk^2 / d_k^2; the
+    proportion of var(b_j) due to dimension k is pi_kj = phi_jk / sum_k phi_jk. Here the columns
+    are centred (the correlation-matrix variant that discaudit documents; Belsley, Kuh & Welsch
+    scale uncentred columns with the intercept). No library available here computes the
+    proportions (R's perturb, mctest and olsrr are not packaged in Debian 12; statsmodels,
+    scikit-learn and pingouin have none), so the route is checked against what it decomposes:
+    sum_k phi_jk sigma^2 is the variance of b_j that statsmodels' OLS reports for a regression
+    on Z (test_svd_route_decomposes_statsmodels_ols_variances), and sum_k phi_jk is statsmodels'
+    VIF. Returns (indices, proportions [dimension x feature], phi).
     """
     s, V = standardized_svd(X)
     phi = V**2 / s**2  # (feature j, dimension k)
@@ -200,7 +235,7 @@ def class_centred(X: pd.DataFrame, y: pd.Series) -> np.ndarray:
 
 
 def ledoit_wolf_by_hand(Xc: np.ndarray) -> float:
-    """Ledoit-Wolf (2004) intensity written from the paper's lemmas (from memory).
+    """Ledoit-Wolf (2004) intensity written from the paper's lemmas.
 
     Ledoit, O. & Wolf, M. (2004), "A well-conditioned estimator for large-dimensional
     covariance matrices", J. Multivariate Analysis 88:365-411, with the scaled Frobenius
@@ -208,6 +243,8 @@ def ledoit_wolf_by_hand(Xc: np.ndarray) -> float:
         m = tr(S)/p,  d^2 = ||S - m I||^2,  bbar^2 = n^-2 sum_i ||x_i x_i' - S||^2,
         b^2 = min(bbar^2, d^2),  intensity = b^2 / d^2.
     Uses ||x x' - S||^2 = (|x|^4 - 2 x'Sx + ||S||_F^2)/p, so no n x n or n x p x p object.
+    Confirmed by scikit-learn 1.9.1 ``ledoit_wolf_shrinkage`` on the same data
+    (``test_matches_ledoit_wolf_lemmas``).
     """
     n, p = Xc.shape
     S = Xc.T @ Xc / n
@@ -278,21 +315,34 @@ class TestBoxMReference:
             pytest.param(lambda: wine(), id="wine-all13"),
         ],
     )
-    def test_statistic_and_chi_square_match_textbook_formula(self, data):
+    def test_statistic_and_chi_square_match_statsmodels(self, data):
         X, y = data()
         result = box_m(X, y)
-        ref = box_m_by_hand(X, y)  # Box (1949) / Rencher (2002) Sec. 7.3.2, from memory; np.cov + slogdet
-        assert result.statistic == pytest.approx(ref["M"], rel=RTOL)
-        assert result.chi2 == pytest.approx(ref["chi2"], rel=RTOL)
-        assert result.df == pytest.approx(ref["df"], rel=RTOL)
-        assert result.p_value == pytest.approx(ref["p_chi2"], rel=RTOL)
+        # statsmodels 0.15.0 test_cov_oneway: statistic_base is M, statistic_chi2 = (1 - c1) M.
+        sm = box_m_statsmodels(X, y)
+        assert result.statistic == pytest.approx(sm.statistic_base, rel=RTOL)
+        assert result.chi2 == pytest.approx(sm.statistic_chi2, rel=RTOL)
+        assert result.df == pytest.approx(sm.df_chi2, rel=RTOL)
+        assert result.p_value == pytest.approx(sm.pvalue_chi2, rel=RTOL)
+        # The formula written in this file agrees with statsmodels on the same data.
+        ref = box_m_by_hand(X, y)
+        assert ref["M"] == pytest.approx(sm.statistic_base, rel=RTOL)
+        assert ref["chi2"] == pytest.approx(sm.statistic_chi2, rel=RTOL)
+        assert ref["df2"] == pytest.approx(sm.df_f[1], rel=RTOL)
 
     def test_iris_matches_published_spss_table(self):
-        # Published worked example, recalled from memory: the Box's M table that SPSS
-        # (DISCRIMINANT / GLM) prints for Fisher's iris with all four features and the three
-        # species is widely reproduced as M = 146.663, approx. F = 7.045, df1 = 20,
-        # df2 = 77566.751. Checked to the printed precision (half a unit in the last digit).
+        # Published worked example: the Box's M table that SPSS (DISCRIMINANT / GLM) prints for
+        # Fisher's iris with all four features and the three species, M = 146.663, approx.
+        # F = 7.045, df1 = 20, df2 = 77566.751; confirmed by statsmodels 0.15.0
+        # test_cov_oneway on scikit-learn's iris (statistic_base 146.6632492, statistic_f
+        # 7.04526170, df_f (20, 77566.7512690)). Checked to the printed precision (half a unit
+        # in the last digit), statsmodels' values and ours alike.
         X, y = iris()
+        sm = box_m_statsmodels(X, y)
+        assert sm.statistic_base == pytest.approx(146.663, abs=5e-4)
+        assert sm.statistic_f == pytest.approx(7.045, abs=5e-4)
+        assert sm.df_f[0] == pytest.approx(20, abs=5e-4)
+        assert sm.df_f[1] == pytest.approx(77566.751, abs=5e-4)
         result = box_m(X, y)
         assert result.statistic == pytest.approx(146.663, abs=5e-4)
         assert result.f == pytest.approx(7.045, abs=5e-4)
@@ -300,9 +350,10 @@ class TestBoxMReference:
         assert result.df2 == pytest.approx(77566.751, abs=5e-4)
 
     def test_one_feature_reduces_to_bartlett(self):
-        # With p = 1, M = (N-K) ln s_p^2 - sum v_k ln s_k^2 is Bartlett's numerator; SciPy's
-        # `bartlett` divides it by C = 1 + (sum 1/v_k - 1/sum v_k) / (3 (K - 1)), which is 1 + c1
-        # for p = 1 (Bartlett 1937, Proc. R. Soc. A 160:268-282, from memory).
+        # With p = 1, M = (N-K) ln s_p^2 - sum v_k ln s_k^2 is the numerator of Bartlett's
+        # (1937) test; SciPy 1.17 `scipy.stats.bartlett` divides it by
+        # C = 1 + (sum 1/v_k - 1/sum v_k) / (3 (K - 1)) (read in its source), which is 1 + c1
+        # for p = 1, since (2p^2 + 3p - 1) / (6 (p + 1)) = 1/3 there.
         X, y = iris_subset(["sepal_width"], {"setosa": 50, "versicolor": 30, "virginica": 20})
         result = box_m(X, y)
         ref = box_m_by_hand(X, y)
@@ -351,7 +402,7 @@ class TestBoxMReference:
     )
     def test_f_approximation_both_branches(self, features, sizes, branch):
         X, y = iris_subset(features, sizes)
-        ref = box_m_by_hand(X, y)  # Box (1949) F approximation as printed in Rencher (2002), from memory
+        ref = box_m_by_hand(X, y)  # Box (1949) F approximation in Rencher's (2002) form
         # Which branch this design exercises, recomputed here from c1, c2:
         assert (ref["c2"] > ref["c1"] ** 2) == (branch == "c2>c1^2")
         # The design can tell the branches apart at our tolerance (the two formulas converge as
@@ -362,6 +413,43 @@ class TestBoxMReference:
         assert result.df2 == pytest.approx(ref["df2"], rel=RTOL)
         assert result.f == pytest.approx(ref["F"], rel=RTOL)
         assert result.p_value_f == pytest.approx(ref["p_F"], rel=RTOL)
+        # statsmodels 0.15.0 test_cov_oneway: the same df on both branches; the same F where
+        # c2 > c1^2. Where c2 < c1^2 it computes F_sm = (a2/a1) t / (1 + t), t = M / b, where
+        # Box's form is (a2/a1) t / (1 - t): recover t from F_sm and test that exact relation.
+        sm = box_m_statsmodels(X, y)
+        a1, a2 = sm.df_f
+        assert result.df1 == pytest.approx(a1, rel=RTOL)
+        assert result.df2 == pytest.approx(a2, rel=RTOL)
+        if branch == "c2>c1^2":
+            assert result.f == pytest.approx(sm.statistic_f, rel=RTOL)
+            assert result.p_value_f == pytest.approx(sm.pvalue_f, rel=RTOL)
+        else:
+            t = a1 * sm.statistic_f / (a2 - a1 * sm.statistic_f)
+            assert t * (a2 / (1 - ref["c1"] + 2 / a2)) == pytest.approx(sm.statistic_base, rel=RTOL)  # t = M / b
+            assert result.f == pytest.approx(a2 / a1 * t / (1 - t), rel=RTOL)
+
+    def test_lower_branch_matches_null_distribution(self):
+        # Check of the c2 < c1^2 formula itself (no library here has it right: pingouin 0.7
+        # gives the chi-square only, R's heplots and biotools are not packaged in Debian 12,
+        # statsmodels 0.15 uses b + M). Under equal covariances, with p = 1 and classes of 5, 6
+        # and 4 rows (c2 = 0 < c1^2), M is drawn exactly from independent chi-square variances
+        # (v_k s_k^2 ~ chi2(v_k)), 400,000 seeded draws. The F of box_f_by_hand must reject
+        # within 10 % of the nominal 5 % and 1 % (measured 4.98 % and 0.999 %, standard errors
+        # 0.034 % and 0.016 %); the b + M form misses both by more than 10 % (4.37 %, 0.729 %),
+        # so the simulation tells the two apart.
+        rng = np.random.default_rng(20240611)
+        v = np.array([4.0, 5.0, 3.0])
+        s2 = rng.chisquare(v, size=(400_000, 3)) / v
+        M = v.sum() * np.log(s2 @ v / v.sum()) - np.log(s2) @ v
+        c1, c2, a1 = box_constants(v, p=1)
+        assert c2 == 0.0
+        f_box, _, a2 = box_f_by_hand(M, c1, c2, a1)
+        t = M / (a2 / (1 - c1 + 2 / a2))
+        f_plus = a2 / a1 * t / (1 + t)  # statsmodels 0.15's form
+        for alpha in (0.05, 0.01):
+            crit = stats.f.isf(alpha, a1, a2)
+            assert np.mean(f_box > crit) == pytest.approx(alpha, rel=0.1)
+            assert np.mean(f_plus > crit) != pytest.approx(alpha, rel=0.1)
 
 
 # --------------------------------------------------------------------------------------------
@@ -523,8 +611,11 @@ class TestShrinkageIntensityReference:
     @pytest.mark.parametrize("data", SHRINK_DATA)
     def test_matches_ledoit_wolf_lemmas(self, data):
         X, y = data()
-        # Ledoit & Wolf (2004) written out in this file (divisor n, as scikit-learn), from memory.
-        ref = ledoit_wolf_by_hand(class_centred(X, y))
+        # Ledoit & Wolf (2004) written out in this file (divisor n, as scikit-learn); the
+        # formula is itself confirmed by scikit-learn 1.9.1 ledoit_wolf_shrinkage on the data.
+        Xc = class_centred(X, y)
+        ref = ledoit_wolf_by_hand(Xc)
+        assert ref == pytest.approx(ledoit_wolf_shrinkage(Xc), rel=RTOL)
         assert float(shrinkage_intensity(X, y)) == pytest.approx(ref, rel=RTOL)
 
     def test_one_feature_is_zero_like_sklearn(self):
@@ -575,6 +666,23 @@ class TestConditionIndicesReference:
         X = data()
         _, _, phi = bkw_by_hand(X)
         np.testing.assert_allclose(phi.sum(axis=1), vif_statsmodels(X, with_constant=True).to_numpy(), rtol=RTOL)
+
+    @pytest.mark.parametrize(
+        "data", [pytest.param(lambda: iris()[0], id="iris"), pytest.param(diabetes, id="diabetes")]
+    )
+    def test_svd_route_decomposes_statsmodels_ols_variances(self, data):
+        # Check of the reference route itself: regress any response on Z (centred, unit-variance
+        # columns, so no constant is needed) with statsmodels 0.15 OLS; its coefficient variances
+        # sigma^2 [(Z'Z)^-1]_jj are the sums that the proportions split, sigma^2 sum_k phi_jk.
+        X = data()
+        s, V = standardized_svd(X)
+        Z = X.to_numpy(dtype=float)
+        Z = (Z - Z.mean(axis=0)) / (Z.std(axis=0, ddof=1) * np.sqrt(len(Z) - 1))
+        response = np.random.default_rng(3).standard_normal(len(Z))
+        fit = OLS(response - response.mean(), Z).fit()
+        _, _, phi = bkw_by_hand(X)
+        np.testing.assert_allclose(fit.bse**2, fit.scale * phi.sum(axis=1), rtol=RTOL)
+        np.testing.assert_allclose(fit.normalized_cov_params, (V / s**2) @ V.T, rtol=RTOL, atol=1e-12)
 
     def test_planted_near_dependency_is_named(self):
         # Constructed (seeded) design: f5 = f1 - f3 + small noise; the others independent.
