@@ -36,7 +36,7 @@ import queue
 import threading
 import warnings
 from collections.abc import Callable, Iterable, Iterator, Sequence
-from concurrent.futures import ThreadPoolExecutor
+from concurrent.futures import Future, ThreadPoolExecutor
 from contextlib import contextmanager
 from typing import Any, Generic, TypeVar
 
@@ -303,3 +303,26 @@ def read_ahead(items: Iterable[T], depth: int = READ_AHEAD_DEPTH) -> Iterator[T]
     finally:
         stop.set()
         worker.join()
+
+
+def in_background(fn: Callable[[], R]) -> Callable[[], R]:
+    """Start ``fn()`` on a thread of its own; return a function that waits for its result.
+
+    For work that releases the GIL and that nothing needs until the end (hashing the audited data
+    with hashlib, which releases it on large buffers): it then overlaps with the checks. The
+    thread runs in a copy of the caller's context; an exception it meets is raised by the waiting
+    function. On one core ``fn`` runs when its result is asked for.
+    """
+    if usable_cores() <= 1:
+        return fn
+    future: Future[R] = Future()
+
+    def run() -> None:
+        try:
+            future.set_result(fn())
+        except BaseException as exc:  # handed to the caller, raised where it waits
+            future.set_exception(exc)
+
+    context = contextvars.copy_context()
+    threading.Thread(target=context.run, args=(run,), name="discaudit-background", daemon=True).start()
+    return future.result

@@ -14,7 +14,7 @@ import time
 from typing import Any
 
 from discaudit import checks, remedy_effects
-from discaudit._threads import one_blas_thread, recorded_warnings
+from discaudit._threads import in_background, one_blas_thread, recorded_warnings
 from discaudit.config import Config
 from discaudit.dataset import AuditData
 from discaudit.decision import recommend, with_gate
@@ -85,6 +85,7 @@ def audit(data: AuditData, config: Config, random_state: int | None) -> Verdict:
     """
     findings: dict[str, Finding] = {}
     timings: dict[str, float] = {}
+    fingerprint = in_background(functools.partial(_fingerprint, data))  # hashing overlaps with the checks
     with one_blas_thread():
         start = time.perf_counter()
         _read_rows_once(data, config, random_state)
@@ -96,14 +97,19 @@ def audit(data: AuditData, config: Config, random_state: int | None) -> Verdict:
             else:
                 findings[key] = _run_check(key, run, data, config, random_state)
             timings[key] = time.perf_counter() - start
-    return _assemble(findings, data, config, random_state, timings)
+    return _assemble(findings, data, config, random_state, timings, fingerprint())
 
 
 def _assemble(
-    findings: dict[str, Finding], data: AuditData, config: Config, random_state: int | None, timings: dict[str, float]
+    findings: dict[str, Finding],
+    data: AuditData,
+    config: Config,
+    random_state: int | None,
+    timings: dict[str, float],
+    fingerprint: dict[str, Any],
 ) -> Verdict:
     """Findings -> recommendation, gate status, remedies and metadata: the one place a verdict is built."""
-    meta = _meta(data, config, random_state)
+    meta = _meta(data, config, random_state, fingerprint)
     recommendation = recommend(findings, config)
     gate = judge(findings, config)
     recommendation = with_gate(recommendation, gate, findings, config)
@@ -170,7 +176,7 @@ def _run_check(
     return finding
 
 
-def _meta(data: AuditData, config: Config, random_state: int | None) -> dict[str, Any]:
+def _meta(data: AuditData, config: Config, random_state: int | None, fingerprint: dict[str, Any]) -> dict[str, Any]:
     sample = None
     if data.sample is not None:
         sample = {
@@ -190,7 +196,7 @@ def _meta(data: AuditData, config: Config, random_state: int | None) -> dict[str
         "random_state": random_state,
         "severity": {k: config.severity_of(k) for k in checks.CHECK_KEYS},
         "config": config.to_dict(),
-        "fingerprint": _fingerprint(data),
+        "fingerprint": fingerprint,
         "class_moments": class_moments_record(data.moments, data.features),
         **({"what_if": list(data.changes)} if data.changes else {}),
     }

@@ -256,6 +256,31 @@ def test_read_ahead_keeps_order_raises_where_the_source_fails_and_stops_with_its
     assert len(produced) <= 5 + 2 + 2
 
 
+def test_in_background_returns_the_result_and_raises_where_it_is_asked_for(monkeypatch) -> None:
+    import threading
+
+    from discaudit import _threads
+
+    for cores in (1, 2):
+        monkeypatch.setattr(_threads, "usable_cores", lambda cores=cores: cores)
+        ran_on: list[str] = []
+
+        def work() -> int:
+            ran_on.append(threading.current_thread().name)
+            return 41 + 1
+
+        wait = _threads.in_background(work)
+        assert wait() == 42
+        assert ran_on == (["discaudit-background"] if cores == 2 else [threading.current_thread().name])
+
+        def broken() -> int:
+            raise ValueError("hashing failed")
+
+        wait = _threads.in_background(broken)
+        with pytest.raises(ValueError, match="hashing failed"):
+            wait()
+
+
 def test_work_started_on_a_pool_thread_runs_inline_and_keeps_its_order(monkeypatch) -> None:
     # The shared pool has as many threads as cores; work a pool thread starts must not wait for it.
     from discaudit import _threads
