@@ -274,7 +274,7 @@ class Config:
         10,
         "Folds of the stratified cross-validation of logistic regression when logistic_scoring is 'k_fold' "
         "(fewer when a class has fewer rows).",
-        "Kohavi (1995, IJCAI): 10-fold cross-validation is a good compromise of bias and variance",
+        "design choice (ten folds, also the default of R caret's trainControl(method = 'cv'))",
     )
     remedy_candidates: int = _threshold(
         6,

@@ -18,10 +18,19 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from scipy import integrate, stats
+from scipy import integrate, special, stats
 
 from discaudit.errors import DataError, DegenerateDataWarning
-from discaudit.stats._detmcd import START_NAMES, TAU_C1, TAU_C2, detmcd_starts, tau_consistency, tau_scale
+from discaudit.stats._detmcd import (
+    _NORMAL_SCORE_OFFSET,
+    START_NAMES,
+    TAU_C1,
+    TAU_C2,
+    _ranks,
+    detmcd_starts,
+    tau_consistency,
+    tau_scale,
+)
 from discaudit.stats.mcd import mcd
 
 REFERENCE = Path(__file__).parent / "reference"
@@ -65,6 +74,24 @@ class TestTauScale:
 
 
 class TestStarts:
+    def test_normal_scores_match_robustbase_r6pack(self) -> None:
+        # Start 3's normal scores, as robustbase 0.95.0's r6pack computes them. Produced by
+        #   Rscript -e 'x <- cbind(c(3.1, -0.4, 2.2, 2.2, 0.7, -1.5, 5.0), c(1, 2, 3, 4, 5, 6, 7));
+        #     n <- nrow(x); y3 <- qnorm((apply(x, 2L, rank) - 1/3)/(n + 1/3)); print(sprintf("%.17g", y3))'
+        # (column-major; the tie 2.2, 2.2 gets the averaged rank, as in R's rank).
+        X = np.array([[3.1, -0.4, 2.2, 2.2, 0.7, -1.5, 5.0], [1, 2, 3, 4, 5, 6, 7]], dtype=np.float64).T
+        r_y3 = np.array(
+            [
+                *(0.74785859476330252, -0.74785859476330208, 0.17174708963751187, 0.17174708963751187),
+                *(-0.34875569551704472, -1.3351777361189365, 1.335177736118937),
+                *(-1.3351777361189365, -0.74785859476330208, -0.34875569551704472, 0.0),
+                *(0.34875569551704488, 0.74785859476330252, 1.335177736118937),
+            ]
+        )
+        n = X.shape[0]
+        ours = special.ndtri((_ranks(X) - _NORMAL_SCORE_OFFSET) / (n + _NORMAL_SCORE_OFFSET))
+        np.testing.assert_allclose(ours.T.ravel(), r_y3, rtol=1e-14, atol=1e-15)
+
     def test_six_starts_of_the_half_sample(self) -> None:
         X = _shifted(200, 4, 0)
         starts = detmcd_starts(X, 100)

@@ -35,8 +35,9 @@ TAU_C2 = 3.0
 #: Phi^{-1}(3/4): the median absolute deviation of N(0, 1), computed (not a typed constant).
 _MAD_NORMAL = float(sp_stats.norm.ppf(0.75))
 #: Offset of the normal scores Phi^{-1}((R - 1/3) / (n + 1/3)) of start 3 (Hubert, Rousseeuw &
-#: Verdonck 2012, Section 3; from memory, and the same offset is in robustbase 0.95.0's
-#: ``r6pack``, which computes the DetMCD starts: ``qnorm((rank - 1/3)/(n + 1/3))``).
+#: Verdonck 2012). Source: robustbase 0.95.0's ``r6pack``, which computes the DetMCD starts:
+#: ``y3 <- qnorm((apply(x, 2L, rank) - 1/3)/(n + 1/3))`` (print ``robustbase:::r6pack`` in R);
+#: tests/test_detmcd.py checks our normal scores against values R computed with that line.
 _NORMAL_SCORE_OFFSET = 1.0 / 3.0
 #: Elements of the temporary (n, pairs) arrays of the OGK pairwise scales.
 _PAIR_BLOCK_ELEMENTS = 1 << 22
@@ -159,10 +160,10 @@ class DetStarts:
 def detmcd_starts(X: FloatMatrix, h0: int, fit_rows: IndexVector | None = None) -> DetStarts | None:
     """The six DetMCD starts as subsets of the h0 most central rows.
 
-    Steps (Hubert, Rousseeuw & Verdonck 2012, Section 3):
+    Steps (Hubert, Rousseeuw & Verdonck 2012; the same six starts as robustbase 0.95.0's ``r6pack``):
 
     1. Standardize each column by its median and robust scale: z_ij = (x_ij - med_j) / s_j.
-    2. Six estimates S_k of the shape of Z (Section 3.1):
+    2. Six estimates S_k of the shape of Z:
        (1) the correlation matrix of tanh(Z) (Pearson correlation of the transformed columns);
        (2) the Spearman correlation (of the column ranks, ties averaged);
        (3) the correlation of the normal scores Phi^{-1}((R_ij - 1/3) / (n + 1/3));
@@ -172,13 +173,11 @@ def detmcd_starts(X: FloatMatrix, h0: int, fit_rows: IndexVector | None = None) 
        first step of BACON, Billor, Hadi & Velleman 2000);
        (6) the raw OGK estimate (Maronna & Zamar 2002): the Gnanadesikan-Kettenring matrix
        u_jk = (s(z_j + z_k)^2 - s(z_j - z_k)^2) / 4.
-    3. For each S_k (Section 3.2): with E its eigenvectors and B = Z E, the scatter
+    3. For each S_k: with E its eigenvectors and B = Z E, the scatter
        Sigma_k = E diag(s(B_1)^2, ..., s(B_p)^2) E' (for start 6 this is the raw OGK scatter)
        and the location mu_k = Sigma_k^{1/2} med(Z Sigma_k^{-1/2}) (coordinate-wise median of
        the sphered data); the start is the h0 = ceil(n/2) rows with the smallest distances
        from (mu_k, Sigma_k).
-
-    (The section numbers are cited from memory; the paper was not at hand.)
 
     The scale s is the tau-scale (:func:`tau_scale`). The paper recommends Qn (Rousseeuw &
     Croux 1993) for n < 1000 and the tau-scale for larger n (so does the documentation of

@@ -3,7 +3,8 @@
 Let R be the correlation matrix of p features and P = R^-1, so VIF_i = P_ii (Marquardt 1970).
 Removing feature j leaves the correlation matrix R_{-j,-j}, whose inverse is the Schur complement
 P_{-j,-j} - P_{-j,j} P_{j,-j} / P_jj (the inverse of a partitioned matrix; e.g. Golub & Van Loan,
-Matrix Computations, 4th ed., sec. 3.2.11, cited from memory). Hence the VIF of feature i once j is
+Matrix Computations). tests/test_remedy_stats.py checks the result of every single removal against
+statsmodels' ``variance_inflation_factor`` on the remaining columns. Hence the VIF of feature i once j is
 gone is
 
     VIF_i^(-j) = P_ii - P_ij^2 / P_jj,

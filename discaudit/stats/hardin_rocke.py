@@ -117,11 +117,22 @@ def hardin_rocke_cutoff(n: int, p: int, h: int | None = None, alpha: float = 0.0
     i.e. m = 2 / Var of a diagonal element of the consistency-corrected MCD covariance
     (asymptotic variance from Croux & Haesbroeck 1999), the Wishart degrees of freedom with
     that variance. Hardin & Rocke also give a small-sample adjustment of m fitted to
-    simulations; it is not used here. **These formulas are written from memory**: they are
-    checked for internal consistency (the cut-off decreases to chi2_p(1 - alpha) as n grows,
-    m grows in proportion to n) and, in the tests, m is compared with 2 / Var of simulated
-    MCD covariance diagonals (standard normal data, n = 400): in our simulations they agree
-    to within about 20 % for p = 1, 2 and 5, in both directions; the test allows 30 %.
+    simulations; it is not used here.
+
+    Verification (tests/test_hardin_rocke_reference.py). c is checked against robustbase 0.95.0's
+    ``.MCDcons(p, alpha)``, of which it is the reciprocal. No implementation of m was at hand
+    (robustbase has none), so m is checked against (i) for p = 1, the asymptotic variance of the
+    univariate MCD variance computed in the test from its influence function, and (ii) a seeded
+    simulation with robustbase's ``covMcd`` (tests/reference/make_hardin_rocke_reference.R):
+    2 / Var of the raw covariance diagonal, and the 0.975 and 0.99 quantiles of the squared
+    distances of new rows from the raw estimate. At h/n = 1/2, the default h, m equals the
+    influence-function value (306.8 for n = 1000, p = 1) and agrees with the simulation to
+    within 16 % (m = 611.6, 61.6, 52.2 against 642, 53.3, 53.2 for (n, p) = (2000, 1),
+    (1000, 2), (400, 5)); the cut-off is within 3 % of the simulated quantiles and closer to
+    them than chi2_p(1 - alpha). **Away from h/n = 1/2 the formula is wrong**: for n = 1000,
+    p = 1 it gives m = 159.2, 50.0, 7.0 at h/n = 0.6, 0.75, 0.9 where the influence function
+    gives 397.8, 562.7, 781.0, and at h/n = 3/4 the simulation gives m = 948 (n = 2000, p = 1;
+    ours 100.0) and 267 (n = 1000, p = 2; ours 26.1). The tests mark these cases xfail.
 
     The cut-off is meant for the raw MCD distances (``MCDResult.raw_distances``), not for
     the reweighted ``MCDResult.distances``.

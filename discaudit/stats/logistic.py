@@ -37,8 +37,10 @@ UIntArray = npt.NDArray[np.uint64]
 #: scikit-learn's default C = 1, from a strong penalty to nearly none, in the features' units.
 DEFAULT_C_GRID: tuple[float, ...] = (0.01, 0.1, 1.0, 10.0, 100.0)
 
-#: Folds of the cross-validation by default: stratified 10-fold, which Kohavi (1995) found to have a
-#: low variance at a small bias among the schemes he compared (recalled from memory).
+#: Folds of the cross-validation by default: stratified 10-fold (project choice; ten folds is also the
+#: default of R caret 6.0.93's ``trainControl(method = "cv")``: ``number = ifelse(grepl("cv", method),
+#: 10, 25)``). Kohavi (1995) compared k-fold cross-validation with other schemes; his findings are not
+#: restated here, as no second source for them was at hand.
 DEFAULT_FOLDS = 10
 
 #: Fewest folds a cross-validation may fall back to when a class has fewer rows than folds.

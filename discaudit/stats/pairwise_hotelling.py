@@ -9,8 +9,8 @@ of all K classes (nu = N - K degrees of freedom),
 
 the two-sample Hotelling test with the covariance pooled over every class, as in the pairwise
 comparisons that follow a significant MANOVA (Rencher & Christensen, Methods of Multivariate
-Analysis, 3rd ed., sec. 6.3 and 5.4.2; cited from memory). With K = 2 it is Hotelling's
-two-sample test itself. The p-values of the K(K-1)/2 pairs are adjusted by Holm's step-down
+Analysis). With K = 2 it is Hotelling's two-sample test itself, which tests/test_remedy_stats.py
+checks against pingouin's ``multivariate_ttest``. The p-values of the K(K-1)/2 pairs are adjusted by Holm's step-down
 method (Holm 1979, Scand. J. Statistics 6:65-70), which controls the family-wise error rate.
 Everything follows from the class moments.
 """
