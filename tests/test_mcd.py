@@ -485,8 +485,8 @@ class TestHardinRocke:
             hardin_rocke_cutoff(100, 2, alpha=1.5)
         with pytest.raises(DataError, match="h must"):
             hardin_rocke_cutoff(100, 2, h=2)
-        with pytest.raises(DataError, match="needs more rows"):
-            hardin_rocke_cutoff(15, 5)
+        with pytest.raises(DataError, match="do not exceed p - 1"):
+            hardin_rocke_cutoff(9, 5)  # m = 3.64 at h = 7
 
 
 @pytest.mark.parametrize("seed", [1, 3])
