@@ -265,7 +265,7 @@ def test_in_background_returns_the_result_and_raises_where_it_is_asked_for(monke
         monkeypatch.setattr(_threads, "usable_cores", lambda cores=cores: cores)
         ran_on: list[str] = []
 
-        def work() -> int:
+        def work(ran_on: list[str] = ran_on) -> int:
             ran_on.append(threading.current_thread().name)
             return 41 + 1
 
