@@ -412,3 +412,18 @@ def test_cross_validation_refuses_malformed_settings() -> None:
         cross_validated_logistic(X, y, 3, max_rows=29)  # fewer than folds x classes = 30
     with pytest.raises(DataError, match="random_state"):
         cross_validated_logistic(X, y, 3, random_state=-1)
+
+
+@pytest.mark.parametrize("bad", [np.nan, np.inf, -np.inf])
+def test_non_finite_values_are_refused_by_both_scorings(bad: float) -> None:
+    from discaudit.errors import DataError
+    from discaudit.stats.logistic import cross_validated_logistic
+    from discaudit.stats.logistic_leave_one_out import leave_one_out_logistic
+
+    rng = np.random.default_rng(5)
+    X = rng.normal(size=(60, 3))
+    y = np.repeat([0, 1], 30)
+    X[17, 2] = bad
+    for estimate in (cross_validated_logistic, leave_one_out_logistic):
+        with pytest.raises(DataError, match="NaN or infinite"):
+            estimate(X, y, 2, random_state=0)

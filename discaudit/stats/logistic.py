@@ -169,8 +169,7 @@ def _row_figures(scores: FloatArray, codes: IntArray, n_classes: int) -> tuple[B
     if n_classes == 2:
         signed = np.where(codes == 1, -scores, scores)
         return correct, np.asarray(np.logaddexp(0.0, signed), dtype=np.float64)
-    top = scores.max(axis=1)
-    lse = top + np.log(np.exp(scores - top[:, None]).sum(axis=1))
+    lse = row_log_sum_exp(scores)
     return correct, np.asarray(lse - scores[np.arange(codes.size), codes], dtype=np.float64)
 
 
@@ -180,7 +179,8 @@ def _check_matrix(X: npt.ArrayLike, p: int | None = None) -> FloatArray:
         raise DataError(f"X must be two-dimensional (rows x features) with at least one feature; got {Xa.shape}.")
     if p is not None and Xa.shape[1] != p:
         raise DataError(f"X has {Xa.shape[1]} features; the fit has {p}.")
-    if not np.all(np.isfinite(Xa)):
+    # Two reductions, no n x p mask: a NaN propagates into the minimum; an infinity is the minimum or maximum.
+    if Xa.size and not (np.isfinite(Xa.min()) and np.isfinite(Xa.max())):
         raise DataError("X holds NaN or infinite values; drop or impute those rows first.")
     return Xa
 
