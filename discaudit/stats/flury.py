@@ -38,6 +38,7 @@ from discaudit.stats.moments import ClassMoments
 __all__ = ["MODELS", "FluryResult", "cpc_axes", "flury_hierarchy", "proportional_fit"]
 
 FloatArray = npt.NDArray[np.float64]
+IntArray = npt.NDArray[np.intp]
 
 #: The models, simplest first.
 MODELS = ("equal", "proportional", "cpc", "unrelated")
@@ -55,6 +56,9 @@ _MAX_ROTATIONS = 20_000
 _GRID = 64
 _NEWTON_STEPS = 40
 _GRID_ANGLES = np.linspace(0.0, np.pi, _GRID, endpoint=False)
+#: Simultaneous Newton steps between two sweeps, and halvings of a step that does not lower the objective.
+_NEWTON_PHASE_STEPS = 200
+_HALVINGS = 30
 #: Iterations of the proportional fit (times 10).
 _MAX_INNER = 100
 
@@ -160,6 +164,81 @@ def _cpc_objective(B: FloatArray, S: FloatArray, weights: FloatArray) -> float:
     return float(np.sum(weights[:, None] * np.log(diag)))
 
 
+def _sweep(B: FloatArray, S: FloatArray, w: FloatArray, rounds: list[tuple[IntArray, IntArray]]) -> float:
+    """One sweep over every pair of axes, rotating ``B`` in place; returns the largest |sin| turned.
+
+    The pairs of a sweep are taken in a round-robin schedule of disjoint pairs, each round solved
+    at once (:func:`_pair_angles`, which finds each 2 x 2 problem's global minimum).
+    """
+    K = S.shape[0]
+    largest_turn = 0.0
+    for j, m in rounds:
+        Bj, Bm = B[:, j], B[:, m]  # (p, P) copies: the pairs' columns before this round's turns
+        C = B.T @ S @ B  # (K, p, p): the matrices in the current axes; the pairs' 2 x 2 blocks are in it
+        T = np.empty((j.size, K, 2, 2))
+        T[:, :, 0, 0], T[:, :, 1, 1] = C[:, j, j].T, C[:, m, m].T
+        T[:, :, 0, 1] = T[:, :, 1, 0] = C[:, j, m].T
+        theta = _pair_angles(T, w)
+        cos, sin = np.cos(theta), np.sin(theta)
+        largest_turn = max(largest_turn, float(np.max(np.abs(sin))))
+        B[:, j], B[:, m] = Bj * cos + Bm * sin, Bm * cos - Bj * sin
+    return largest_turn
+
+
+def _newton_turns(B: FloatArray, S: FloatArray, w: FloatArray) -> FloatArray:
+    """Every pair's Newton rotation angle at once, from the current axes: the skew matrix of turns.
+
+    For the pair (j, l), f(theta) = sum_k w_k [ln a_k(theta) + ln c_k(theta)] with a_k, c_k the
+    variances along the two rotated axes; at theta = 0, with a, c, b the 2 x 2 block of the
+    class matrix in the current axes, f' = sum_k w_k 2 b (1/a - 1/c) and
+    f'' = sum_k w_k [2 (c - a)^2 / (a c) - 4 b^2 (1/a^2 + 1/c^2)]. The turn is -f'/f'' where
+    f'' > 0 and none elsewhere; entry [l, j] holds the turn of pair (j < l), entry [j, l] its
+    negative, so that B expm(Theta) turns column j towards column l.
+    """
+    C = B.T @ S @ B
+    d = np.einsum("kii->ki", C)
+    inv = 1.0 / d
+    g = 2.0 * np.einsum("k,kjl,kjl->jl", w, C, inv[:, :, None] - inv[:, None, :])
+    sq = inv * inv
+    h = np.einsum(
+        "k,kjl->jl",
+        w,
+        2.0 * (d[:, None, :] - d[:, :, None]) ** 2 * inv[:, :, None] * inv[:, None, :]
+        - 4.0 * C * C * (sq[:, :, None] + sq[:, None, :]),
+    )
+    convex = h > 0
+    theta = np.triu(np.where(convex, -g / np.where(convex, h, 1.0), 0.0), 1)
+    return np.asarray(theta.T - theta, dtype=np.float64)
+
+
+def _newton_phase(B: FloatArray, S: FloatArray, w: FloatArray, f: float) -> tuple[FloatArray, float]:
+    """All pairs turned together by their Newton angles (a Cayley rotation), halved until f decreases.
+
+    Stops when no step lowers the objective, the largest turn is below ``_ANGLE_TOL``, the gain is
+    below ``_TOL`` relative, or after ``_NEWTON_PHASE_STEPS`` steps. Returns the axes and objective.
+    """
+    p = B.shape[0]
+    eye = np.eye(p)
+    for _ in range(_NEWTON_PHASE_STEPS):
+        Theta = _newton_turns(B, S, w)
+        if float(np.max(np.abs(Theta))) < _ANGLE_TOL:
+            break
+        for _ in range(_HALVINGS):
+            # The Cayley transform (I - A/2)^-1 (I + A/2) of a skew A is an exact rotation, close to expm(A).
+            candidate = B @ np.linalg.solve(eye - Theta / 2.0, eye + Theta / 2.0)
+            value = _cpc_objective(candidate, S, w)
+            if value < f:
+                break
+            Theta = Theta / 2.0
+        else:
+            break
+        gain = f - value
+        B, f = candidate, value
+        if gain <= _TOL * max(1.0, abs(f)):
+            break
+    return B, f
+
+
 def cpc_axes(S: FloatArray, weights: FloatArray) -> tuple[FloatArray, int, bool]:
     """Maximum-likelihood common principal axes of K covariance matrices (the F-step of FG).
 
@@ -182,17 +261,24 @@ def cpc_axes(S: FloatArray, weights: FloatArray) -> tuple[FloatArray, int, bool]
 
     Notes
     -----
-    The F-step of Flury & Gautschi (1986): sweeps over every pair of columns (j, l) of B, rotating
-    that pair to minimize sum_k w_k sum_j ln(b_j' S_k b_j), the part of -2 loglik the ML solution
-    minimizes; each rotation lowers it. Flury & Gautschi solve each 2 x 2 problem with their
-    G-algorithm; here it is solved by minimizing over the rotation angle directly
+    The F-step of Flury & Gautschi (1986) minimizes sum_k w_k sum_j ln(b_j' S_k b_j), the part of
+    -2 loglik the ML solution minimizes, by sweeps over every pair of columns (j, l) of B, rotating
+    that pair to its minimum; each rotation lowers it. Flury & Gautschi solve each 2 x 2 problem
+    with their G-algorithm; here it is solved by minimizing over the rotation angle directly
     (:func:`_pair_angles`), because on seeded random 2 x 2 problems the G-algorithm started at the
-    identity stopped at a stationary point that is not the minimum in 19 of 200 cases, which slowed
-    the sweeps. The pairs of a sweep are taken in a round-robin schedule of disjoint pairs, each
-    round solved at once. Starts from the eigenvectors of the weighted mean of the S_k; stops when a
-    sweep lowers the objective (-2 log-likelihood, the units of the test statistics) by less than
-    0.001 or 1e-11 relative, or turns no pair by more than 1e-10 radians (at most 100 sweeps). With
-    equal covariances the axes are not identified and the first sweeps already stop it.
+    identity stopped at a stationary point that is not the minimum in 19 of 200 cases.
+
+    Sweeps converge linearly, and each costs p - 1 rounds of small array operations (20 sweeps,
+    0.11 s, on scikit-learn's breast cancer data, p = 30). So after one sweep from the start,
+    whose pairwise global minima take the axes near the optimum, every pair is turned at once by
+    its Newton angle (:func:`_newton_turns`; the rotation as a Cayley transform, halved until the
+    objective decreases) until that no longer lowers the objective; then a sweep checks the
+    result. If the sweep still lowers the objective by more than 0.001 (-2 log-likelihood, the
+    units of the test statistics) or 1e-11 relative and turns a pair by more than 1e-10 radians,
+    Newton steps resume from there. On the breast cancer data this ends 0.002 lower than 20 sweeps
+    at about a fifth of the time. Starts from the eigenvectors of the weighted mean of the S_k; at
+    most 100 sweeps (fewer for many features, a work cap). With equal covariances the axes are not
+    identified and the first sweeps already stop it.
     """
     K, p, _ = S.shape
     w = np.asarray(weights, dtype=np.float64)
@@ -212,23 +298,13 @@ def cpc_axes(S: FloatArray, weights: FloatArray) -> tuple[FloatArray, int, bool]
     sweeps, converged = 0, p < 2
     limit = max(1, min(_MAX_SWEEPS, _MAX_ROTATIONS // max(1, p * (p - 1) // 2)))
     for sweeps in range(1, limit + 1 if rounds else 1):  # noqa: B007 (the count is returned)
-        largest_turn = 0.0
-        for j, m in rounds:
-            Bj, Bm = B[:, j], B[:, m]  # (p, P) copies: the pairs' columns before this round's turns
-            C = B.T @ S @ B  # (K, p, p): the matrices in the current axes; the pairs' 2 x 2 blocks are in it
-            T = np.empty((j.size, K, 2, 2))
-            T[:, :, 0, 0], T[:, :, 1, 1] = C[:, j, j].T, C[:, m, m].T
-            T[:, :, 0, 1] = T[:, :, 1, 0] = C[:, j, m].T
-            theta = _pair_angles(T, w)
-            cos, sin = np.cos(theta), np.sin(theta)
-            largest_turn = max(largest_turn, float(np.max(np.abs(sin))))
-            B[:, j], B[:, m] = Bj * cos + Bm * sin, Bm * cos - Bj * sin
+        largest_turn = _sweep(B, S, w, rounds)
         current = _cpc_objective(B, S, w)
         gain = previous - current
         if largest_turn < _ANGLE_TOL or gain <= _TOL * max(1.0, abs(current)) or gain < _ABS_TOL:
             converged = True
             break
-        previous = current
+        B, previous = _newton_phase(B, S, w, current)
     variance = np.einsum("k,ki->i", w, np.einsum("ji,kjl,li->ki", B, S, B))
     order = np.argsort(-variance, kind="stable")
     B = B[:, order]
