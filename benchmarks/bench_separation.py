@@ -1,4 +1,4 @@
-"""How often the overlap certificate of the separation check fires, and the time it saves.
+"""How often the certificates of the separation check fire (overlap, separation), and the time they save.
 
 Run from the repository root::
 
@@ -8,11 +8,12 @@ Run from the repository root::
 Data: the classes of ``bench_preflight.make_data`` (three seeded Gaussian classes, class shifts of
 norm 1.5, mildly unequal covariances, one collinear feature in ten), and the same with the shifts
 scaled by ``--spread`` factors (3 and 6 by default: farther apart, up to separated one-versus-rest
-comparisons). For each case ``detect_separation`` runs with the certificate and without it
-(``certify_overlap=False``), with the audit's ``separation_max_rows`` (500) and seed 0, on one
-BLAS thread; the fastest of ``--repeat`` runs counts. Reported per (n, p, spread): comparisons,
-how many ended "none", how many the certificate decided (it can decide only "none"), whether the
-two results are identical, and both times.
+comparisons). For each case ``detect_separation`` runs with the certificates and without them
+(``certify_overlap=False, certify_separation=False``), with the audit's ``separation_max_rows``
+(500) and seed 0, on one BLAS thread; the fastest of ``--repeat`` runs counts. Reported per (n, p,
+spread): comparisons, how many ended "none", how many the overlap certificate decided (it can
+decide only "none"), how many detection programs the separation certificate stood in for, whether
+the two results agree (kinds, boundary rows, features; hyperplanes to 1e-9), and both times.
 """
 
 from __future__ import annotations
@@ -56,36 +57,52 @@ def best_time(work: Any, repeat: int) -> tuple[Any, float]:
 
 def measure(n: int, p: int, spread: float, seed: int, repeat: int) -> dict[str, Any]:
     X, y = spread_data(n, p, spread, seed)
-    fired = []
-    original = separation._overlap_weights
+    fired: list[str] = []
+    original = separation._certificate
 
-    def counting(A: np.ndarray) -> np.ndarray | None:
-        weights = original(A)
-        fired.append(weights is not None)
-        return weights
+    def counting(A: np.ndarray, row_norm: float, **kinds: bool) -> Any:
+        found = original(A, row_norm, **kinds)
+        if found is not None:
+            fired.append(found[0])
+        return found
 
     def run() -> Any:
-        fired.clear()  # one run's calls: a comparison stops at the first certificate found
+        fired.clear()  # one run's calls
         return separation.detect_separation(X, y, max_rows=MAX_ROWS, random_state=0)
 
-    separation._overlap_weights = counting  # type: ignore[assignment]
+    separation._certificate = counting  # type: ignore[assignment]
     try:
         with_cert, t_with = best_time(run, repeat)
     finally:
-        separation._overlap_weights = original  # type: ignore[assignment]
+        separation._certificate = original  # type: ignore[assignment]
     comparisons = len(with_cert.comparisons)
-    hits = sum(fired)
     without, t_without = best_time(
-        lambda: separation.detect_separation(X, y, max_rows=MAX_ROWS, random_state=0, certify_overlap=False), repeat
+        lambda: separation.detect_separation(
+            X, y, max_rows=MAX_ROWS, random_state=0, certify_overlap=False, certify_separation=False
+        ),
+        repeat,
     )
     return {
         "comparisons": comparisons,
         "none": sum(c.kind == "none" for c in without.comparisons),
-        "hits": hits,
-        "identical": with_cert == without,
+        "hits": fired.count("overlap"),
+        "separated": fired.count("separated"),
+        "identical": _agree(with_cert, without),
         "with": t_with,
         "without": t_without,
     }
+
+
+def _agree(a: Any, b: Any) -> bool:
+    """Same kinds, boundary rows and features; hyperplanes within 1e-9 (the working sets may differ)."""
+    for c, d in zip(a.comparisons, b.comparisons, strict=True):
+        if (c.kind, c.boundary_rows, c.separating_features) != (d.kind, d.boundary_rows, d.separating_features):
+            return False
+        if c.direction is not None and not np.allclose(
+            list(c.direction.values()), list(d.direction.values()), rtol=0.0, atol=1e-9
+        ):
+            return False
+    return True
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -101,20 +118,23 @@ def main(argv: list[str] | None = None) -> int:
     seeds = range(2 if args.quick else args.seeds)
     spreads = [float(s) for s in args.spread.split(",")]
     print(
-        "| (n, p) | spread | comparisons | ended none | decided by the certificate | identical | "
-        "time with (ms) | time without (ms) | saved |"
+        "| (n, p) | spread | comparisons | ended none | decided by the overlap certificate | "
+        "programs replaced by the separation certificate | agree | time with (ms) | time without (ms) | saved |"
     )
-    print("|---|---|---|---|---|---|---|---|---|")
+    print("|---|---|---|---|---|---|---|---|---|---|")
     with threadpool_limits(1):
         separation.detect_separation(*spread_data(300, 5, 1.0, 0), max_rows=MAX_ROWS, random_state=0)  # warm-up
         for n, p in sizes:
             for spread in spreads:
                 rows = [measure(n, p, spread, bench_preflight.DATA_SEED + s, args.repeat) for s in seeds]
-                total = {k: sum(r[k] for r in rows) for k in ("comparisons", "none", "hits", "with", "without")}
+                total = {
+                    k: sum(r[k] for r in rows) for k in ("comparisons", "none", "hits", "separated", "with", "without")
+                }
                 same = all(r["identical"] for r in rows)
                 saved = 1 - total["with"] / total["without"]
                 print(
                     f"| ({n:,}, {p}) | {spread:g} | {total['comparisons']} | {total['none']} | {total['hits']} | "
+                    f"{total['separated']} | "
                     f"{'yes' if same else 'NO'} | {1e3 * total['with'] / len(rows):.1f} | "
                     f"{1e3 * total['without'] / len(rows):.1f} | {100 * saved:.0f} % |",
                     flush=True,

@@ -427,6 +427,34 @@ class TestBlocks:
         assert peak < X.nbytes
 
 
+def _overlap_weights(separation, A: np.ndarray) -> np.ndarray | None:
+    """The overlap certificate's weights alone (the module's _certificate, separation not sought)."""
+    found = separation._certificate(A, 1.0, separation=False)
+    return None if found is None else found[1]
+
+
+def _assert_same_but_working_set(a, b) -> None:
+    """Two results agree except for the working sets' sizes (n_used, subsampled) and rounding.
+
+    The direction LP's equalities come from a basis of the boundary rows' span, which another
+    working set gives in other rounding: its hyperplane agrees to 1e-9, not bit for bit.
+    """
+    assert (a.classes, a.feature_names, a.n_total, a.max_rows, a.notes) == (
+        b.classes, b.feature_names, b.n_total, b.max_rows, b.notes
+    )  # fmt: skip
+    assert (a.any_complete, a.any_quasi_complete) == (b.any_complete, b.any_quasi_complete)
+    for c, d in zip(a.comparisons, b.comparisons, strict=True):
+        assert (c.label, c.versus, c.kind, c.separating_features, c.boundary_rows) == (
+            d.label, d.versus, d.kind, d.separating_features, d.boundary_rows
+        )  # fmt: skip
+        if c.direction is None:
+            assert d.direction is None
+            continue
+        assert c.direction == pytest.approx(d.direction, abs=1e-9)
+        assert c.coefficients == pytest.approx(d.coefficients, rel=1e-9, abs=1e-9)
+        assert (c.intercept, c.margin) == pytest.approx((d.intercept, d.margin), rel=1e-9, abs=1e-9)
+
+
 def _signed_design(X: np.ndarray, y: np.ndarray, positive_class) -> np.ndarray:
     """Rows a_i = s_i (z_i, 1) of the module, for all rows of one comparison."""
     import discaudit.stats.separation as separation
@@ -489,7 +517,7 @@ class TestOverlapCertificate:
         v = _values(X, c)
         sign = np.where(y == 1, 1.0, -1.0)
         assert np.all(sign * v > -1e-8)
-        assert separation._overlap_weights(_signed_design(X, y, 1)) is None
+        assert _overlap_weights(separation, _signed_design(X, y, 1)) is None
 
     @pytest.mark.parametrize("seed", range(12))
     def test_weights_prove_overlap(self, seed):
@@ -502,7 +530,7 @@ class TestOverlapCertificate:
         X, y = _overlapping_case(seed)
         positive = y == 0
         A = _signed_design(X, y, 0)
-        lam = separation._overlap_weights(A)
+        lam = _overlap_weights(separation, A)
         assert lam is not None
         assert np.all(lam > 0)
         assert np.linalg.norm(A.T @ lam) <= 1e-12 * float(lam @ np.linalg.norm(A, axis=1))
@@ -528,7 +556,7 @@ class TestOverlapCertificate:
             design = np.column_stack([X, np.ones(300)])
             yhat = design @ np.linalg.lstsq(design, s, rcond=None)[0]
             assert (np.max(s * yhat) < 1) == holds
-            lam = separation._overlap_weights(_signed_design(X, y, 1))
+            lam = _overlap_weights(separation, _signed_design(X, y, 1))
             if holds:
                 assert lam == pytest.approx((1 - s * yhat) / 2, abs=1e-12)
             else:
@@ -544,21 +572,27 @@ class TestOverlapCertificate:
         X, y = _overlapping_case(seed, n=300) if seed % 4 < 2 else _separable_case(seed)
         max_rows = 60 if seed % 2 else 2000
         fired = []
-        original = separation._overlap_weights
+        original = separation._certificate
 
-        def counting(A):
-            lam = original(A)
-            fired.append(lam is not None)
-            return lam
+        def counting(A, row_norm, **kinds):
+            found = original(A, row_norm, **kinds)
+            fired.append(found is not None and found[0] == "overlap")
+            return found
 
-        monkeypatch.setattr(separation, "_overlap_weights", counting)
+        monkeypatch.setattr(separation, "_certificate", counting)
         with_it = detect_separation(X, y, max_rows=max_rows, random_state=seed)
-        without = detect_separation(X, y, max_rows=max_rows, random_state=seed, certify_overlap=False)
-        assert with_it == without
+        without = detect_separation(
+            X, y, max_rows=max_rows, random_state=seed, certify_overlap=False, certify_separation=False
+        )
+        # A separated subsample proven by the separation certificate instead of a program can grow
+        # into a different working set (n_used); nothing else differs.
+        _assert_same_but_working_set(with_it, without)
         none = sum(c.kind == "none" for c in with_it.comparisons)
         assert sum(fired) <= none  # it can decide only "none", once per comparison
         if seed % 4 < 2 and max_rows == 2000:
             assert sum(fired) == none == len(with_it.comparisons)  # overlapping Gaussian classes
+        only_overlap = detect_separation(X, y, max_rows=max_rows, random_state=seed, certify_separation=False)
+        assert only_overlap == without  # the overlap certificate alone changes nothing, n_used included
 
     def test_no_program_runs_when_every_comparison_is_certified(self, monkeypatch):
         # Benchmark-like overlapping classes (K = 3, subsampled): the LP is never called.
@@ -572,3 +606,61 @@ class TestOverlapCertificate:
         res = detect_separation(X, y, max_rows=500, random_state=0)
         assert [c.kind for c in res.comparisons] == ["none"] * 3
         assert all(c.n_used == 500 and c.subsampled for c in res.comparisons)
+
+
+class TestSeparationCertificate:
+    """The Newton iterate that proves a working set strictly separated, in place of the detection LP."""
+
+    @pytest.mark.parametrize("seed", range(40))
+    def test_never_fires_on_overlapping_data(self, seed):
+        # Property: a beta with a_i' beta > 0 on every row cannot exist when the classes overlap.
+        # statsmodels' Logit, whose MLE exists exactly under overlap (Albert & Anderson 1984),
+        # confirms each case overlaps.
+        import discaudit.stats.separation as separation
+
+        X, y = _overlapping_case(seed)
+        positive = (y == 0).astype(int)
+        assert not _statsmodels_flags_separation(X, positive)
+        A = _signed_design(X, y, 0)
+        found = separation._certificate(A, float(np.linalg.norm(A, axis=1).max()), overlap=False)
+        assert found is None
+
+    @pytest.mark.parametrize("seed", range(0, 40, 2))
+    def test_a_proof_separates_every_row_of_the_raw_data(self, seed):
+        # Completely separable invented cases (a random hyperplane through a Gaussian cloud): when
+        # the certificate fires, its beta, taken back to the raw features, puts every row of each
+        # side strictly on its own side (checked with numpy on the raw data).
+        import discaudit.stats.separation as separation
+
+        X, y = _separable_case(seed)
+        A = _signed_design(X, y, 1)
+        found = separation._certificate(A, float(np.linalg.norm(A, axis=1).max()), overlap=False)
+        if found is None:
+            return  # not proven in 25 steps: the LP decides (test_results_identical covers that path)
+        kind, beta = found
+        assert kind == "separated"
+        assert np.all(A @ beta > 0)
+        z = (X - X.mean(axis=0)) / X.std(axis=0)
+        score = z @ beta[:-1] + beta[-1]
+        assert np.all(score[y == 1] > 0) and np.all(score[y == 0] < 0)
+
+    @pytest.mark.parametrize("name", ["load_iris", "load_wine", "load_breast_cancer"])
+    def test_open_data_need_no_detection_program(self, monkeypatch, name):
+        # Open data sets scikit-learn ships: every separated comparison is complete (the LPs without
+        # any certificate say so) and is proven without a detection LP; only the direction LP runs,
+        # and the results agree with the LP-only ones except for the working set's size.
+        import discaudit.stats.separation as separation
+
+        datasets = pytest.importorskip("sklearn.datasets")
+        X, y = getattr(datasets, name)(return_X_y=True)
+        programs = dict(max_rows=500, random_state=0)
+        plain = detect_separation(X, y, certify_overlap=False, certify_separation=False, **programs)
+        kinds = {c.kind for c in plain.comparisons}
+        assert "complete" in kinds and "quasi_complete" not in kinds
+        original = separation._strict_lp
+        ran = []
+        monkeypatch.setattr(separation, "_strict_lp", lambda A: (ran.append(A.shape), original(A))[1])
+        certified = detect_separation(X, y, **programs)
+        _assert_same_but_working_set(certified, plain)
+        separated = [c for c in plain.comparisons if c.kind != "none"]
+        assert len(ran) <= len(plain.comparisons) - len(separated)  # at most the overlapping ones
