@@ -637,30 +637,6 @@ def _certificate(
         if separation and np.all(values > _VALUE_TOL * float(np.linalg.norm(beta)) * row_norm):
             return "separated", beta.copy()
     return None
-    singular = np.linalg.svd(np.linalg.qr(A, mode="r"), compute_uv=False)
-    if not singular[-1] > _CERTIFICATE_RANK * singular[0]:
-        return None
-    lengths = np.linalg.norm(A, axis=1)
-    gamma = m * _UNIT_ROUNDOFF / (1.0 - m * _UNIT_ROUNDOFF)
-    beta = np.zeros(d)
-    for _ in range(_CERTIFICATE_STEPS):
-        lam = expit(-(A @ beta))
-        w = lam * (1.0 - lam)
-        try:
-            factor = linalg.cho_factor((A * w[:, None]).T @ A, check_finite=False)
-        except linalg.LinAlgError:  # weights underflowed: the rows look separated
-            return None
-        step = linalg.cho_solve(factor, A.T @ lam, check_finite=False)
-        if not np.all(np.isfinite(step)):
-            return None
-        mu: npt.NDArray[np.float64] = lam - w * (A @ step)
-        smallest = float(mu.min())
-        if smallest > 0:
-            drift = float(np.linalg.norm(A.T @ mu)) + gamma * float(mu @ lengths)
-            if drift <= 0.5 * smallest * float(singular[-1]):
-                return mu
-        beta += step
-    return None
 
 
 def _not_separated(label: Any, versus: tuple[Any, ...], *, n_used: int, n_total: int) -> SeparationComparison:
