@@ -60,7 +60,7 @@ def measure(n: int, p: int, spread: float, seed: int, repeat: int) -> dict[str, 
     fired: list[str] = []
     original = separation._certificate
 
-    def counting(A: np.ndarray, row_norm: float, **kinds: bool) -> Any:
+    def counting(A: np.ndarray, row_norm: Any, **kinds: bool) -> Any:
         found = original(A, row_norm, **kinds)
         if found is not None:
             fired.append(found[0])

@@ -429,7 +429,7 @@ class TestBlocks:
 
 def _overlap_weights(separation, A: np.ndarray) -> np.ndarray | None:
     """The overlap certificate's weights alone (the module's _certificate, separation not sought)."""
-    found = separation._certificate(A, 1.0, separation=False)
+    found = separation._certificate(A, lambda: 1.0, separation=False)
     return None if found is None else found[1]
 
 
@@ -622,7 +622,7 @@ class TestSeparationCertificate:
         positive = (y == 0).astype(int)
         assert not _statsmodels_flags_separation(X, positive)
         A = _signed_design(X, y, 0)
-        found = separation._certificate(A, float(np.linalg.norm(A, axis=1).max()), overlap=False)
+        found = separation._certificate(A, lambda: float(np.linalg.norm(A, axis=1).max()), overlap=False)
         assert found is None
 
     @pytest.mark.parametrize("seed", range(0, 40, 2))
@@ -634,7 +634,7 @@ class TestSeparationCertificate:
 
         X, y = _separable_case(seed)
         A = _signed_design(X, y, 1)
-        found = separation._certificate(A, float(np.linalg.norm(A, axis=1).max()), overlap=False)
+        found = separation._certificate(A, lambda: float(np.linalg.norm(A, axis=1).max()), overlap=False)
         if found is None:
             return  # not proven in 25 steps: the LP decides (test_results_identical covers that path)
         kind, beta = found

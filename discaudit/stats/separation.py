@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 from typing import Any, cast
 
@@ -591,7 +591,7 @@ def _compare(
 
 
 def _certificate(
-    A: FloatMatrix, row_norm: float, *, overlap: bool = True, separation: bool = True
+    A: FloatMatrix, row_norm: Callable[[], float], *, overlap: bool = True, separation: bool = True
 ) -> tuple[str, npt.NDArray[np.float64]] | None:
     """A proof about the rows of A from Newton's method for the logistic likelihood, or None.
 
@@ -600,8 +600,10 @@ def _certificate(
     They are sought among the linearized weights of Newton's method for the logistic likelihood
     sum_i log(1 + exp(-a_i' beta)); see the Notes of :func:`detect_separation` for the rounding
     bound. ``("separated", beta)``: an iterate beta with a_i' beta above the zero tolerance
-    1e-9 ||beta|| ``row_norm`` on every row of A, which proves the rows of A strictly separated.
-    None means "not proven": the LP decides. ``overlap`` and ``separation`` say which to seek.
+    1e-9 ||beta|| ``row_norm()`` on every row of A, which proves the rows of A strictly separated
+    (``row_norm`` is called only for an iterate positive on every row: it may cost a pass over
+    the data). None means "not proven": the LP decides. ``overlap`` and ``separation`` say which
+    to seek.
     """
     m, d = A.shape
     singular = None
@@ -634,8 +636,9 @@ def _certificate(
                     return "overlap", mu
         beta += step
         values = A @ beta
-        if separation and np.all(values > _VALUE_TOL * float(np.linalg.norm(beta)) * row_norm):
-            return "separated", beta.copy()
+        if separation and np.all(values > 0.0):
+            if np.all(values > _VALUE_TOL * float(np.linalg.norm(beta)) * row_norm()):
+                return "separated", beta.copy()
     return None
 
 
@@ -782,9 +785,7 @@ def _maximal_strict_set(
         rows = A.take(work)
         found = None
         if certify_overlap or certify_separation:
-            found = _certificate(
-                rows, A.space.largest_row_norm(), overlap=certify_overlap, separation=certify_separation
-            )
+            found = _certificate(rows, A.space.largest_row_norm, overlap=certify_overlap, separation=certify_separation)
         if found is not None and found[0] == "overlap":
             # Proven: no beta != 0 has A_W beta >= 0, so no row is strict for any separating beta.
             return np.zeros(n, dtype=bool), np.zeros(A.d), np.eye(A.d), int(work.size)
