@@ -30,7 +30,7 @@ from scipy import stats as sps
 
 from discaudit._threads import map_in_threads
 from discaudit.dataset import AuditData
-from discaudit.stats._linalg import mahalanobis_sq
+from discaudit.stats._linalg import cholesky_or_none, logdet_spd, mahalanobis_sq, sq_distances_two_metrics
 from discaudit.stats.blocks import ROW_BLOCK
 from discaudit.stats.canonical import canonical_order, canonical_ranks, content_digest, row_keys
 from discaudit.stats.far_out import FarOutFence, far_out_fence
@@ -41,6 +41,7 @@ from discaudit.stats.ties import TieScreen, screen_ties
 
 if TYPE_CHECKING:
     from discaudit.config import Config
+    from discaudit.stats.moments import ClassMoments
 
 IntArray = npt.NDArray[np.intp]
 
@@ -92,6 +93,10 @@ class RobustFits:
     fits : list of ClassFit
     distances : list of ndarray
         Squared robust (or classical, for small classes) distances on the fit's columns.
+    classical : list of ndarray
+        Squared classical distances on the fit's columns, from the class's mean and covariance
+        (the pooled covariance where the class's is singular); NaN where neither is positive
+        definite or the fit has no columns.
     beyond_cutoff, flagged : list of ndarray of bool
         Beyond the Gaussian cut-off; beyond both the cut-off and the far-out fence (gross outliers).
     orders : list of ndarray
@@ -102,6 +107,7 @@ class RobustFits:
 
     fits: list[ClassFit]
     distances: list[npt.NDArray[np.float64]]
+    classical: list[npt.NDArray[np.float64]]
     beyond_cutoff: list[npt.NDArray[np.bool_]]
     flagged: list[npt.NDArray[np.bool_]]
     orders: list[IntArray]
@@ -149,19 +155,20 @@ def _compute(data: AuditData, config: Config, random_state: int | None) -> Robus
     orders, ranks = canonical_layout(data)
     seeds = class_seeds(random_state, len(data.classes), OUTLIERS, ranks)
 
-    def one(k: int) -> tuple[ClassFit, npt.NDArray[np.float64]]:
+    def one(k: int) -> tuple[ClassFit, npt.NDArray[np.float64], npt.NDArray[np.float64]]:
         return _fit_class(data, config, k, orders[k], seeds[k])
 
     # An exact fit the screen could not foresee still makes the MCD warn; the audit records that
     # warning in the finding's details (warning filters are process state: never changed here).
     results = map_in_threads(one, range(len(data.classes)))
-    fits = [f for f, _ in results]
-    distances = [d for _, d in results]
+    fits = [f for f, _, _ in results]
+    distances = [d for _, d, _ in results]
+    classical = [c for _, _, c in results]
     beyond = [
         (d > f.cutoff) if f.usable else np.zeros(d.size, dtype=bool) for f, d in zip(fits, distances, strict=True)
     ]
     flagged = [d > f.threshold for f, d in zip(fits, distances, strict=True)]
-    return RobustFits(fits, distances, beyond, flagged, orders, ranks)
+    return RobustFits(fits, distances, classical, beyond, flagged, orders, ranks)
 
 
 def _cutoff(config: Config, n: int, p: int, h: int | None, m: int | None) -> tuple[float, str]:
@@ -206,9 +213,30 @@ def _distances(values: npt.NDArray[np.float64], rows: IntArray, columns: IntArra
     return out
 
 
+def classical_reference(moments: ClassMoments, code: int, columns: IntArray) -> tuple[Any, Any] | None:
+    """The class's classical mean and covariance on ``columns`` (the pooled covariance if the class's is
+    singular), the reference the robust distances are compared with; None without columns."""
+    if columns.size == 0:
+        return None
+    idx = np.ix_(columns, columns)
+    mean = moments.means[code][columns]
+    cov = moments.class_covariances()[code][idx]
+    if not np.all(np.isfinite(cov)) or not np.isfinite(logdet_spd(cov)):
+        cov = moments.pooled_covariance[idx]
+    return mean, cov
+
+
+def _classical_distances(data: AuditData, k: int, rows: IntArray, columns: IntArray) -> npt.NDArray[np.float64]:
+    """Squared distances of class ``k``'s rows from :func:`classical_reference` (NaN where it is not
+    positive definite)."""
+    reference = classical_reference(data.moments, k, columns)
+    got = None if reference is None else _distances(data.values, rows, columns, *reference)
+    return got if got is not None else np.full(rows.size, np.nan)
+
+
 def _fit_class(
     data: AuditData, config: Config, k: int, order: IntArray, seed: int
-) -> tuple[ClassFit, npt.NDArray[np.float64]]:
+) -> tuple[ClassFit, npt.NDArray[np.float64], npt.NDArray[np.float64]]:
     """Screen the rows a fit would use, then fit the class's continuous part (robust or classical)."""
     rows = data.class_rows(k)
     canon = rows[order]  # the class's rows in canonical order
@@ -228,7 +256,7 @@ def _fit_class(
             k, "none (no continuous feature in this class)", False, columns, np.zeros(0), np.zeros((0, 0)),
             float("inf"), "none", None, *screen, usable=False,
         )  # fmt: skip
-        return fit, np.zeros(rows.size)
+        return fit, np.zeros(rows.size), np.full(rows.size, np.nan)
     min_rows = robust_min_rows(columns.size, config)
     if rows.size >= min_rows:
         return _robust(data, config, k, rows, X[:, columns], fit_rows, columns, screen, seed)
@@ -245,8 +273,9 @@ def _robust(
     columns: IntArray,
     screen: tuple[TieScreen, Any, Any],
     seed: int,
-) -> tuple[ClassFit, npt.NDArray[np.float64]]:
-    """Reweighted FAST-MCD of the fit rows ``X`` (the class's continuous columns); every class row scored.
+) -> tuple[ClassFit, npt.NDArray[np.float64], npt.NDArray[np.float64]]:
+    """Reweighted FAST-MCD of the fit rows ``X`` (the class's continuous columns); every class row scored
+    against it and against the classical reference, in one pass.
 
     Overflow in the deterministic starts' scale (squares of standardized values near 1e150 times
     the class's spread) only gives such a row zero weight there, so it is silenced (numpy's
@@ -279,13 +308,28 @@ def _robust(
             k, method, True, columns, res.location, res.covariance, float(res.cutoff), "none (exact fit)", None,
             *screen, exact_fit=True, usable=False, info=info,
         )  # fmt: skip
-        return fit, np.zeros(rows.size)
-    d = _distances(data.values, rows, columns, res.location, res.covariance)
-    if d is None:  # cannot happen for a non-exact fit; kept as a guard
-        d = np.zeros(rows.size)
+        return fit, np.zeros(rows.size), _classical_distances(data, k, rows, columns)
+    d, d_classical = _both_distances(data, k, rows, columns, res.location, res.covariance)
     cut, rule = _cutoff(config, X.shape[0], res.p_used, res.h, res.n_reweighted)
     fence = far_out_fence(d, config.outlier_far_out_mads)
-    return ClassFit(k, method, True, columns, res.location, res.covariance, cut, rule, fence, *screen, info=info), d
+    fit = ClassFit(k, method, True, columns, res.location, res.covariance, cut, rule, fence, *screen, info=info)
+    return fit, d, d_classical
+
+
+def _both_distances(
+    data: AuditData, k: int, rows: IntArray, columns: IntArray, location: Any, covariance: Any
+) -> tuple[npt.NDArray[np.float64], npt.NDArray[np.float64]]:
+    """Robust and classical squared distances of class ``k``'s rows, read and whitened once
+    (:func:`discaudit.stats._linalg.sq_distances_two_metrics`); apart where a covariance is not
+    positive definite (robust distances 0, classical NaN when theirs cannot be had)."""
+    reference = classical_reference(data.moments, k, columns)
+    robust_L = cholesky_or_none(covariance)
+    classical_L = None if reference is None else cholesky_or_none(reference[1])
+    if robust_L is None or reference is None or classical_L is None:
+        d = _distances(data.values, rows, columns, location, covariance)
+        return (np.zeros(rows.size) if d is None else d), _classical_distances(data, k, rows, columns)
+    on = None if columns.size == data.p else columns
+    return sq_distances_two_metrics(data.values, rows, on, (location, robust_L), (reference[0], classical_L))
 
 
 def _classical(
@@ -296,7 +340,7 @@ def _classical(
     columns: IntArray,
     screen: tuple[TieScreen, Any, Any],
     min_rows: int,
-) -> tuple[ClassFit, npt.NDArray[np.float64]]:
+) -> tuple[ClassFit, npt.NDArray[np.float64], npt.NDArray[np.float64]]:
     """Classical distances for a class too small for a robust fit (pooled covariance if singular)."""
     m = data.moments
     loc = m.means[k][columns]
@@ -312,7 +356,8 @@ def _classical(
         fit = ClassFit(
             k, method, False, columns, loc, cov, float("inf"), "none", None, *screen, usable=False, info=info
         )
-        return fit, np.zeros(rows.size)
+        return fit, np.zeros(rows.size), _classical_distances(data, k, rows, columns)
     cut, rule = _cutoff(config, rows.size, int(columns.size), None, rows.size)
     fence = far_out_fence(d, config.outlier_far_out_mads)
-    return ClassFit(k, method, False, columns, loc, cov, cut, rule, fence, *screen, info=info), d
+    fit = ClassFit(k, method, False, columns, loc, cov, cut, rule, fence, *screen, info=info)
+    return fit, d, _classical_distances(data, k, rows, columns)

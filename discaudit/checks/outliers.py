@@ -23,8 +23,15 @@ import numpy as np
 import pandas as pd
 from scipy import stats as sps
 
-from discaudit._threads import map_in_threads
-from discaudit.checks._robust import ClassFit, RobustFits, canonical_layout, fits_key, robust_fits, robust_min_rows
+from discaudit.checks._robust import (
+    ClassFit,
+    RobustFits,
+    canonical_layout,
+    classical_reference,
+    fits_key,
+    robust_fits,
+    robust_min_rows,
+)
 from discaudit.dataset import AuditData, RowBlock, RowPass, RowTask
 from discaudit.findings import Finding, fmt, fmt_p, names
 from discaudit.jsonable import label
@@ -60,18 +67,6 @@ class ClassOutcome:
 def row_ref(row: Any, cls: Any) -> str:
     """How a sentence names a row: ``row 152, class benign``."""
     return f"row {row}, class {cls}"
-
-
-def _classical(moments: ClassMoments, fit: ClassFit) -> tuple[np.ndarray, np.ndarray] | None:
-    """The class's classical mean and covariance on the fit's columns (pooled if singular)."""
-    if fit.columns.size == 0:
-        return None
-    idx = np.ix_(fit.columns, fit.columns)
-    mean = moments.means[fit.code][fit.columns]
-    cov = moments.class_covariances()[fit.code][idx]
-    if not np.all(np.isfinite(cov)) or not np.isfinite(logdet_spd(cov)):
-        cov = moments.pooled_covariance[idx]
-    return mean, cov
 
 
 def _listed(d: np.ndarray, d_classical: np.ndarray, flagged: np.ndarray, labels: Any) -> list[dict[str, Any]]:
@@ -175,24 +170,10 @@ def _score_held(data: AuditData, rf: RobustFits) -> tuple[list[ClassOutcome], di
         **_per_class_lines(data.classes, rf.fits),
     }
     outcomes = []
-    m = data.moments
-
-    def classical_distances(fit: ClassFit) -> tuple[np.ndarray, np.ndarray]:
-        """The class's rows and their classical squared distances (NaN where there are none)."""
-        rows = data.class_rows(fit.code)
-        classical = _classical(m, fit)
-        d_classical = np.full(rows.size, np.nan)
-        if classical is not None:
-            values = data.values if fit.columns.size == data.p else data.values[:, fit.columns]
-            got = mahalanobis_sq(values, classical[0], classical[1], rows)
-            d_classical = got if got is not None else d_classical
-        return rows, d_classical
-
-    # One class per core: every class's rows are read once more here, O(n p^2) in all.
-    scored = map_in_threads(classical_distances, rf.fits)
-    for fit, d, beyond, flagged, (rows, d_classical) in zip(
-        rf.fits, rf.distances, rf.beyond_cutoff, rf.flagged, scored, strict=True
+    for fit, d, d_classical, beyond, flagged in zip(
+        rf.fits, rf.distances, rf.classical, rf.beyond_cutoff, rf.flagged, strict=True
     ):
+        rows = data.class_rows(fit.code)
         arrays["squared_distance"][rows] = d
         arrays["classical_squared_distance"][rows] = d_classical
         arrays["beyond_cutoff"][rows] = beyond
@@ -265,7 +246,7 @@ class _Scoring:
 
     @classmethod
     def of(cls, moments: ClassMoments, fits: tuple[ClassFit, ...]) -> _Scoring:
-        return cls(moments, fits, tuple(_classical(moments, fit) for fit in fits))
+        return cls(moments, fits, tuple(classical_reference(moments, fit.code, fit.columns) for fit in fits))
 
     def flags(self, k: int, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Robust squared distances of the rows ``X`` of fit ``k``'s class and whether each is flagged."""

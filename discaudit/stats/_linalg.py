@@ -78,12 +78,49 @@ def sq_distances_cholesky(
     return out
 
 
+def sq_distances_two_metrics(
+    X: FloatArray,
+    rows: npt.NDArray[np.intp],
+    columns: npt.NDArray[np.intp] | None,
+    first: tuple[FloatArray, FloatArray],
+    second: tuple[FloatArray, FloatArray],
+) -> tuple[FloatArray, FloatArray]:
+    """Squared Mahalanobis distances of ``X[rows][:, columns]`` under two (centre, Cholesky factor) pairs, one pass.
+
+    With z = L1^-1 (x - c1) from a triangular solve, L2^-1 (x - c2) = M z + v where M = L2^-1 L1
+    and v = L2^-1 (c1 - c2) come from two p x p triangular solves (no inverse is formed): the second
+    metric costs a matrix product on the rows already read and whitened, not a second read and
+    solve. ``columns`` None means every column. Temporaries stay at a block of rows.
+    """
+    c1, L1 = first
+    c2, L2 = second
+    M = linalg.solve_triangular(L2, L1, lower=True, check_finite=False)
+    v = linalg.solve_triangular(L2, c1 - c2, lower=True, check_finite=False)
+    trsm = linalg.get_blas_funcs("trsm", (L1,))
+    out1, out2 = np.empty(rows.size), np.empty(rows.size)
+    for a in range(0, rows.size, ROW_BLOCK):
+        block = X[rows[a : a + ROW_BLOCK]]
+        if columns is not None:
+            block = block[:, columns]
+        Z = trsm(1.0, L1, (block - c1).T, side=0, lower=1, trans_a=0, diag=0, overwrite_b=1)
+        out1[a : a + ROW_BLOCK] = np.einsum("ij,ij->j", Z, Z)
+        W = M @ Z
+        W += v[:, None]
+        out2[a : a + ROW_BLOCK] = np.einsum("ij,ij->j", W, W)
+    return out1, out2
+
+
 def mahalanobis_sq(
     X: FloatArray, centre: FloatArray, cov: FloatArray, rows: npt.NDArray[np.intp] | None = None
 ) -> FloatArray | None:
     """Squared Mahalanobis distances from ``centre`` under ``cov``; None if cov is not positive definite."""
+    L = cholesky_or_none(cov)
+    return None if L is None else sq_distances_cholesky(X, centre, L, rows)
+
+
+def cholesky_or_none(cov: FloatArray) -> FloatArray | None:
+    """The lower Cholesky factor of ``cov``, or None if it is not positive definite."""
     try:
-        L = linalg.cholesky(cov, lower=True, check_finite=False)
+        return np.asarray(linalg.cholesky(cov, lower=True, check_finite=False), dtype=np.float64)
     except linalg.LinAlgError:
         return None
-    return sq_distances_cholesky(X, centre, L, rows)
