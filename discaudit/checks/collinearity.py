@@ -6,11 +6,12 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from discaudit.checks._fourth_sums import ledoit_wolf_sums
 from discaudit.dataset import AuditData
 from discaudit.findings import Finding, fmt, names
 from discaudit.stats.condition_indices import ConditionIndicesResult, condition_indices_from_covariance
 from discaudit.stats.feature_removal import backward_elimination
-from discaudit.stats.shrinkage import pooled_ledoit_wolf_intensities
+from discaudit.stats.shrinkage import intensities_from_sums
 from discaudit.stats.shrinkage_retention import shrinkage_retention
 from discaudit.stats.vif import vif_from_covariance
 
@@ -134,9 +135,8 @@ def _removal_plan(
 def _shrinkage(data: AuditData) -> dict[str, Any]:
     """Ledoit-Wolf intensities of the pooled within-class covariance, raw and standardized."""
     m = data.moments
-    raw, standardized = pooled_ledoit_wolf_intensities(
-        data.values, data.codes, m, (False, True), None if data.coordinates is None else data.coordinates.exponents
-    )
+    sums = ledoit_wolf_sums(data)  # shared with the expected-performance check: one pass for both
+    raw, standardized = (0.0, 0.0) if sums is None else intensities_from_sums(m, sums.scales, sums.sums)
     retention = shrinkage_retention(m, standardized)
     return {
         "retained_separation": None if retention is None else retention.retained,

@@ -28,6 +28,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from discaudit.checks._fourth_sums import SCALES, ledoit_wolf_sums
 from discaudit.dataset import AuditData, RowBlock, RowTask
 from discaudit.findings import Finding, fmt, skipped
 from discaudit.jsonable import label
@@ -37,7 +38,7 @@ from discaudit.stats.logistic import K_FOLD, LogisticEstimate, cross_validated_l
 from discaudit.stats.logistic_leave_one_out import leave_one_out_logistic
 from discaudit.stats.row_keys import RowHashes, keep_share
 from discaudit.stats.seeds import PERFORMANCE_ROWS
-from discaudit.stats.shrinkage import class_centred_fourth_sums, ledoit_wolf_intensity
+from discaudit.stats.shrinkage import intensities_from_sums
 
 if TYPE_CHECKING:
     from discaudit.config import Config
@@ -138,11 +139,6 @@ class _ShrinkageForm:
     standardize: bool | str
 
 
-def _fourth_sum(means: np.ndarray, within_sd: np.ndarray, block: RowBlock) -> float:
-    """sum_i ||z_i||^4 of a block's class-centred rows on the within-class scale (Ledoit-Wolf's beta)."""
-    return float(class_centred_fourth_sums(block.values, block.codes, means, within_sd[None, :])[0])
-
-
 def _shrinkage_form(data: AuditData, scale: np.ndarray) -> _ShrinkageForm:
     """:func:`_form_of` once per data (``scale`` is the data's own total scale)."""
     return data.shared((KEY, "shrinkage_form"), lambda: _form_of(data, scale))
@@ -156,9 +152,8 @@ def _form_of(data: AuditData, scale: np.ndarray) -> _ShrinkageForm:
     within-class variances kept, the form of scikit-learn's ``shrinkage="auto"`` (which does this per
     class) pooled over the classes. The intensity is Ledoit & Wolf's (2004) on those units, from the
     class-centred rows over every row (:func:`discaudit.stats.shrinkage.ledoit_wolf_intensity`, the
-    figure ``shrinkage_intensity(X, y, standardize=True)`` gives; when the rows held are a per-class
-    sample of a larger input, each class's sum of fourth powers is estimated from its sample rows,
-    scaled by its row count, so the row pass is not read once more for it), rounded to
+    figure ``shrinkage_intensity(X, y, standardize=True)`` gives; the sum of fourth powers is the one the
+    collinearity check uses, :func:`discaudit.checks._fourth_sums.ledoit_wolf_sums`), rounded to
     ``SHRINKAGE_DECIMALS`` and scored at exactly that value. On the tuning split of
     benchmarks/validation (340 simulated cases) this form at this intensity was never more than
     0.98 points below scikit-learn's ``"auto"`` on the test rows, where shrinking toward mu I after a
@@ -170,21 +165,12 @@ def _form_of(data: AuditData, scale: np.ndarray) -> _ShrinkageForm:
     units and the grid ``SHRINKAGE_GRID`` are used, the lowest leave-one-out log-loss winning.
     """
     m = data.moments
-    within_sd = np.sqrt(np.maximum(np.diag(m.within_scatter), 0.0) / m.n_total)
-    if not np.all(within_sd > 0.0):
+    sums = ledoit_wolf_sums(data)
+    if sums is None:
         return _ShrinkageForm(SHRINKAGE_GRID, None, True)
-    fourth = functools.partial(_fourth_sum, m.means, within_sd)
-    if data.sample is None:
-        total = fourth(RowBlock(data.values, data.codes, data.row_labels))
-    else:  # a per-class sample of a larger input: each class's sum estimated from its sample rows
-        total = 0.0
-        for k in range(len(data.classes)):
-            rows = data.class_rows(k)
-            if rows.size:
-                part = fourth(RowBlock(data.values[rows], data.codes[rows], data.row_labels[rows]))
-                total += part * float(m.counts[k]) / rows.size
-    W = m.within_scatter / within_sd[:, None] / within_sd[None, :]
-    intensity = ledoit_wolf_intensity(W, int(m.n_total), float(total))
+    j = SCALES.index(True)  # the standardized scale: each feature's pooled within-class SD
+    within_sd = sums.scales[j]
+    intensity = intensities_from_sums(m, sums.scales[j : j + 1], sums.sums[j : j + 1])[0]
     a = round(float(np.clip(intensity, 0.0, 1.0)), SHRINKAGE_DECIMALS)
     return _ShrinkageForm((a,), within_sd / scale, WITHIN_CLASS)
 

@@ -128,10 +128,29 @@ def pooled_ledoit_wolf_intensities(
 ) -> tuple[float, ...]:
     """Intensities for each ``standardize`` flag, from one pass over the rows.
 
-    Without standardizing, all features are divided by one common power-of-two scale first:
-    the intensity is invariant to a common rescaling (numerator and denominator both scale
-    by c^4), and fourth powers of large values would otherwise overflow. ``exponents`` says
-    that feature j of X is ``x_j * 2**-exponents[j]`` (an exact rescaling of tiny values): the
+    The scales are :func:`ledoit_wolf_scales`'s; the intensities :func:`intensities_from_sums`'s.
+
+    Raises
+    ------
+    DataError
+        If a flag is True and a feature does not vary within classes.
+    """
+    scales = ledoit_wolf_scales(moments, standardize, exponents)
+    if scales is None:
+        return tuple(0.0 for _ in standardize)
+    return intensities_from_sums(moments, scales, class_centred_fourth_sums(X, codes, moments.means, scales))
+
+
+def ledoit_wolf_scales(
+    moments: ClassMoments, standardize: tuple[bool, ...], exponents: npt.ArrayLike | None = None
+) -> FloatArray | None:
+    """The per-feature scale of each ``standardize`` flag, one row each; None when no feature varies.
+
+    A True flag divides each feature by its pooled within-class standard deviation (divisor N).
+    Without standardizing, all features are divided by one common power-of-two scale: the
+    intensity is invariant to a common rescaling (numerator and denominator both scale by c^4),
+    and fourth powers of large values would otherwise overflow. ``exponents`` says that feature j
+    of the rows is ``x_j * 2**-exponents[j]`` (an exact rescaling of tiny values): the
     unstandardized intensity is then that of the x_j, in their own units.
 
     Raises
@@ -140,19 +159,22 @@ def pooled_ledoit_wolf_intensities(
         If a flag is True and a feature does not vary within classes.
     """
     W = moments.within_scatter
-    N = moments.n_total
-    sd = np.sqrt(np.diag(W) / N)
+    sd = np.sqrt(np.diag(W) / moments.n_total)
     if any(standardize) and np.any(sd <= 0):
         raise DataError("standardize=True needs every feature to vary within classes.")
     if not sd.max() > 0:
-        return tuple(0.0 for _ in standardize)
+        return None
     power = np.zeros(sd.shape, dtype=np.intp) if exponents is None else np.asarray(exponents, dtype=np.intp)
     with np.errstate(divide="ignore"):
         largest_log2 = float(np.max(np.log2(sd) + power))  # of the features in their own units
     with np.errstate(over="ignore"):  # a feature more than 2**1023 below the largest: scale inf, weight 0
         common = np.ldexp(1.0, int(np.round(largest_log2)) - power)
-    scales = np.array([sd if flag else common for flag in standardize])
-    fourth = class_centred_fourth_sums(X, codes, moments.means, scales)
+    return np.array([sd if flag else common for flag in standardize])
+
+
+def intensities_from_sums(moments: ClassMoments, scales: FloatArray, fourth: FloatArray) -> tuple[float, ...]:
+    """Ledoit-Wolf intensity for each row of ``scales``, given its sum of fourth powers ``fourth``."""
+    W, N = moments.within_scatter, moments.n_total
     return tuple(
         # (W / s_i) / s_j, not W / (s_i s_j): that product overflows for a rescaled tiny feature
         ledoit_wolf_intensity(W / scale[:, None] / scale[None, :], N, float(f))
