@@ -360,4 +360,6 @@ def _classical(
     cut, rule = _cutoff(config, rows.size, int(columns.size), None, rows.size)
     fence = far_out_fence(d, config.outlier_far_out_mads)
     fit = ClassFit(k, method, False, columns, loc, cov, cut, rule, fence, *screen, info=info)
-    return fit, d, _classical_distances(data, k, rows, columns)
+    reference = classical_reference(m, k, columns)
+    same = reference is not None and np.array_equal(reference[1], cov)  # the fit is the classical reference
+    return fit, d, d if same else _classical_distances(data, k, rows, columns)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+
 import numpy as np
 import numpy.typing as npt
 from scipy import linalg
@@ -59,6 +61,28 @@ def numerical_rank_tolerance(values: FloatArray, size: int) -> float:
     return float(np.max(np.abs(values)) * size * np.finfo(np.float64).eps)
 
 
+def _whitened_blocks(
+    X: FloatArray,
+    centre: FloatArray,
+    L: FloatArray,
+    rows: npt.NDArray[np.intp] | None = None,
+    columns: npt.NDArray[np.intp] | None = None,
+) -> Iterator[tuple[slice, FloatArray]]:
+    """Blocks Z = L^-1 (x - centre)' (p x block) of the rows of X (``rows`` of them, on ``columns``), with
+    their place among the rows scored; temporaries stay at a block of ROW_BLOCK rows."""
+    trsm = linalg.get_blas_funcs("trsm", (L,))
+    n = X.shape[0] if rows is None else rows.size
+    for a in range(0, n, ROW_BLOCK):
+        block = X[a : a + ROW_BLOCK] if rows is None else X[rows[a : a + ROW_BLOCK]]
+        if columns is not None:
+            block = block[:, columns]
+        # (block - centre).T is Fortran-ordered (p, rows): BLAS solves L Z = C in place, no copy.
+        yield (
+            slice(a, a + ROW_BLOCK),
+            trsm(1.0, L, (block - centre).T, side=0, lower=1, trans_a=0, diag=0, overwrite_b=1),
+        )
+
+
 def sq_distances_cholesky(
     X: FloatArray, centre: FloatArray, L: FloatArray, rows: npt.NDArray[np.intp] | None = None
 ) -> FloatArray:
@@ -67,14 +91,9 @@ def sq_distances_cholesky(
     ``L`` is the lower Cholesky factor of the covariance. ``rows`` (optional) selects the rows
     of X to score without copying them all at once. Temporaries stay at a block of rows.
     """
-    trsm = linalg.get_blas_funcs("trsm", (L,))
-    n = X.shape[0] if rows is None else rows.size
-    out = np.empty(n)
-    for a in range(0, n, ROW_BLOCK):
-        block = X[a : a + ROW_BLOCK] if rows is None else X[rows[a : a + ROW_BLOCK]]
-        # (block - centre).T is Fortran-ordered (p, rows): BLAS solves L Z = C in place, no copy.
-        Z = trsm(1.0, L, (block - centre).T, side=0, lower=1, trans_a=0, diag=0, overwrite_b=1)
-        out[a : a + ROW_BLOCK] = np.einsum("ij,ij->j", Z, Z)
+    out = np.empty(X.shape[0] if rows is None else rows.size)
+    for place, Z in _whitened_blocks(X, centre, L, rows):
+        out[place] = np.einsum("ij,ij->j", Z, Z)
     return out
 
 
@@ -96,17 +115,12 @@ def sq_distances_two_metrics(
     c2, L2 = second
     M = linalg.solve_triangular(L2, L1, lower=True, check_finite=False)
     v = linalg.solve_triangular(L2, c1 - c2, lower=True, check_finite=False)
-    trsm = linalg.get_blas_funcs("trsm", (L1,))
     out1, out2 = np.empty(rows.size), np.empty(rows.size)
-    for a in range(0, rows.size, ROW_BLOCK):
-        block = X[rows[a : a + ROW_BLOCK]]
-        if columns is not None:
-            block = block[:, columns]
-        Z = trsm(1.0, L1, (block - c1).T, side=0, lower=1, trans_a=0, diag=0, overwrite_b=1)
-        out1[a : a + ROW_BLOCK] = np.einsum("ij,ij->j", Z, Z)
+    for place, Z in _whitened_blocks(X, c1, L1, rows, columns):
+        out1[place] = np.einsum("ij,ij->j", Z, Z)
         W = M @ Z
         W += v[:, None]
-        out2[a : a + ROW_BLOCK] = np.einsum("ij,ij->j", W, W)
+        out2[place] = np.einsum("ij,ij->j", W, W)
     return out1, out2
 
 

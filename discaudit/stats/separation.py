@@ -783,9 +783,7 @@ def _maximal_strict_set(
     work = np.asarray(start, dtype=np.intp)
     while True:
         rows = A.take(work)
-        found = None
-        if certify_overlap or certify_separation:
-            found = _certificate(rows, A.space.largest_row_norm, overlap=certify_overlap, separation=certify_separation)
+        found = _certificate(rows, A.space.largest_row_norm, overlap=certify_overlap, separation=certify_separation)
         if found is not None and found[0] == "overlap":
             # Proven: no beta != 0 has A_W beta >= 0, so no row is strict for any separating beta.
             return np.zeros(n, dtype=bool), np.zeros(A.d), np.eye(A.d), int(work.size)
